@@ -1,0 +1,1 @@
+//! Breakdown criteria per medium: gas, vacuum, insulator surfaces, corona.

@@ -1,0 +1,1 @@
+//! The design file: parse, validate, expand generators into a `model::Model`.

@@ -1,0 +1,571 @@
+//! Shapes in the (r, z) half-plane, each a solid of revolution about the axis.
+//!
+//! Input: validated shape parameters in metres (from `design`). Output: signed distance
+//! functions (negative inside), bounding boxes, and the coordinates of flat faces, which the
+//! mesh turns into grid lines so that thin plates and flat faces are resolved exactly.
+//!
+//! Every shape is exact in its signed distance where that is cheap (circles, rounded
+//! rectangles, polygons with circular fillets), so that the mesh can find where a grid link
+//! crosses a surface by bisection and the field module can take the surface normal from the
+//! gradient of the distance.
+
+use serde::Serialize;
+
+/// A point in the (r, z) half-plane, metres.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Point {
+    pub r: f64,
+    pub z: f64,
+}
+
+impl Point {
+    pub fn new(r: f64, z: f64) -> Self {
+        Self { r, z }
+    }
+}
+
+/// An axis-aligned box in (r, z), metres.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct BBox {
+    pub r_min: f64,
+    pub r_max: f64,
+    pub z_min: f64,
+    pub z_max: f64,
+}
+
+impl BBox {
+    pub fn overlaps(&self, other: &BBox) -> bool {
+        self.r_min <= other.r_max
+            && other.r_min <= self.r_max
+            && self.z_min <= other.z_max
+            && other.z_min <= self.z_max
+    }
+}
+
+/// One piece of a filleted polygon outline.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+enum Piece {
+    Line {
+        a: Point,
+        b: Point,
+    },
+    /// Circular arc about `c` of radius `radius`, from angle `a0` sweeping `sweep` (radians,
+    /// signed).
+    Arc {
+        c: Point,
+        radius: f64,
+        a0: f64,
+        sweep: f64,
+    },
+}
+
+/// A solid of revolution, described by its cross-section in the (r, z) half-plane.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(tag = "shape", rename_all = "snake_case")]
+pub enum Shape {
+    /// A sphere centred on the axis.
+    Sphere { center_z: f64, radius: f64 },
+    /// A ring of circular cross-section.
+    Torus {
+        center_z: f64,
+        major_radius: f64,
+        minor_radius: f64,
+    },
+    /// A rectangle in (r, z) with its outer corners rounded by `corner_radius`. With
+    /// `r0 = 0` the body is solid and only the corners at `r1` are rounded.
+    RoundedRect {
+        r0: f64,
+        r1: f64,
+        z0: f64,
+        z1: f64,
+        corner_radius: f64,
+    },
+    /// A closed outline in (r, z) with circular fillets of radius `fillet` at every vertex.
+    Polygon {
+        points: Vec<Point>,
+        fillet: f64,
+        #[serde(skip)]
+        outline: Vec<PieceBox>,
+    },
+}
+
+/// A polygon outline piece kept private behind a newtype so that `Shape` stays comparable and
+/// printable while its derived outline stays an implementation detail.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PieceBox(Piece);
+
+impl Shape {
+    /// A polygon with filleted vertices. Points are in order (either sense); the outline is
+    /// closed automatically. `fillet` must be smaller than half of every adjacent edge's share;
+    /// larger values are clipped to what the edges allow.
+    pub fn polygon(points: Vec<Point>, fillet: f64) -> Self {
+        let outline = build_outline(&points, fillet);
+        Shape::Polygon {
+            points,
+            fillet,
+            outline,
+        }
+    }
+
+    /// Signed distance from `p` to the surface: negative inside, positive outside, metres.
+    pub fn sdf(&self, p: Point) -> f64 {
+        match self {
+            Shape::Sphere { center_z, radius } => (p.r.hypot(p.z - center_z)) - radius,
+            Shape::Torus {
+                center_z,
+                major_radius,
+                minor_radius,
+            } => (p.r - major_radius).hypot(p.z - center_z) - minor_radius,
+            Shape::RoundedRect {
+                r0,
+                r1,
+                z0,
+                z1,
+                corner_radius,
+            } => {
+                // A solid body on the axis is mirrored to negative r so that no corner is
+                // rounded on the axis itself.
+                let (lo, hi) = if *r0 <= 0.0 { (-r1, *r1) } else { (*r0, *r1) };
+                rounded_box(p, lo, hi, *z0, *z1, *corner_radius)
+            }
+            Shape::Polygon {
+                points, outline, ..
+            } => {
+                let mut d = f64::INFINITY;
+                for piece in outline {
+                    d = d.min(piece_distance(&piece.0, p));
+                }
+                if inside_polygon(points, outline, p) {
+                    -d
+                } else {
+                    d
+                }
+            }
+        }
+    }
+
+    /// Outward unit normal at (or near) `p`, from the gradient of the signed distance.
+    pub fn normal(&self, p: Point) -> Point {
+        let h = 1e-7 * (1.0 + self.scale());
+        let dr = self.sdf(Point::new(p.r + h, p.z)) - self.sdf(Point::new(p.r - h, p.z));
+        let dz = self.sdf(Point::new(p.r, p.z + h)) - self.sdf(Point::new(p.r, p.z - h));
+        let n = dr.hypot(dz);
+        if n > 0.0 {
+            Point::new(dr / n, dz / n)
+        } else {
+            Point::new(0.0, 0.0)
+        }
+    }
+
+    /// Bounding box of the cross-section.
+    pub fn bbox(&self) -> BBox {
+        match self {
+            Shape::Sphere { center_z, radius } => BBox {
+                r_min: 0.0,
+                r_max: *radius,
+                z_min: center_z - radius,
+                z_max: center_z + radius,
+            },
+            Shape::Torus {
+                center_z,
+                major_radius,
+                minor_radius,
+            } => BBox {
+                r_min: (major_radius - minor_radius).max(0.0),
+                r_max: major_radius + minor_radius,
+                z_min: center_z - minor_radius,
+                z_max: center_z + minor_radius,
+            },
+            Shape::RoundedRect { r0, r1, z0, z1, .. } => BBox {
+                r_min: r0.max(0.0),
+                r_max: *r1,
+                z_min: *z0,
+                z_max: *z1,
+            },
+            Shape::Polygon { points, .. } => {
+                let mut b = BBox {
+                    r_min: f64::INFINITY,
+                    r_max: f64::NEG_INFINITY,
+                    z_min: f64::INFINITY,
+                    z_max: f64::NEG_INFINITY,
+                };
+                for q in points {
+                    b.r_min = b.r_min.min(q.r);
+                    b.r_max = b.r_max.max(q.r);
+                    b.z_min = b.z_min.min(q.z);
+                    b.z_max = b.z_max.max(q.z);
+                }
+                b
+            }
+        }
+    }
+
+    /// A length typical of the shape, used to scale tolerances.
+    pub fn scale(&self) -> f64 {
+        let b = self.bbox();
+        (b.r_max - b.r_min).max(b.z_max - b.z_min)
+    }
+
+    /// The smallest radius of curvature on the surface (infinite for sharp-free flat shapes is
+    /// never returned: a rectangle without rounding reports 0, i.e. a sharp edge).
+    pub fn min_radius_of_curvature(&self) -> f64 {
+        match self {
+            Shape::Sphere { radius, .. } => *radius,
+            Shape::Torus { minor_radius, .. } => *minor_radius,
+            Shape::RoundedRect { corner_radius, .. } => *corner_radius,
+            Shape::Polygon { fillet, .. } => *fillet,
+        }
+    }
+
+    /// Coordinates of flat faces and centres that the mesh should place grid lines on:
+    /// `(r values, z values)`.
+    pub fn grid_hints(&self) -> (Vec<f64>, Vec<f64>) {
+        match self {
+            Shape::Sphere { center_z, radius } => (
+                vec![*radius],
+                vec![center_z - radius, *center_z, center_z + radius],
+            ),
+            Shape::Torus {
+                center_z,
+                major_radius,
+                minor_radius,
+            } => (
+                vec![major_radius + minor_radius, major_radius - minor_radius],
+                vec![*center_z],
+            ),
+            Shape::RoundedRect { r0, r1, z0, z1, .. } => {
+                let mut r = vec![*r1];
+                if *r0 > 0.0 {
+                    r.push(*r0);
+                }
+                (r, vec![*z0, *z1])
+            }
+            Shape::Polygon { points, .. } => {
+                // Axis-parallel edges are flat faces worth a grid line.
+                let mut r = Vec::new();
+                let mut z = Vec::new();
+                let n = points.len();
+                for k in 0..n {
+                    let a = points[k];
+                    let b = points[(k + 1) % n];
+                    if (a.r - b.r).abs() < 1e-12 {
+                        r.push(a.r);
+                    }
+                    if (a.z - b.z).abs() < 1e-12 {
+                        z.push(a.z);
+                    }
+                }
+                (r, z)
+            }
+        }
+    }
+
+    /// Is `p` inside (or on) the solid?
+    pub fn contains(&self, p: Point) -> bool {
+        self.sdf(p) <= 0.0
+    }
+}
+
+/// Signed distance to a box [lo, hi] × [z0, z1] with all four corners rounded by `rc`.
+fn rounded_box(p: Point, lo: f64, hi: f64, z0: f64, z1: f64, rc: f64) -> f64 {
+    let cr = 0.5 * (lo + hi);
+    let cz = 0.5 * (z0 + z1);
+    let hr = 0.5 * (hi - lo);
+    let hz = 0.5 * (z1 - z0);
+    let rc = rc.min(hr).min(hz).max(0.0);
+    let qr = (p.r - cr).abs() - (hr - rc);
+    let qz = (p.z - cz).abs() - (hz - rc);
+    let outside = qr.max(0.0).hypot(qz.max(0.0));
+    outside + qr.max(qz).min(0.0) - rc
+}
+
+fn sub(a: Point, b: Point) -> Point {
+    Point::new(a.r - b.r, a.z - b.z)
+}
+
+fn norm(a: Point) -> f64 {
+    a.r.hypot(a.z)
+}
+
+fn segment_distance(p: Point, a: Point, b: Point) -> f64 {
+    let ab = sub(b, a);
+    let ap = sub(p, a);
+    let len2 = ab.r * ab.r + ab.z * ab.z;
+    let t = if len2 > 0.0 {
+        ((ap.r * ab.r + ap.z * ab.z) / len2).clamp(0.0, 1.0)
+    } else {
+        0.0
+    };
+    norm(Point::new(ap.r - t * ab.r, ap.z - t * ab.z))
+}
+
+fn piece_distance(piece: &Piece, p: Point) -> f64 {
+    match piece {
+        Piece::Line { a, b } => segment_distance(p, *a, *b),
+        Piece::Arc {
+            c,
+            radius,
+            a0,
+            sweep,
+        } => {
+            let v = sub(p, *c);
+            let ang = v.z.atan2(v.r);
+            // Angle of p relative to the arc start, measured in the sweep's sense.
+            let mut rel = (ang - a0) * sweep.signum();
+            rel = rel.rem_euclid(std::f64::consts::TAU);
+            if rel <= sweep.abs() {
+                (norm(v) - radius).abs()
+            } else {
+                let s = Point::new(c.r + radius * a0.cos(), c.z + radius * a0.sin());
+                let e_ang = a0 + sweep;
+                let e = Point::new(c.r + radius * e_ang.cos(), c.z + radius * e_ang.sin());
+                norm(sub(p, s)).min(norm(sub(p, e)))
+            }
+        }
+    }
+}
+
+/// Builds the filleted outline of a closed polygon.
+fn build_outline(points: &[Point], fillet: f64) -> Vec<PieceBox> {
+    let n = points.len();
+    let mut pieces = Vec::new();
+    if n < 3 {
+        return pieces;
+    }
+    if fillet <= 0.0 {
+        for k in 0..n {
+            pieces.push(PieceBox(Piece::Line {
+                a: points[k],
+                b: points[(k + 1) % n],
+            }));
+        }
+        return pieces;
+    }
+    // For each vertex: the two tangent points and the arc between them.
+    let mut arcs: Vec<(Point, Point, Option<Piece>)> = Vec::with_capacity(n);
+    for k in 0..n {
+        let prev = points[(k + n - 1) % n];
+        let cur = points[k];
+        let next = points[(k + 1) % n];
+        let u = sub(prev, cur);
+        let v = sub(next, cur);
+        let lu = norm(u);
+        let lv = norm(v);
+        if lu == 0.0 || lv == 0.0 {
+            arcs.push((cur, cur, None));
+            continue;
+        }
+        let (u, v) = (
+            Point::new(u.r / lu, u.z / lu),
+            Point::new(v.r / lv, v.z / lv),
+        );
+        let cos_t = (u.r * v.r + u.z * v.z).clamp(-1.0, 1.0);
+        let theta = cos_t.acos(); // interior angle between the edges at the vertex
+        if theta < 1e-9 || (std::f64::consts::PI - theta) < 1e-9 {
+            arcs.push((cur, cur, None));
+            continue;
+        }
+        let t = (theta / 2.0).tan();
+        // Tangent distance along each edge, limited to half of each edge.
+        let mut dist = fillet / t;
+        dist = dist.min(0.5 * lu).min(0.5 * lv);
+        let radius = dist * t;
+        let pa = Point::new(cur.r + u.r * dist, cur.z + u.z * dist);
+        let pb = Point::new(cur.r + v.r * dist, cur.z + v.z * dist);
+        let bis = Point::new(u.r + v.r, u.z + v.z);
+        let lb = norm(bis);
+        let cdist = radius / (theta / 2.0).sin();
+        let c = Point::new(cur.r + bis.r / lb * cdist, cur.z + bis.z / lb * cdist);
+        let a0 = (pa.z - c.z).atan2(pa.r - c.r);
+        let a1 = (pb.z - c.z).atan2(pb.r - c.r);
+        let mut sweep = a1 - a0;
+        while sweep > std::f64::consts::PI {
+            sweep -= std::f64::consts::TAU;
+        }
+        while sweep < -std::f64::consts::PI {
+            sweep += std::f64::consts::TAU;
+        }
+        arcs.push((
+            pa,
+            pb,
+            Some(Piece::Arc {
+                c,
+                radius,
+                a0,
+                sweep,
+            }),
+        ));
+    }
+    for k in 0..n {
+        let (_, out_k, arc) = &arcs[k];
+        if let Some(arc) = arc {
+            pieces.push(PieceBox(arc.clone()));
+        }
+        let (in_next, _, _) = &arcs[(k + 1) % n];
+        pieces.push(PieceBox(Piece::Line {
+            a: *out_k,
+            b: *in_next,
+        }));
+    }
+    pieces
+}
+
+/// Inside test by crossing number on the outline, with arcs subdivided finely.
+fn inside_polygon(points: &[Point], outline: &[PieceBox], p: Point) -> bool {
+    let mut ring: Vec<Point> = Vec::with_capacity(points.len() * 8);
+    for piece in outline {
+        match &piece.0 {
+            Piece::Line { a, .. } => ring.push(*a),
+            Piece::Arc {
+                c,
+                radius,
+                a0,
+                sweep,
+            } => {
+                let steps = 64;
+                for s in 0..steps {
+                    let ang = a0 + sweep * (s as f64) / (steps as f64);
+                    ring.push(Point::new(
+                        c.r + radius * ang.cos(),
+                        c.z + radius * ang.sin(),
+                    ));
+                }
+            }
+        }
+    }
+    if ring.len() < 3 {
+        ring = points.to_vec();
+    }
+    let mut inside = false;
+    let n = ring.len();
+    let mut j = n - 1;
+    for i in 0..n {
+        let a = ring[i];
+        let b = ring[j];
+        if (a.z > p.z) != (b.z > p.z) {
+            let x = a.r + (p.z - a.z) * (b.r - a.r) / (b.z - a.z);
+            if p.r < x {
+                inside = !inside;
+            }
+        }
+        j = i;
+    }
+    inside
+}
+
+/// Finds the fraction `t` in (0, 1] along the segment from `a` (outside, sdf > 0) to `b`
+/// (inside, sdf <= 0) where the signed distance `f` changes sign, by safeguarded secant and
+/// bisection to a tolerance of `tol` metres.
+pub fn crossing<F: Fn(Point) -> f64>(f: F, a: Point, b: Point, tol: f64) -> f64 {
+    let fa = f(a);
+    let fb = f(b);
+    if fb > 0.0 || fa <= 0.0 {
+        return if fa <= 0.0 { 0.0 } else { 1.0 };
+    }
+    let len = norm(sub(b, a));
+    let (mut lo, mut hi) = (0.0f64, 1.0f64);
+    let (mut flo, mut fhi) = (fa, fb);
+    for _ in 0..200 {
+        if (hi - lo) * len <= tol {
+            break;
+        }
+        // Regula falsi step, kept inside the bracket; bisection when it stalls.
+        let mut t = lo + (hi - lo) * flo / (flo - fhi);
+        if !(t > lo + 0.05 * (hi - lo) && t < hi - 0.05 * (hi - lo)) {
+            t = 0.5 * (lo + hi);
+        }
+        let ft = f(Point::new(a.r + t * (b.r - a.r), a.z + t * (b.z - a.z)));
+        if ft > 0.0 {
+            lo = t;
+            flo = ft;
+        } else {
+            hi = t;
+            fhi = ft;
+        }
+    }
+    // Linear interpolation inside the final bracket.
+    if flo - fhi > 0.0 {
+        lo + (hi - lo) * flo / (flo - fhi)
+    } else {
+        hi
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_abs_diff_eq;
+
+    #[test]
+    fn sphere_distance_is_exact() {
+        let s = Shape::Sphere {
+            center_z: 1.0,
+            radius: 0.5,
+        };
+        assert_abs_diff_eq!(s.sdf(Point::new(0.0, 1.0)), -0.5, epsilon = 1e-15);
+        assert_abs_diff_eq!(s.sdf(Point::new(0.3, 1.4)), 0.0, epsilon = 1e-15);
+        assert_abs_diff_eq!(s.sdf(Point::new(2.0, 1.0)), 1.5, epsilon = 1e-15);
+    }
+
+    #[test]
+    fn solid_rounded_cylinder_has_no_corner_on_axis() {
+        let s = Shape::RoundedRect {
+            r0: 0.0,
+            r1: 0.3,
+            z0: 1.0,
+            z1: 1.4,
+            corner_radius: 0.08,
+        };
+        // On the axis at the flat end face: exactly on the surface.
+        assert_abs_diff_eq!(s.sdf(Point::new(0.0, 1.4)), 0.0, epsilon = 1e-15);
+        assert_abs_diff_eq!(s.sdf(Point::new(0.0, 1.5)), 0.1, epsilon = 1e-15);
+        // At the rounded corner, along the 45 degree diagonal from the corner centre.
+        let c = Point::new(0.22, 1.32);
+        let d = 0.08 / 2f64.sqrt();
+        assert_abs_diff_eq!(s.sdf(Point::new(c.r + d, c.z + d)), 0.0, epsilon = 1e-15);
+    }
+
+    #[test]
+    fn filleted_square_matches_rounded_rectangle() {
+        let pts = vec![
+            Point::new(0.1, 0.0),
+            Point::new(0.3, 0.0),
+            Point::new(0.3, 0.2),
+            Point::new(0.1, 0.2),
+        ];
+        let poly = Shape::polygon(pts, 0.05);
+        let rect = Shape::RoundedRect {
+            r0: 0.1,
+            r1: 0.3,
+            z0: 0.0,
+            z1: 0.2,
+            corner_radius: 0.05,
+        };
+        for &(r, z) in &[
+            (0.35, 0.25),
+            (0.2, 0.1),
+            (0.0, -0.1),
+            (0.31, 0.19),
+            (0.28, 0.01),
+            (0.5, 0.1),
+        ] {
+            let p = Point::new(r, z);
+            assert_abs_diff_eq!(poly.sdf(p), rect.sdf(p), epsilon = 1e-12);
+        }
+    }
+
+    #[test]
+    fn crossing_finds_the_circle() {
+        let s = Shape::Sphere {
+            center_z: 0.0,
+            radius: 1.0,
+        };
+        let t = crossing(
+            |p| s.sdf(p),
+            Point::new(2.0, 0.0),
+            Point::new(0.5, 0.0),
+            1e-12,
+        );
+        assert_abs_diff_eq!(t, 2.0 / 3.0, epsilon = 1e-10);
+    }
+}

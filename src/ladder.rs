@@ -1,0 +1,1 @@
+//! Multiplier ladder circuit model.

@@ -1,0 +1,326 @@
+//! The validated problem definition: everything in SI units, names resolved, generators expanded.
+//!
+//! Input: produced by `design::validate` from a parsed design file (or built directly by tests).
+//! Output: consumed by `grading` (electrode potentials), `mesh` (geometry), `solve`, `field` and
+//! the criteria. Nothing here knows about TOML or about the grid.
+
+use crate::geometry::{BBox, Point, Shape};
+use serde::Serialize;
+
+/// How a conductor's potential is set, before the grading network resolves it to volts.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum PotentialSpec {
+    /// Earthed: 0 V.
+    Ground,
+    /// A fraction of the terminal voltage (1.0 for the terminal itself).
+    Terminal { fraction: f64 },
+    /// A fixed potential in volts.
+    Absolute { volts: f64 },
+    /// Node `node` of the grading network of column `column` (0 = the column's `from` end).
+    Grading { column: usize, node: usize },
+    /// The loaded mean voltage of multiplier stage node `stage`.
+    Stage { stage: usize },
+}
+
+/// Where a primitive came from, for the expanded-model listing and for error messages.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum Origin {
+    /// Written directly in the design file (`[[conductor]]`, `[[dielectric]]`, ...), with the
+    /// 1-based line of its table header when known.
+    Direct { line: Option<usize> },
+    /// Made by a `[[column]]` generator.
+    Column {
+        column: usize,
+        electrode: usize,
+        line: Option<usize>,
+    },
+    /// Made by the test harness or a library caller.
+    Program,
+}
+
+/// A conductor: a surface held at a potential.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Conductor {
+    pub name: String,
+    pub shape: Shape,
+    pub potential: PotentialSpec,
+    pub origin: Origin,
+}
+
+/// A region of piecewise-constant permittivity.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Dielectric {
+    pub name: String,
+    pub shape: Shape,
+    pub eps_r: f64,
+    /// Material name from the built-in table, when one was used.
+    pub material: Option<String>,
+    /// Where the permittivity value comes from.
+    pub source: String,
+    pub origin: Origin,
+}
+
+/// A region held at vacuum (the beam-tube bore); eps_r = 1 and vacuum criteria apply.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct VacuumRegion {
+    pub name: String,
+    pub shape: Shape,
+    pub origin: Origin,
+}
+
+/// The grounded vessel.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(tag = "shape", rename_all = "snake_case")]
+pub enum Tank {
+    /// Closed cylinder r <= inner_radius, 0 <= z <= length.
+    Cylinder { inner_radius: f64, length: f64 },
+    /// Sphere of radius inner_radius centred on the axis at z = inner_radius.
+    Sphere { inner_radius: f64 },
+}
+
+/// What holds at the flat ends (z = 0, z = length) of a cylindrical tank, and at its wall.
+/// Design files always give grounded walls; `Symmetry` (zero normal field) is for analytic
+/// checks such as an infinitely long coaxial line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Wall {
+    Grounded,
+    Symmetry,
+}
+
+impl Tank {
+    /// The (r, z) box that the grid covers.
+    pub fn bbox(&self) -> BBox {
+        match *self {
+            Tank::Cylinder {
+                inner_radius,
+                length,
+            } => BBox {
+                r_min: 0.0,
+                r_max: inner_radius,
+                z_min: 0.0,
+                z_max: length,
+            },
+            Tank::Sphere { inner_radius } => BBox {
+                r_min: 0.0,
+                r_max: inner_radius,
+                z_min: 0.0,
+                z_max: 2.0 * inner_radius,
+            },
+        }
+    }
+
+    /// Signed distance to the tank wall, negative *inside the gas space*.
+    pub fn sdf_inside(&self, p: Point) -> f64 {
+        match *self {
+            Tank::Cylinder {
+                inner_radius,
+                length,
+            } => {
+                let d = [p.r - inner_radius, -p.z, p.z - length];
+                d.iter().cloned().fold(f64::NEG_INFINITY, f64::max)
+            }
+            Tank::Sphere { inner_radius } => p.r.hypot(p.z - inner_radius) - inner_radius,
+        }
+    }
+
+    /// Volume of the vessel, m³.
+    pub fn volume(&self) -> f64 {
+        match *self {
+            Tank::Cylinder {
+                inner_radius,
+                length,
+            } => std::f64::consts::PI * inner_radius * inner_radius * length,
+            Tank::Sphere { inner_radius } => {
+                4.0 / 3.0 * std::f64::consts::PI * inner_radius.powi(3)
+            }
+        }
+    }
+}
+
+/// The insulating gas that fills the tank outside vacuum regions and dielectrics.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Gas {
+    /// "air", "N2", "CO2", "SF6", or a mixture label such as "SF6:0.5,N2:0.5".
+    pub species: String,
+    /// Mole fractions by component, summing to 1.
+    pub components: Vec<(String, f64)>,
+    /// Absolute pressure, Pa.
+    pub pressure_pa: f64,
+    /// Temperature, K.
+    pub temperature_k: f64,
+}
+
+impl Gas {
+    /// Number density from the ideal-gas law, m⁻³.
+    pub fn number_density(&self) -> f64 {
+        const BOLTZMANN: f64 = 1.380_649e-23; // J/K, CODATA 2018 exact
+        self.pressure_pa / (BOLTZMANN * self.temperature_k)
+    }
+}
+
+/// Parameters of the `[[column]]` grading electrodes that later stages need.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Column {
+    pub name: String,
+    /// Conductor index at the `from` end (None = the tank, i.e. ground).
+    pub from: Option<usize>,
+    /// Conductor index at the `to` end.
+    pub to: Option<usize>,
+    /// Conductor indices of the generated electrodes, in order from `from` to `to`.
+    pub electrodes: Vec<usize>,
+    /// Grading resistor per gap, Ohm, when given.
+    pub resistor_ohm: Option<f64>,
+    /// Resistor tolerance as a fraction (0.01 for 1 %).
+    pub tolerance: Option<f64>,
+    /// Parallel strings.
+    pub strings: usize,
+    /// Protective gap firing voltage, V, when given.
+    pub protective_gap_v: Option<f64>,
+}
+
+/// The `[multiplier]` table, SI units.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Multiplier {
+    /// "half-wave" or "symmetric".
+    pub topology: String,
+    pub stages: usize,
+    pub stage_capacitance_f: f64,
+    pub drive_frequency_hz: f64,
+    pub drive_peak_v: f64,
+    pub load_current_a: f64,
+    /// None = "auto" (from the field solution); otherwise farads per node.
+    pub stray_capacitance_f: Option<f64>,
+}
+
+/// Mesh controls, SI units.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct MeshSpec {
+    /// Target spacing near conductor and dielectric surfaces, m.
+    pub cell: f64,
+    /// Largest spacing anywhere, m.
+    pub max_cell: f64,
+    /// Largest ratio between neighbouring spacings (geometric grading).
+    pub growth: f64,
+}
+
+impl MeshSpec {
+    /// The default spacing for a domain of the given size: 1/400 of its largest dimension,
+    /// graded by 1.15 up to 8 cells.
+    pub fn default_for(domain: &BBox) -> Self {
+        let size = (domain.r_max - domain.r_min).max(domain.z_max - domain.z_min);
+        let cell = size / 400.0;
+        Self {
+            cell,
+            max_cell: 8.0 * cell,
+            growth: 1.15,
+        }
+    }
+
+    /// The same spacing scaled by `factor` (a coarser grid for the grid study).
+    pub fn scaled(&self, factor: f64) -> Self {
+        Self {
+            cell: self.cell * factor,
+            max_cell: self.max_cell * factor,
+            growth: self.growth,
+        }
+    }
+}
+
+/// A point whose potential and field are reported.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Probe {
+    pub name: String,
+    pub at: Point,
+}
+
+/// Override of a built-in limit from `[checks]`, kept as data so every output can flag it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Checks {
+    pub design_factor: f64,
+    /// Key/value overrides as given (SI units), flagged "user-set" wherever they are used.
+    pub overrides: Vec<(String, f64)>,
+}
+
+impl Default for Checks {
+    fn default() -> Self {
+        Self {
+            design_factor: 1.5,
+            overrides: Vec::new(),
+        }
+    }
+}
+
+/// The whole validated design.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Model {
+    pub title: String,
+    pub tank: Tank,
+    /// Boundary condition on the flat ends of a cylindrical tank.
+    pub ends: Wall,
+    /// Boundary condition on the cylindrical wall of a cylindrical tank.
+    pub side: Wall,
+    pub gas: Option<Gas>,
+    pub terminal_voltage: f64,
+    pub conductors: Vec<Conductor>,
+    pub dielectrics: Vec<Dielectric>,
+    pub vacuum: Vec<VacuumRegion>,
+    pub columns: Vec<Column>,
+    pub multiplier: Option<Multiplier>,
+    pub checks: Checks,
+    pub mesh: MeshSpec,
+    pub probes: Vec<Probe>,
+}
+
+impl Model {
+    /// An empty model in the given tank: grounded walls, no gas, default mesh.
+    pub fn new(title: &str, tank: Tank, terminal_voltage: f64) -> Self {
+        Self {
+            title: title.to_string(),
+            tank,
+            ends: Wall::Grounded,
+            side: Wall::Grounded,
+            gas: None,
+            terminal_voltage,
+            conductors: Vec::new(),
+            dielectrics: Vec::new(),
+            vacuum: Vec::new(),
+            columns: Vec::new(),
+            multiplier: None,
+            checks: Checks::default(),
+            mesh: MeshSpec::default_for(&tank.bbox()),
+            probes: Vec::new(),
+        }
+    }
+
+    /// Relative permittivity at `p`: the last dielectric listed that contains it, else 1
+    /// (gas and vacuum are taken as 1; the gas correction of order 1e-3 is below the
+    /// numerical error).
+    pub fn eps_r_at(&self, p: Point) -> f64 {
+        let mut eps = 1.0;
+        for d in &self.dielectrics {
+            if d.shape.contains(p) {
+                eps = d.eps_r;
+            }
+        }
+        eps
+    }
+
+    /// Index of the dielectric containing `p`, if any (the last listed wins).
+    pub fn dielectric_at(&self, p: Point) -> Option<usize> {
+        let mut found = None;
+        for (k, d) in self.dielectrics.iter().enumerate() {
+            if d.shape.contains(p) {
+                found = Some(k);
+            }
+        }
+        found
+    }
+
+    /// Is `p` in a vacuum region (and not inside a dielectric)?
+    pub fn in_vacuum(&self, p: Point) -> bool {
+        self.dielectric_at(p).is_none() && self.vacuum.iter().any(|v| v.shape.contains(p))
+    }
+}
