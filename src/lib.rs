@@ -13,6 +13,8 @@
 //!   → breakdown / margin / report
 //! ```
 
+pub mod analysis;
+pub mod benchmark;
 pub mod breakdown;
 pub mod design;
 pub mod field;
@@ -21,6 +23,7 @@ pub mod grading;
 pub mod ladder;
 pub mod mesh;
 pub mod model;
+pub mod report;
 pub mod solve;
 pub mod study;
 pub mod units;

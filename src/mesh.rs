@@ -1,1 +1,648 @@
-//! mesh
+//! The (r, z) grid: graded tensor-product node lines, node classes, and where grid links cross
+//! conductor surfaces and dielectric interfaces.
+//!
+//! Input: a `model::Model` (geometry and mesh controls). Output: a `Mesh` that the solver turns
+//! into a finite-volume operator. The grid is fine (spacing `cell`) across the r and z extent of
+//! every conductor, dielectric and vacuum region and grows geometrically (ratio `growth`) away
+//! from them up to `max_cell`. Flat faces of shapes become grid lines, so thin plates and flat
+//! faces are resolved exactly. A node inside a conductor (or outside a spherical tank) is fixed;
+//! for every free node next to a fixed one the true distance to the surface along the link is
+//! found by root finding on the signed distance, which is what makes the boundary second order
+//! instead of a staircase.
+
+use crate::geometry::{Point, Shape, crossing};
+use crate::model::{Model, Tank, Wall};
+use serde::Serialize;
+use thiserror::Error;
+
+/// Identifier of what holds a fixed node: conductor index, or the tank.
+pub type FixedId = u32;
+/// The tank (always at 0 V).
+pub const TANK: FixedId = u32::MAX;
+/// A free node.
+pub const FREE: FixedId = u32::MAX - 1;
+
+/// Largest number of grid nodes a mesh may have before it is refused.
+pub const MAX_NODES: usize = 40_000_000;
+
+#[derive(Debug, Error, Clone, PartialEq)]
+pub enum MeshError {
+    #[error(
+        "conductor '{name}' is thinner than the mesh near (r, z) = ({r_mm:.2} mm, {z_mm:.2} mm): a grid link passes through it without a node inside; set [mesh] cell below {hint_mm:.2} mm or thicken the part"
+    )]
+    TooThin {
+        name: String,
+        r_mm: f64,
+        z_mm: f64,
+        hint_mm: f64,
+    },
+    #[error(
+        "the mesh would have {nodes} nodes ({nr} x {nz}), above the limit of {limit} (about {gib:.1} GiB); coarsen [mesh] cell (now {cell_mm} mm) or raise max_cell"
+    )]
+    TooLarge {
+        nodes: usize,
+        nr: usize,
+        nz: usize,
+        limit: usize,
+        gib: f64,
+        cell_mm: f64,
+    },
+    #[error("invalid mesh controls: {0}")]
+    Controls(String),
+}
+
+/// One direction of the grid: node coordinates, increasing.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Axis {
+    pub x: Vec<f64>,
+}
+
+impl Axis {
+    pub fn len(&self) -> usize {
+        self.x.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.x.is_empty()
+    }
+
+    /// Index of the last node at or below `v` (clamped to the axis).
+    pub fn locate(&self, v: f64) -> usize {
+        match self.x.binary_search_by(|a| a.total_cmp(&v)) {
+            Ok(i) => i.min(self.x.len().saturating_sub(2)),
+            Err(0) => 0,
+            Err(i) => (i - 1).min(self.x.len().saturating_sub(2)),
+        }
+    }
+
+    /// Smallest and largest spacing.
+    pub fn spacing_range(&self) -> (f64, f64) {
+        let mut lo = f64::INFINITY;
+        let mut hi: f64 = 0.0;
+        for w in self.x.windows(2) {
+            let h = w[1] - w[0];
+            lo = lo.min(h);
+            hi = hi.max(h);
+        }
+        (lo, hi)
+    }
+}
+
+/// Where a grid link from a free node meets a fixed surface.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Cut {
+    /// Fraction of the link length from the free node to the surface, in (0, 1].
+    pub theta: f64,
+    /// What is on the other side (conductor index or `TANK`).
+    pub id: FixedId,
+}
+
+/// Link directions from a node.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Dir {
+    /// +r
+    E = 0,
+    /// -r
+    W = 1,
+    /// +z
+    N = 2,
+    /// -z
+    S = 3,
+}
+
+pub const DIRS: [Dir; 4] = [Dir::E, Dir::W, Dir::N, Dir::S];
+
+/// The grid with its node classes, surface cuts and link permittivities.
+#[derive(Debug, Clone)]
+pub struct Mesh {
+    pub r: Axis,
+    pub z: Axis,
+    /// Per node (index `j * nr + i`): `FREE`, a conductor index, or `TANK`.
+    pub fixed: Vec<FixedId>,
+    /// Per node and direction: the cut, where the link from this free node ends on a surface.
+    pub cuts: Vec<[Option<Cut>; 4]>,
+    /// Effective relative permittivity of the r-link from node (i, j) to (i + 1, j), per node
+    /// index (the last column is unused); for a cut link, over the free part only.
+    pub eps_r_link: Vec<f64>,
+    /// As `eps_r_link` for the z-link from (i, j) to (i, j + 1).
+    pub eps_z_link: Vec<f64>,
+    /// Relative permittivity at each node (for field evaluation and plots).
+    pub eps_node: Vec<f64>,
+    /// Number of conductors in the model.
+    pub n_conductors: usize,
+    /// Spacing controls used.
+    pub cell: f64,
+}
+
+impl Mesh {
+    pub fn nr(&self) -> usize {
+        self.r.len()
+    }
+
+    pub fn nz(&self) -> usize {
+        self.z.len()
+    }
+
+    pub fn nodes(&self) -> usize {
+        self.nr() * self.nz()
+    }
+
+    pub fn idx(&self, i: usize, j: usize) -> usize {
+        j * self.nr() + i
+    }
+
+    pub fn point(&self, k: usize) -> Point {
+        let nr = self.nr();
+        Point::new(self.r.x[k % nr], self.z.x[k / nr])
+    }
+
+    /// Number of free nodes (the unknowns of the solve).
+    pub fn free_nodes(&self) -> usize {
+        self.fixed.iter().filter(|&&f| f == FREE).count()
+    }
+
+    /// Builds the mesh of a model.
+    pub fn build(model: &Model) -> Result<Mesh, MeshError> {
+        Self::build_with(model, true)
+    }
+
+    /// Builds the mesh, optionally without grid lines on flat faces (`snap = false`), which
+    /// analytic checks use to put every surface between nodes.
+    pub fn build_with(model: &Model, snap: bool) -> Result<Mesh, MeshError> {
+        let spec = model.mesh;
+        if !(spec.cell > 0.0 && spec.cell.is_finite()) {
+            return Err(MeshError::Controls(format!(
+                "cell must be positive, got {} m",
+                spec.cell
+            )));
+        }
+        if !(spec.growth >= 1.0 && spec.growth.is_finite()) {
+            return Err(MeshError::Controls(format!(
+                "growth must be at least 1, got {}",
+                spec.growth
+            )));
+        }
+        let dom = model.tank.bbox();
+        let mut r_feat = Vec::new();
+        let mut z_feat = Vec::new();
+        let mut r_fix = vec![dom.r_min, dom.r_max];
+        let mut z_fix = vec![dom.z_min, dom.z_max];
+        let shapes = model
+            .conductors
+            .iter()
+            .map(|c| &c.shape)
+            .chain(model.dielectrics.iter().map(|d| &d.shape))
+            .chain(model.vacuum.iter().map(|v| &v.shape));
+        for s in shapes {
+            let b = s.bbox();
+            r_feat.push((b.r_min, b.r_max));
+            z_feat.push((b.z_min, b.z_max));
+            if snap {
+                let (hr, hz) = s.grid_hints();
+                r_fix.extend(hr);
+                z_fix.extend(hz);
+            }
+        }
+        if let Tank::Sphere { inner_radius } = model.tank {
+            // The whole sphere wall is a surface: fine everywhere near it is not affordable in
+            // a tensor grid, so the wall gets the spacing of its extent.
+            r_feat.push((0.0, inner_radius));
+            z_feat.push((0.0, 2.0 * inner_radius));
+            z_fix.push(inner_radius);
+        }
+        let max_cell = spec.max_cell.max(spec.cell);
+        let r = grade_axis(
+            dom.r_min,
+            dom.r_max,
+            &r_feat,
+            &r_fix,
+            spec.cell,
+            max_cell,
+            spec.growth,
+        );
+        let z = grade_axis(
+            dom.z_min,
+            dom.z_max,
+            &z_feat,
+            &z_fix,
+            spec.cell,
+            max_cell,
+            spec.growth,
+        );
+        let nodes = r.len() * z.len();
+        if nodes > MAX_NODES {
+            return Err(MeshError::TooLarge {
+                nodes,
+                nr: r.len(),
+                nz: z.len(),
+                limit: MAX_NODES,
+                gib: nodes as f64 * 200.0 / (1u64 << 30) as f64,
+                cell_mm: spec.cell * 1e3,
+            });
+        }
+        let mut mesh = Mesh {
+            fixed: vec![FREE; nodes],
+            cuts: vec![[None; 4]; nodes],
+            eps_r_link: vec![1.0; nodes],
+            eps_z_link: vec![1.0; nodes],
+            eps_node: vec![1.0; nodes],
+            n_conductors: model.conductors.len(),
+            cell: spec.cell,
+            r,
+            z,
+        };
+        mesh.classify(model);
+        mesh.find_cuts(model)?;
+        mesh.link_permittivities(model);
+        Ok(mesh)
+    }
+
+    /// Marks nodes inside conductors and outside the tank.
+    fn classify(&mut self, model: &Model) {
+        let nr = self.nr();
+        let nz = self.nz();
+        // Tank walls.
+        match model.tank {
+            Tank::Cylinder { .. } => {
+                if model.side == Wall::Grounded {
+                    for j in 0..nz {
+                        self.fixed[j * nr + nr - 1] = TANK;
+                    }
+                }
+                if model.ends == Wall::Grounded {
+                    for i in 0..nr {
+                        self.fixed[i] = TANK;
+                        self.fixed[(nz - 1) * nr + i] = TANK;
+                    }
+                }
+            }
+            Tank::Sphere { .. } => {
+                for j in 0..nz {
+                    for i in 0..nr {
+                        let p = Point::new(self.r.x[i], self.z.x[j]);
+                        if model.tank.sdf_inside(p) >= -1e-6 * self.cell {
+                            self.fixed[j * nr + i] = TANK;
+                        }
+                    }
+                }
+            }
+        }
+        // Conductors: only the nodes inside each bounding box are tested.
+        let on_surface = 1e-6 * self.cell;
+        for (c, cond) in model.conductors.iter().enumerate() {
+            let b = cond.shape.bbox();
+            let (i0, i1) = index_range(&self.r, b.r_min, b.r_max);
+            let (j0, j1) = index_range(&self.z, b.z_min, b.z_max);
+            for j in j0..=j1 {
+                for i in i0..=i1 {
+                    let k = j * nr + i;
+                    // A node within a millionth of a cell of the surface is taken as on
+                    // it, which keeps every cut link at a well-conditioned length.
+                    if self.fixed[k] == FREE
+                        && cond.shape.sdf(Point::new(self.r.x[i], self.z.x[j])) <= on_surface
+                    {
+                        self.fixed[k] = c as FixedId;
+                    }
+                }
+            }
+        }
+    }
+
+    fn neighbour(&self, k: usize, d: Dir) -> Option<usize> {
+        let nr = self.nr();
+        let nz = self.nz();
+        let (i, j) = (k % nr, k / nr);
+        match d {
+            Dir::E => (i + 1 < nr).then_some(k + 1),
+            Dir::W => (i > 0).then(|| k - 1),
+            Dir::N => (j + 1 < nz).then_some(k + nr),
+            Dir::S => (j > 0).then(|| k - nr),
+        }
+    }
+
+    /// Finds where links from free nodes meet fixed surfaces, and refuses conductors that a
+    /// link jumps over.
+    fn find_cuts(&mut self, model: &Model) -> Result<(), MeshError> {
+        let tol = 1e-9 * self.cell.max(1e-6);
+        for k in 0..self.nodes() {
+            if self.fixed[k] != FREE {
+                continue;
+            }
+            let p = self.point(k);
+            for d in DIRS {
+                let Some(q) = self.neighbour(k, d) else {
+                    continue;
+                };
+                let id = self.fixed[q];
+                if id == FREE {
+                    continue;
+                }
+                let qp = self.point(q);
+                let theta = if id == TANK {
+                    match model.tank {
+                        // Cylinder walls lie on grid lines.
+                        Tank::Cylinder { .. } => 1.0,
+                        Tank::Sphere { .. } => crossing(|x| -model.tank.sdf_inside(x), p, qp, tol),
+                    }
+                } else {
+                    let shape: &Shape = &model.conductors[id as usize].shape;
+                    crossing(|x| shape.sdf(x), p, qp, tol)
+                };
+                // A node a hair's breadth from the surface would make a near-singular row:
+                // such a tiny gap is resolved as the node sitting on the surface.
+                let theta = theta.clamp(1e-6, 1.0);
+                self.cuts[k][d as usize] = Some(Cut { theta, id });
+            }
+        }
+        // Links with both ends free must not pass through a conductor.
+        let nr = self.nr();
+        for cond in &model.conductors {
+            let b = cond.shape.bbox();
+            let (i0, i1) = index_range(&self.r, b.r_min, b.r_max);
+            let (j0, j1) = index_range(&self.z, b.z_min, b.z_max);
+            let i0 = i0.saturating_sub(1);
+            let j0 = j0.saturating_sub(1);
+            for j in j0..=j1 {
+                for i in i0..=i1 {
+                    let k = j * nr + i;
+                    if self.fixed[k] != FREE {
+                        continue;
+                    }
+                    for (q, mid) in [
+                        (
+                            (i + 1 < nr).then_some(k + 1),
+                            (i + 1 < nr).then(|| {
+                                Point::new(0.5 * (self.r.x[i] + self.r.x[i + 1]), self.z.x[j])
+                            }),
+                        ),
+                        (
+                            (j + 1 < self.nz()).then_some(k + nr),
+                            (j + 1 < self.nz()).then(|| {
+                                Point::new(self.r.x[i], 0.5 * (self.z.x[j] + self.z.x[j + 1]))
+                            }),
+                        ),
+                    ] {
+                        if let (Some(q), Some(mid)) = (q, mid)
+                            && self.fixed[q] == FREE
+                            && cond.shape.sdf(mid) < 0.0
+                        {
+                            return Err(MeshError::TooThin {
+                                name: cond.name.clone(),
+                                r_mm: mid.r * 1e3,
+                                z_mm: mid.z * 1e3,
+                                hint_mm: 0.5 * thickness_hint(&cond.shape) * 1e3,
+                            });
+                        }
+                    }
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// Effective permittivity of each link: the harmonic mean along the link (series layers),
+    /// averaged over the two halves of the control-volume face (parallel layers), so that
+    /// interfaces both across and along a link are placed where they truly are.
+    fn link_permittivities(&mut self, model: &Model) {
+        let nr = self.nr();
+        let nz = self.nz();
+        for k in 0..self.nodes() {
+            self.eps_node[k] = model.eps_r_at(self.point(k));
+        }
+        if model.dielectrics.is_empty() {
+            return;
+        }
+        for j in 0..nz {
+            for i in 0..nr {
+                let k = j * nr + i;
+                let p = self.point(k);
+                // r-link to (i+1, j).
+                if i + 1 < nr {
+                    let q = Point::new(self.r.x[i + 1], p.z);
+                    let (a, b) = self.free_part(k, k + 1, Dir::E, Dir::W, p, q);
+                    let zs = self.z.x[j.saturating_sub(1)];
+                    let zn = self.z.x[(j + 1).min(nz - 1)];
+                    let lo = 0.25 * (zs - p.z);
+                    let hi = 0.25 * (zn - p.z);
+                    let wl = (p.z - zs) * 0.5;
+                    let wh = (zn - p.z) * 0.5;
+                    let el = series_eps(model, shift(a, 0.0, lo), shift(b, 0.0, lo));
+                    let eh = series_eps(model, shift(a, 0.0, hi), shift(b, 0.0, hi));
+                    self.eps_r_link[k] = weighted(el, wl, eh, wh);
+                }
+                // z-link to (i, j+1).
+                if j + 1 < nz {
+                    let q = Point::new(p.r, self.z.x[j + 1]);
+                    let (a, b) = self.free_part(k, k + nr, Dir::N, Dir::S, p, q);
+                    let rw = if i > 0 { self.r.x[i - 1] } else { p.r };
+                    let re = self.r.x[(i + 1).min(nr - 1)];
+                    let mw = 0.5 * (rw + p.r);
+                    let me = 0.5 * (re + p.r);
+                    // Face halves are annuli: weight by their areas.
+                    let ww = p.r * p.r - mw * mw;
+                    let we = me * me - p.r * p.r;
+                    let ew = series_eps(
+                        model,
+                        shift(a, 0.5 * (mw - p.r), 0.0),
+                        shift(b, 0.5 * (mw - p.r), 0.0),
+                    );
+                    let ee = series_eps(
+                        model,
+                        shift(a, 0.5 * (me - p.r), 0.0),
+                        shift(b, 0.5 * (me - p.r), 0.0),
+                    );
+                    self.eps_z_link[k] = weighted(ew, ww.abs(), ee, we.abs());
+                }
+            }
+        }
+    }
+
+    /// The free stretch of the link between nodes `k` and `q`: the whole link, or the part from
+    /// the free node to the surface when the other end is fixed.
+    fn free_part(
+        &self,
+        k: usize,
+        q: usize,
+        dk: Dir,
+        dq: Dir,
+        p: Point,
+        qp: Point,
+    ) -> (Point, Point) {
+        let lerp =
+            |t: f64, a: Point, b: Point| Point::new(a.r + t * (b.r - a.r), a.z + t * (b.z - a.z));
+        match (self.fixed[k] == FREE, self.fixed[q] == FREE) {
+            (true, true) => (p, qp),
+            (true, false) => {
+                let t = self.cuts[k][dk as usize].map_or(1.0, |c| c.theta);
+                (p, lerp(t, p, qp))
+            }
+            (false, true) => {
+                let t = self.cuts[q][dq as usize].map_or(1.0, |c| c.theta);
+                (lerp(t, qp, p), qp)
+            }
+            (false, false) => (p, qp),
+        }
+    }
+}
+
+fn shift(p: Point, dr: f64, dz: f64) -> Point {
+    Point::new((p.r + dr).max(0.0), p.z + dz)
+}
+
+fn weighted(a: f64, wa: f64, b: f64, wb: f64) -> f64 {
+    let w = wa + wb;
+    if w > 0.0 {
+        (a * wa + b * wb) / w
+    } else {
+        0.5 * (a + b)
+    }
+}
+
+/// Harmonic mean of the permittivity along the segment a → b, with at most one interface
+/// located by root finding on the signed distance of the dielectric that holds one end.
+fn series_eps(model: &Model, a: Point, b: Point) -> f64 {
+    let da = model.dielectric_at(a);
+    let db = model.dielectric_at(b);
+    let ea = da.map_or(1.0, |k| model.dielectrics[k].eps_r);
+    let eb = db.map_or(1.0, |k| model.dielectrics[k].eps_r);
+    if da == db {
+        return ea;
+    }
+    let len = (b.r - a.r).hypot(b.z - a.z);
+    if len == 0.0 {
+        return ea;
+    }
+    // Fraction of the segment in a's material.
+    let t = if let Some(k) = da {
+        let s = &model.dielectrics[k].shape;
+        // a is inside dielectric k: search from b (outside k) towards a.
+        1.0 - crossing(|x| s.sdf(x), b, a, 1e-12 * (1.0 + len))
+    } else if let Some(k) = db {
+        let s = &model.dielectrics[k].shape;
+        crossing(|x| s.sdf(x), a, b, 1e-12 * (1.0 + len))
+    } else {
+        0.5
+    };
+    let t = t.clamp(0.0, 1.0);
+    1.0 / (t / ea + (1.0 - t) / eb)
+}
+
+fn thickness_hint(shape: &Shape) -> f64 {
+    let b = shape.bbox();
+    (b.r_max - b.r_min).min(b.z_max - b.z_min)
+}
+
+/// Range of node indices whose coordinate lies within [lo, hi] (widened by one node).
+fn index_range(axis: &Axis, lo: f64, hi: f64) -> (usize, usize) {
+    let n = axis.len();
+    let i0 = axis.x.partition_point(|&x| x < lo).saturating_sub(1);
+    let i1 = axis.x.partition_point(|&x| x <= hi).min(n - 1);
+    (i0.min(n - 1), i1)
+}
+
+/// Target spacing at `x`: `cell` inside any feature's extent, growing geometrically away
+/// from it, never above `max_cell`.
+fn spacing_at(x: f64, feats: &[(f64, f64)], cell: f64, max_cell: f64, growth: f64) -> f64 {
+    let mut h = max_cell;
+    for &(lo, hi) in feats {
+        let d = if x < lo {
+            lo - x
+        } else if x > hi {
+            x - hi
+        } else {
+            0.0
+        };
+        h = h.min(cell + (growth - 1.0) * d);
+    }
+    h.max(cell.min(max_cell))
+}
+
+/// Node positions on [a, b]: every fixed point is a node; between fixed points the nodes
+/// equidistribute the target spacing.
+fn grade_axis(
+    a: f64,
+    b: f64,
+    feats: &[(f64, f64)],
+    fixed: &[f64],
+    cell: f64,
+    max_cell: f64,
+    growth: f64,
+) -> Axis {
+    let mut pts: Vec<f64> = fixed
+        .iter()
+        .cloned()
+        .filter(|x| x.is_finite() && *x >= a && *x <= b)
+        .collect();
+    pts.push(a);
+    pts.push(b);
+    pts.sort_by(f64::total_cmp);
+    // Merge fixed points closer than a fifth of the local spacing; the ends always stay.
+    let mut merged: Vec<f64> = Vec::with_capacity(pts.len());
+    for x in pts {
+        if let Some(&last) = merged.last() {
+            let h = spacing_at(x, feats, cell, max_cell, growth);
+            if x - last < 0.2 * h {
+                if x == b {
+                    merged.pop();
+                    merged.push(b);
+                }
+                continue;
+            }
+        }
+        merged.push(x);
+    }
+    let mut xs = vec![merged[0]];
+    for w in merged.windows(2) {
+        let (x0, x1) = (w[0], w[1]);
+        // Integral of 1/h over [x0, x1] by the midpoint rule on a fine sub-grid.
+        let samples = (((x1 - x0) / (0.1 * cell)).ceil() as usize).clamp(8, 200_000);
+        let dx = (x1 - x0) / samples as f64;
+        let mut cum = Vec::with_capacity(samples + 1);
+        cum.push(0.0);
+        let mut s = 0.0;
+        for k in 0..samples {
+            let xm = x0 + (k as f64 + 0.5) * dx;
+            s += dx / spacing_at(xm, feats, cell, max_cell, growth);
+            cum.push(s);
+        }
+        let n = (s.round() as usize).max(1);
+        // Positions where the cumulative count reaches each whole fraction.
+        let mut seg = 1usize;
+        for m in 1..n {
+            let target = s * m as f64 / n as f64;
+            while seg < samples && cum[seg] < target {
+                seg += 1;
+            }
+            let c0 = cum[seg - 1];
+            let c1 = cum[seg];
+            let f = if c1 > c0 {
+                (target - c0) / (c1 - c0)
+            } else {
+                0.0
+            };
+            xs.push(x0 + (seg as f64 - 1.0 + f) * dx);
+        }
+        xs.push(x1);
+    }
+    Axis { x: xs }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn graded_axis_keeps_fixed_points_and_spacing_limits() {
+        let ax = grade_axis(0.0, 1.0, &[(0.2, 0.3)], &[0.25, 0.2, 0.3], 0.01, 0.08, 1.2);
+        for f in [0.0, 0.2, 0.25, 0.3, 1.0] {
+            assert!(ax.x.iter().any(|&x| (x - f).abs() < 1e-12), "missing {f}");
+        }
+        let (lo, hi) = ax.spacing_range();
+        assert!(lo > 0.005 && hi <= 0.08 * 1.05, "{lo} {hi}");
+        // Neighbouring spacings grow by no more than about the growth ratio.
+        for w in ax.x.windows(3) {
+            let q = (w[2] - w[1]) / (w[1] - w[0]);
+            assert!(q < 1.35 && q > 1.0 / 1.35, "ratio {q}");
+        }
+    }
+}

@@ -1,1 +1,160 @@
-//! solver
+//! The field solve: assemble the finite-volume operator once per mesh, build the multigrid
+//! hierarchy once, then solve for any set of conductor potentials.
+//!
+//! Input: a `mesh::Mesh` and conductor potentials in volts. Output: the potential at every
+//! grid node and a `SolveInfo` (unknowns, iterations, relative residual, seconds) that goes
+//! into every report. A solve that does not reach its tolerance is an `Err` carrying the
+//! residual reached, never a quiet warning.
+
+pub mod krylov;
+pub mod multigrid;
+pub mod operator;
+
+use crate::mesh::Mesh;
+use krylov::{KrylovParams, bicgstab, pcg};
+use multigrid::{MgParams, Multigrid};
+use operator::{Operator, Scheme};
+use serde::Serialize;
+use std::time::Instant;
+use thiserror::Error;
+
+/// Solver settings.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct SolverParams {
+    pub scheme: Scheme,
+    pub krylov: KrylovParams,
+    pub multigrid: MgParams,
+}
+
+/// Figures of one solve, for the report.
+#[derive(Debug, Clone, Serialize)]
+pub struct SolveInfo {
+    pub nodes: usize,
+    pub unknowns: usize,
+    pub scheme: Scheme,
+    pub method: &'static str,
+    pub multigrid_levels: usize,
+    pub iterations: usize,
+    pub relative_residual: f64,
+    pub tolerance: f64,
+    pub seconds_assembly: f64,
+    pub seconds_multigrid_setup: f64,
+    pub seconds_solve: f64,
+    /// Bytes held by the operator, the hierarchy and the Krylov vectors.
+    pub memory_bytes: usize,
+}
+
+#[derive(Debug, Error, Clone)]
+pub enum SolveError {
+    #[error(
+        "the field solve did not converge: relative residual {relative_residual:.3e} after {iterations} iterations (tolerance {tolerance:.1e}); check for conductors that touch at different potentials or a very stretched mesh, or refine [mesh] cell"
+    )]
+    NoConvergence {
+        iterations: usize,
+        relative_residual: f64,
+        tolerance: f64,
+    },
+}
+
+/// A solved potential on a mesh.
+#[derive(Debug, Clone)]
+pub struct Solution {
+    /// Potential at every node, volts (fixed nodes hold their conductor's potential).
+    pub phi: Vec<f64>,
+    pub info: SolveInfo,
+}
+
+/// The operator and preconditioner of one mesh, reusable for many right-hand sides.
+pub struct Solver {
+    pub op: Operator,
+    mg: Multigrid,
+    params: SolverParams,
+    seconds_assembly: f64,
+    seconds_setup: f64,
+}
+
+impl Solver {
+    pub fn new(mesh: &Mesh, params: SolverParams) -> Solver {
+        let t0 = Instant::now();
+        let op = Operator::assemble(mesh, params.scheme);
+        let t1 = Instant::now();
+        let mg = Multigrid::build(&op, &mesh.r.x, &mesh.z.x, params.multigrid);
+        let t2 = Instant::now();
+        Solver {
+            op,
+            mg,
+            params,
+            seconds_assembly: (t1 - t0).as_secs_f64(),
+            seconds_setup: (t2 - t1).as_secs_f64(),
+        }
+    }
+
+    /// Solves for the given conductor potentials (volts, by conductor index), starting from
+    /// `guess` when given.
+    pub fn solve(
+        &mut self,
+        potentials: &[f64],
+        guess: Option<&[f64]>,
+    ) -> Result<Solution, SolveError> {
+        let t0 = Instant::now();
+        let b = self.op.rhs(potentials);
+        let mut x = match guess {
+            Some(g) if g.len() == b.len() => g.to_vec(),
+            _ => vec![0.0; b.len()],
+        };
+        // Fixed nodes hold their potential exactly.
+        for (k, &f) in self.op.fixed.iter().enumerate() {
+            if f != crate::mesh::FREE {
+                x[k] = b[k];
+            }
+        }
+        let (info, method) = match self.params.scheme {
+            Scheme::Symmetric => (
+                pcg(&self.op, &mut self.mg, &b, &mut x, &self.params.krylov),
+                "multigrid-preconditioned conjugate gradients",
+            ),
+            Scheme::ShortleyWeller => (
+                bicgstab(&self.op, &mut self.mg, &b, &mut x, &self.params.krylov),
+                "multigrid-preconditioned BiCGStab",
+            ),
+        };
+        let seconds_solve = t0.elapsed().as_secs_f64();
+        if !info.converged || x.iter().any(|v| !v.is_finite()) {
+            return Err(SolveError::NoConvergence {
+                iterations: info.iterations,
+                relative_residual: info.relative_residual,
+                tolerance: self.params.krylov.tolerance,
+            });
+        }
+        let n = b.len();
+        let vectors = match self.params.scheme {
+            Scheme::Symmetric => 6,
+            Scheme::ShortleyWeller => 9,
+        };
+        let memory_bytes =
+            self.op.matrix.nnz() * 12 + (n + 1) * 4 + self.mg.bytes() + vectors * 8 * n;
+        let unknowns = self
+            .op
+            .fixed
+            .iter()
+            .filter(|&&f| f == crate::mesh::FREE)
+            .count();
+        Ok(Solution {
+            phi: x,
+            info: SolveInfo {
+                nodes: n,
+                unknowns,
+                scheme: self.params.scheme,
+                method,
+                multigrid_levels: self.mg.depth(),
+                iterations: info.iterations,
+                relative_residual: info.relative_residual,
+                tolerance: self.params.krylov.tolerance,
+                seconds_assembly: self.seconds_assembly,
+                seconds_multigrid_setup: self.seconds_setup,
+                seconds_solve,
+                memory_bytes,
+            },
+        })
+    }
+}

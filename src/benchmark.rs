@@ -1,0 +1,141 @@
+//! A standard solver benchmark: a spherical electrode at 1 MV inside a grounded cylindrical
+//! tank, on a uniform grid of a chosen size, timed from assembly to converged potential.
+//!
+//! Used by `holdoff bench`, by `cargo bench`, and by the comparison script in `benches/`,
+//! which reads the symmetric operator exported by `export_operator`.
+
+use crate::geometry::Shape;
+use crate::mesh::{Mesh, MeshError};
+use crate::model::{Conductor, MeshSpec, Model, Origin, PotentialSpec, Tank};
+use crate::solve::operator::Scheme;
+use crate::solve::{SolveError, Solver, SolverParams};
+use serde::Serialize;
+use std::time::Instant;
+
+/// The benchmark model with about `nodes` grid nodes (tank 0.5 m × 1 m, nr : nz = 1 : 2).
+pub fn problem(nodes: usize) -> Model {
+    let (radius, length) = (0.5, 1.0);
+    let mut m = Model::new(
+        "benchmark: sphere in a grounded cylinder",
+        Tank::Cylinder {
+            inner_radius: radius,
+            length,
+        },
+        1e6,
+    );
+    m.conductors.push(Conductor {
+        name: "sphere".into(),
+        shape: Shape::Sphere {
+            center_z: 0.5 * length,
+            radius: 0.2,
+        },
+        potential: PotentialSpec::Terminal { fraction: 1.0 },
+        origin: Origin::Program,
+    });
+    // nr * nz = nodes with nz = 2 nr: h = radius / nr.
+    let nr = ((nodes as f64) / 2.0).sqrt().max(8.0);
+    let cell = radius / nr;
+    m.mesh = MeshSpec {
+        cell,
+        max_cell: cell,
+        growth: 1.0,
+    };
+    m
+}
+
+/// One timed solve.
+#[derive(Debug, Clone, Serialize)]
+pub struct BenchRow {
+    pub scheme: Scheme,
+    pub nodes: usize,
+    pub unknowns: usize,
+    pub iterations: usize,
+    pub relative_residual: f64,
+    pub seconds_mesh: f64,
+    pub seconds_assembly: f64,
+    pub seconds_multigrid_setup: f64,
+    pub seconds_solve: f64,
+    /// Assembly + multigrid setup + solve.
+    pub seconds_total: f64,
+    pub unknowns_per_second: f64,
+    pub bytes_per_unknown: f64,
+}
+
+#[derive(Debug, thiserror::Error)]
+pub enum BenchError {
+    #[error(transparent)]
+    Mesh(#[from] MeshError),
+    #[error(transparent)]
+    Solve(#[from] SolveError),
+}
+
+/// Builds and solves the benchmark problem of about `nodes` nodes with `scheme`.
+pub fn run(nodes: usize, scheme: Scheme, tolerance: f64) -> Result<BenchRow, BenchError> {
+    let model = problem(nodes);
+    let t0 = Instant::now();
+    let mesh = Mesh::build_with(&model, false)?;
+    let seconds_mesh = t0.elapsed().as_secs_f64();
+    let mut params = SolverParams {
+        scheme,
+        ..Default::default()
+    };
+    params.krylov.tolerance = tolerance;
+    let mut solver = Solver::new(&mesh, params);
+    let sol = solver.solve(&[model.terminal_voltage], None)?;
+    let i = &sol.info;
+    let total = i.seconds_assembly + i.seconds_multigrid_setup + i.seconds_solve;
+    Ok(BenchRow {
+        scheme,
+        nodes: i.nodes,
+        unknowns: i.unknowns,
+        iterations: i.iterations,
+        relative_residual: i.relative_residual,
+        seconds_mesh,
+        seconds_assembly: i.seconds_assembly,
+        seconds_multigrid_setup: i.seconds_multigrid_setup,
+        seconds_solve: i.seconds_solve,
+        seconds_total: total,
+        unknowns_per_second: i.unknowns as f64 / total,
+        bytes_per_unknown: i.memory_bytes as f64 / i.unknowns as f64,
+    })
+}
+
+/// Writes the symmetric operator of the benchmark problem and its right-hand side as raw
+/// little-endian arrays (`indptr.u32`, `indices.u32`, `data.f64`, `rhs.f64`, and `shape.txt`)
+/// into `dir`, for an outside solver to time on the same system.
+pub fn export_operator(
+    nodes: usize,
+    dir: &std::path::Path,
+) -> Result<usize, Box<dyn std::error::Error>> {
+    let model = problem(nodes);
+    let mesh = Mesh::build_with(&model, false)?;
+    let op = crate::solve::operator::Operator::assemble(&mesh, Scheme::Symmetric);
+    let b = op.rhs(&[model.terminal_voltage]);
+    std::fs::create_dir_all(dir)?;
+    let ip = op.matrix.indptr();
+    let bytes_u32 = |v: &[u32]| v.iter().flat_map(|x| x.to_le_bytes()).collect::<Vec<u8>>();
+    let bytes_f64 = |v: &[f64]| v.iter().flat_map(|x| x.to_le_bytes()).collect::<Vec<u8>>();
+    std::fs::write(dir.join("indptr.u32"), bytes_u32(ip.raw_storage()))?;
+    std::fs::write(dir.join("indices.u32"), bytes_u32(op.matrix.indices()))?;
+    std::fs::write(dir.join("data.f64"), bytes_f64(op.matrix.data()))?;
+    std::fs::write(dir.join("rhs.f64"), bytes_f64(&b))?;
+    std::fs::write(
+        dir.join("shape.txt"),
+        format!("{} {}\n", op.rows(), op.matrix.nnz()),
+    )?;
+    Ok(op.rows())
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    #[ignore = "timing run; use `holdoff bench`"]
+    fn print_timings() {
+        for n in [250_000usize, 1_000_000] {
+            for s in [super::Scheme::ShortleyWeller, super::Scheme::Symmetric] {
+                let r = super::run(n, s, 1e-10).expect("benchmark problem solves");
+                println!("{r:?}");
+            }
+        }
+    }
+}

@@ -1,0 +1,45 @@
+//! Argument definitions and dispatch; one file per command.
+
+mod bench;
+mod check;
+
+use clap::{Parser, Subcommand};
+use std::process::ExitCode;
+
+/// Electrostatic field and breakdown-margin review of DC accelerator columns.
+#[derive(Debug, Parser)]
+#[command(name = "holdoff", version, about, long_about = None)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Solve the field of a design file and report peak surface fields.
+    Check(check::CheckArgs),
+    /// Run `check` on the built-in demo design (an invented 750 kV SF6 column).
+    Demo(check::DemoArgs),
+    /// Time the field solver on a standard problem at several sizes.
+    Bench(bench::BenchArgs),
+}
+
+pub fn run() -> anyhow::Result<ExitCode> {
+    let cli = Cli::parse();
+    match cli.command {
+        Command::Check(a) => check::run_check(&a),
+        Command::Demo(a) => check::run_demo(&a),
+        Command::Bench(a) => bench::run(&a),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn command_line_definition_is_consistent() {
+        Cli::command().debug_assert();
+    }
+}

@@ -1,0 +1,238 @@
+//! The results model and its renderers.
+//!
+//! Input: a model, the fine `Analysis`, the grid study and the design text. Output: one
+//! `Report` value (serde `Serialize`, stable keys with SI units in their names), rendered as a
+//! terminal table (`table`) or JSON (`json`). Rendering never computes physics.
+
+pub mod cautions;
+pub mod table;
+
+use crate::analysis::Analysis;
+use crate::model::Model;
+use crate::study::GridStudy;
+use cautions::{Caution, CautionInputs};
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+
+/// Tool name and version.
+#[derive(Debug, Clone, Serialize)]
+pub struct ToolInfo {
+    pub name: &'static str,
+    pub version: &'static str,
+}
+
+/// What was analysed.
+#[derive(Debug, Clone, Serialize)]
+pub struct DesignInfo {
+    pub title: String,
+    pub file: String,
+    pub sha256: String,
+    pub terminal_voltage_v: f64,
+}
+
+/// The grid.
+#[derive(Debug, Clone, Serialize)]
+pub struct MeshInfo {
+    pub nr: usize,
+    pub nz: usize,
+    pub nodes: usize,
+    pub unknowns: usize,
+    pub cell_m: f64,
+    pub min_spacing_m: f64,
+    pub max_spacing_m: f64,
+    pub surface_samples: usize,
+}
+
+/// Solver figures (DESIGN §6 `solver`).
+#[derive(Debug, Clone, Serialize)]
+pub struct SolverSeconds {
+    pub assembly: f64,
+    pub multigrid_setup: f64,
+    pub solve: f64,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct SolverInfo {
+    pub method: &'static str,
+    pub scheme: crate::solve::operator::Scheme,
+    pub unknowns: usize,
+    pub multigrid_levels: usize,
+    pub iterations: usize,
+    pub relative_residual: f64,
+    pub tolerance: f64,
+    pub seconds: SolverSeconds,
+    pub memory_bytes: usize,
+}
+
+/// One conductor's peak (DESIGN §6 `conductors`).
+#[derive(Debug, Clone, Serialize)]
+pub struct ConductorRow {
+    pub name: String,
+    pub potential_v: f64,
+    pub peak_surface_field_v_per_m: f64,
+    pub at_m: [f64; 2],
+    pub medium: crate::field::Medium,
+    /// Estimated numerical error of the peak from the grid study, V/m.
+    pub numerical_error_v_per_m: Option<f64>,
+    pub extrapolated_peak_v_per_m: Option<f64>,
+}
+
+/// One probe (DESIGN §6 `probes`).
+#[derive(Debug, Clone, Serialize)]
+pub struct ProbeRow {
+    pub name: String,
+    pub at_m: [f64; 2],
+    pub potential_v: f64,
+    pub field_v_per_m: [f64; 2],
+    pub field_magnitude_v_per_m: f64,
+}
+
+/// Everything a check run reports.
+#[derive(Debug, Clone, Serialize)]
+pub struct Report {
+    pub tool: ToolInfo,
+    pub design: DesignInfo,
+    pub mesh: MeshInfo,
+    pub solver: SolverInfo,
+    pub conductors: Vec<ConductorRow>,
+    pub probes: Vec<ProbeRow>,
+    pub grid_study: Option<GridStudy>,
+    /// Electrostatic energy of the solved field, ½∫εE²dV, J.
+    pub field_energy_j: f64,
+    pub cautions: Vec<Caution>,
+}
+
+/// SHA-256 of the design text, hex.
+pub fn sha256_hex(text: &str) -> String {
+    let digest = Sha256::digest(text.as_bytes());
+    digest.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+impl Report {
+    pub fn new(
+        model: &Model,
+        file: &str,
+        text: &str,
+        fine: &Analysis,
+        study: Option<GridStudy>,
+    ) -> Report {
+        let info = &fine.solution.info;
+        let (min_r, max_r) = fine.mesh.r.spacing_range();
+        let (min_z, max_z) = fine.mesh.z.spacing_range();
+        let conductors = fine
+            .peaks
+            .iter()
+            .map(|p| {
+                let st = study
+                    .as_ref()
+                    .and_then(|s| s.peaks.iter().find(|q| q.conductor == p.index));
+                ConductorRow {
+                    name: p.name.clone(),
+                    potential_v: p.potential_v,
+                    peak_surface_field_v_per_m: p.peak_surface_field_v_per_m,
+                    at_m: [p.at.r, p.at.z],
+                    medium: p.medium,
+                    numerical_error_v_per_m: st.map(|s| s.error_v_per_m),
+                    extrapolated_peak_v_per_m: st.map(|s| s.extrapolated_v_per_m),
+                }
+            })
+            .collect();
+        let probes = fine
+            .probes
+            .iter()
+            .map(|p| ProbeRow {
+                name: p.name.clone(),
+                at_m: [p.field.at.r, p.field.at.z],
+                potential_v: p.field.potential_v,
+                field_v_per_m: p.field.field,
+                field_magnitude_v_per_m: p.field.field[0].hypot(p.field.field[1]),
+            })
+            .collect();
+        let gas = model.gas.as_ref();
+        let cautions = cautions::cautions(&CautionInputs {
+            terminal_voltage_v: model.terminal_voltage,
+            stored_energy_j: Some((
+                fine.energy_j,
+                "electrostatic energy of the solved field, 1/2 integral of eps E^2; the multiplier stack is not included",
+            )),
+            gas: gas.map(|g| (g.species.clone(), g.pressure_pa)),
+            sf6: gas.is_some_and(|g| {
+                g.components
+                    .iter()
+                    .any(|(s, f)| s.eq_ignore_ascii_case("SF6") && *f > 0.0)
+            }),
+        });
+        Report {
+            tool: ToolInfo {
+                name: "holdoff",
+                version: env!("CARGO_PKG_VERSION"),
+            },
+            design: DesignInfo {
+                title: model.title.clone(),
+                file: file.to_string(),
+                sha256: sha256_hex(text),
+                terminal_voltage_v: model.terminal_voltage,
+            },
+            mesh: MeshInfo {
+                nr: fine.mesh.nr(),
+                nz: fine.mesh.nz(),
+                nodes: fine.mesh.nodes(),
+                unknowns: info.unknowns,
+                cell_m: fine.mesh.cell,
+                min_spacing_m: min_r.min(min_z),
+                max_spacing_m: max_r.max(max_z),
+                surface_samples: fine.samples.len(),
+            },
+            solver: SolverInfo {
+                method: info.method,
+                scheme: info.scheme,
+                unknowns: info.unknowns,
+                multigrid_levels: info.multigrid_levels,
+                iterations: info.iterations,
+                relative_residual: info.relative_residual,
+                tolerance: info.tolerance,
+                seconds: SolverSeconds {
+                    assembly: info.seconds_assembly,
+                    multigrid_setup: info.seconds_multigrid_setup,
+                    solve: info.seconds_solve,
+                },
+                memory_bytes: info.memory_bytes,
+            },
+            conductors,
+            probes,
+            grid_study: study,
+            field_energy_j: fine.energy_j,
+            cautions,
+        }
+    }
+
+    /// The report as pretty JSON.
+    pub fn to_json(&self) -> String {
+        serde_json::to_string_pretty(self).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
+    }
+}
+
+/// Writes `bytes` to `path` through a temporary file beside it, renamed into place when
+/// complete, so that a failed run never leaves a partial file or truncates an existing one.
+pub fn write_atomic(path: &std::path::Path, bytes: &[u8]) -> std::io::Result<()> {
+    use std::io::Write;
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or_else(|| std::path::Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "output".into());
+    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    let result = (|| {
+        let mut f = std::fs::File::create(&tmp)?;
+        f.write_all(bytes)?;
+        f.sync_all()?;
+        std::fs::rename(&tmp, path)
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_file(&tmp);
+    }
+    result
+}

@@ -1,0 +1,72 @@
+//! Solver behaviour: multigrid iterations under refinement, residuals, both schemes.
+
+use holdoff::benchmark;
+use holdoff::mesh::Mesh;
+use holdoff::solve::operator::{Operator, Scheme};
+use holdoff::solve::{Solver, SolverParams};
+
+/// Iterations to 1e-10 relative residual grow by at most 2 from the coarsest to the finest of
+/// four refinements (each halving the spacing), for both boundary schemes.
+#[test]
+fn multigrid_iterations_stay_flat_under_refinement() {
+    for scheme in [Scheme::ShortleyWeller, Scheme::Symmetric] {
+        let mut its = Vec::new();
+        for nodes in [5_000usize, 20_000, 80_000, 320_000] {
+            let row = benchmark::run(nodes, scheme, 1e-10).expect("benchmark problem solves");
+            assert!(row.relative_residual <= 1e-10);
+            its.push(row.iterations);
+        }
+        assert!(
+            its.last().unwrap() - its.first().unwrap() <= 2,
+            "{scheme:?}: iterations {its:?}"
+        );
+    }
+}
+
+/// The reported residual is the true one: ‖b − Aφ‖/‖b‖ recomputed from the operator.
+#[test]
+fn reported_residual_is_the_true_residual() {
+    let model = benchmark::problem(40_000);
+    let mesh = Mesh::build_with(&model, false).expect("mesh");
+    for scheme in [Scheme::ShortleyWeller, Scheme::Symmetric] {
+        let mut solver = Solver::new(
+            &mesh,
+            SolverParams {
+                scheme,
+                ..Default::default()
+            },
+        );
+        let sol = solver.solve(&[1e6], None).expect("solve");
+        let op = Operator::assemble(&mesh, scheme);
+        let b = op.rhs(&[1e6]);
+        let mut ax = vec![0.0; b.len()];
+        op.apply(&sol.phi, &mut ax);
+        let rn: f64 = ax
+            .iter()
+            .zip(&b)
+            .map(|(x, y)| (x - y) * (x - y))
+            .sum::<f64>()
+            .sqrt();
+        let bn: f64 = b.iter().map(|x| x * x).sum::<f64>().sqrt();
+        assert!(rn / bn <= sol.info.relative_residual * 1.01 + 1e-15);
+        assert!(sol.info.relative_residual <= 1e-10);
+    }
+}
+
+/// The symmetric scheme's matrix is symmetric (so conjugate gradients apply to it).
+#[test]
+fn symmetric_scheme_matrix_is_symmetric() {
+    let model = benchmark::problem(5_000);
+    let mesh = Mesh::build_with(&model, false).expect("mesh");
+    let op = Operator::assemble(&mesh, Scheme::Symmetric);
+    let t = op.matrix.transpose_view().to_csr();
+    for (row, vec) in op.matrix.outer_iterator().enumerate() {
+        for (col, &v) in vec.iter() {
+            let w = t.get(row, col).copied().unwrap_or(0.0);
+            assert!(
+                (v - w).abs() <= 1e-12 * v.abs().max(1.0),
+                "({row}, {col}): {v} vs {w}"
+            );
+        }
+    }
+}
