@@ -5,49 +5,73 @@
 //! interpolation is bilinear in the true coordinates (so graded spacing is respected), and
 //! each coarse operator is the Galerkin product Pᵀ A P, a nine-point stencil. Fixed nodes take
 //! no correction. The smoother is alternating zebra line Gauss–Seidel (r-lines, then z-lines,
-//! each even lines first), which stays effective on the stretched cells of a graded grid; the
+//! even lines first), which stays effective on the stretched cells of a graded grid; the
 //! post-smoother runs the same steps in reverse, so for a symmetric operator the V-cycle is a
 //! symmetric positive-definite preconditioner, as conjugate gradients need. The coarsest level
 //! is solved by dense LU.
+//!
+//! The hierarchy works in single precision on padded arrays (a ring of ghost nodes with zero
+//! coefficients, so the kernels need no bounds tests): a preconditioner needs no more, and it
+//! halves the memory traffic. The Krylov iteration around it stays in double precision, so the
+//! final residual is that of the double-precision operator.
 
 use crate::solve::operator::Operator;
 use nalgebra::{DMatrix, DVector};
-
-/// Stencil slot of the neighbour at offset (di, dj).
-const fn slot(di: i32, dj: i32) -> usize {
-    ((dj + 1) * 3 + (di + 1)) as usize
-}
-const C: usize = slot(0, 0);
-const W: usize = slot(-1, 0);
-const E: usize = slot(1, 0);
-const S: usize = slot(0, -1);
-const N: usize = slot(0, 1);
 
 /// Interpolation weights along one axis: for each fine index, the coarse index below and the
 /// weights on it and on the next coarse index.
 #[derive(Debug, Clone)]
 struct AxisMap {
     c0: Vec<usize>,
-    w0: Vec<f64>,
-    w1: Vec<f64>,
+    w0: Vec<f32>,
+    w1: Vec<f32>,
 }
+
+/// Stencil slots: centre, the four axis neighbours, the four diagonal neighbours.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Slot {
+    C,
+    W,
+    E,
+    S,
+    N,
+    Sw,
+    Se,
+    Nw,
+    Ne,
+}
+
+const SLOTS: [(Slot, i32, i32); 9] = [
+    (Slot::C, 0, 0),
+    (Slot::W, -1, 0),
+    (Slot::E, 1, 0),
+    (Slot::S, 0, -1),
+    (Slot::N, 0, 1),
+    (Slot::Sw, -1, -1),
+    (Slot::Se, 1, -1),
+    (Slot::Nw, -1, 1),
+    (Slot::Ne, 1, 1),
+];
 
 #[derive(Debug, Clone)]
 struct Level {
     nr: usize,
     nz: usize,
-    /// Nine-point stencil per node.
-    st: Vec<[f64; 9]>,
-    /// Nodes that take no correction (identity rows).
-    dead: Vec<bool>,
-    /// Map from the next coarser level (None on the coarsest).
+    /// Padded row width, nr + 2.
+    pw: usize,
+    /// Whether the diagonal slots are present (coarse levels).
+    nine: bool,
+    /// Stencil coefficients by slot (index as `Slot`), padded; diagonal slots empty when
+    /// `nine` is false.
+    st: [Vec<f32>; 9],
+    /// 1 on nodes that take corrections, 0 on fixed ones; padded.
+    mask: Vec<f32>,
     map: Option<(AxisMap, AxisMap)>,
-    x: Vec<f64>,
-    b: Vec<f64>,
-    r: Vec<f64>,
-    /// Scratch for the line solves.
-    cp: Vec<f64>,
-    dp: Vec<f64>,
+    x: Vec<f32>,
+    b: Vec<f32>,
+    r: Vec<f32>,
+    cp: Vec<f32>,
+    dp: Vec<f32>,
 }
 
 /// Settings of the V-cycle.
@@ -78,7 +102,7 @@ pub struct Multigrid {
 
 fn coarse_indices(n: usize) -> Vec<usize> {
     let mut v: Vec<usize> = (0..n).step_by(2).collect();
-    if *v.last().unwrap_or(&0) != n - 1 {
+    if v.last().is_some_and(|&l| l != n - 1) {
         v.push(n - 1);
     }
     v
@@ -94,182 +118,200 @@ fn axis_map(x: &[f64], cidx: &[usize]) -> AxisMap {
         while c + 1 < cidx.len() && cidx[c + 1] <= i {
             c += 1;
         }
+        c0[i] = c;
         if cidx[c] == i {
-            c0[i] = c;
             w0[i] = 1.0;
-            w1[i] = 0.0;
         } else {
             let (a, b) = (x[cidx[c]], x[cidx[c + 1]]);
-            c0[i] = c;
-            w0[i] = (b - x[i]) / (b - a);
-            w1[i] = 1.0 - w0[i];
+            let t = (b - x[i]) / (b - a);
+            w0[i] = t as f32;
+            w1[i] = (1.0 - t) as f32;
         }
     }
     AxisMap { c0, w0, w1 }
 }
 
 impl Level {
-    fn new(nr: usize, nz: usize, st: Vec<[f64; 9]>, dead: Vec<bool>) -> Level {
-        let n = nr * nz;
+    fn new(nr: usize, nz: usize, nine: bool) -> Level {
+        let pw = nr + 2;
+        let np = pw * (nz + 2);
+        let full = || vec![0.0f32; np];
+        let st = std::array::from_fn(|s| if s < 5 || nine { full() } else { Vec::new() });
         Level {
             nr,
             nz,
+            pw,
+            nine,
             st,
-            dead,
+            mask: full(),
             map: None,
-            x: vec![0.0; n],
-            b: vec![0.0; n],
-            r: vec![0.0; n],
-            cp: vec![0.0; n],
-            dp: vec![0.0; n],
+            x: full(),
+            b: full(),
+            r: full(),
+            cp: full(),
+            dp: full(),
         }
     }
 
-    /// Sum of the stencil applied to `x` at (i, j), leaving out the slots in `skip`.
     #[inline(always)]
-    fn off_sum(&self, x: &[f64], i: usize, j: usize, skip: [usize; 3]) -> f64 {
-        let nr = self.nr;
-        let k = j * nr + i;
-        let s = &self.st[k];
-        let mut acc = 0.0;
-        for dj in -1i32..=1 {
-            let jj = j as i32 + dj;
-            if jj < 0 || jj >= self.nz as i32 {
-                continue;
-            }
-            for di in -1i32..=1 {
-                let sl = slot(di, dj);
-                if sl == skip[0] || sl == skip[1] || sl == skip[2] {
-                    continue;
-                }
-                let ii = i as i32 + di;
-                if ii < 0 || ii >= nr as i32 {
-                    continue;
-                }
-                let a = s[sl];
-                if a != 0.0 {
-                    acc += a * x[jj as usize * nr + ii as usize];
-                }
-            }
-        }
-        acc
+    fn p(&self, i: usize, j: usize) -> usize {
+        (j + 1) * self.pw + i + 1
+    }
+
+    fn bytes(&self) -> usize {
+        let np = self.pw * (self.nz + 2);
+        let slots = if self.nine { 9 } else { 5 };
+        np * 4 * (slots + 6)
     }
 
     /// Exact solves on every r-line of one colour (j ≡ colour mod 2).
     fn relax_r_lines(&mut self, colour: usize) {
-        let nr = self.nr;
-        let mut x = std::mem::take(&mut self.x);
+        let (nr, pw) = (self.nr, self.pw);
+        let [c, w, e, s, n, sw, se, nw, ne] = &self.st;
+        let x = &mut self.x;
+        let b = &self.b;
+        let cp = &mut self.cp;
+        let dp = &mut self.dp;
         for j in (colour..self.nz).step_by(2) {
-            // Thomas algorithm along i.
-            for i in 0..nr {
-                let k = j * nr + i;
-                let s = &self.st[k];
-                let rhs = self.b[k] - self.off_sum(&x, i, j, [W, C, E]);
-                let a = if i > 0 { s[W] } else { 0.0 };
-                let diag = s[C];
-                let cc = if i + 1 < nr { s[E] } else { 0.0 };
-                let (cprev, dprev) = if i > 0 {
-                    (self.cp[k - 1], self.dp[k - 1])
-                } else {
-                    (0.0, 0.0)
-                };
-                let m = diag - a * cprev;
-                self.cp[k] = cc / m;
-                self.dp[k] = (rhs - a * dprev) / m;
+            let base = (j + 1) * pw + 1;
+            for p in base..base + nr {
+                let mut rhs = b[p] - s[p] * x[p - pw] - n[p] * x[p + pw];
+                if self.nine {
+                    rhs -= sw[p] * x[p - pw - 1]
+                        + se[p] * x[p - pw + 1]
+                        + nw[p] * x[p + pw - 1]
+                        + ne[p] * x[p + pw + 1];
+                }
+                let inv = 1.0 / (c[p] - w[p] * cp[p - 1]);
+                cp[p] = e[p] * inv;
+                dp[p] = (rhs - w[p] * dp[p - 1]) * inv;
             }
-            let base = j * nr;
-            x[base + nr - 1] = self.dp[base + nr - 1];
-            for i in (0..nr - 1).rev() {
-                let k = base + i;
-                x[k] = self.dp[k] - self.cp[k] * x[k + 1];
+            let last = base + nr - 1;
+            x[last] = dp[last];
+            for p in (base..last).rev() {
+                x[p] = dp[p] - cp[p] * x[p + 1];
             }
         }
-        self.x = x;
+        // The ghost column left of the first node must stay zero for the next line.
+        for j in 0..self.nz {
+            cp[(j + 1) * pw] = 0.0;
+            dp[(j + 1) * pw] = 0.0;
+        }
     }
 
     /// Exact solves on every z-line of one colour (i ≡ colour mod 2), all lines of the colour
-    /// advanced together row by row for contiguous memory access.
+    /// advanced together row by row, for contiguous memory access.
     fn relax_z_lines(&mut self, colour: usize) {
-        let nr = self.nr;
-        let nz = self.nz;
-        let mut x = std::mem::take(&mut self.x);
+        let (nr, nz, pw) = (self.nr, self.nz, self.pw);
+        let [c, w, e, s, n, sw, se, nw, ne] = &self.st;
+        let x = &mut self.x;
+        let b = &self.b;
+        let cp = &mut self.cp;
+        let dp = &mut self.dp;
         for j in 0..nz {
+            let base = (j + 1) * pw + 1;
             for i in (colour..nr).step_by(2) {
-                let k = j * nr + i;
-                let s = &self.st[k];
-                let rhs = self.b[k] - self.off_sum(&x, i, j, [S, C, N]);
-                let a = if j > 0 { s[S] } else { 0.0 };
-                let diag = s[C];
-                let cc = if j + 1 < nz { s[N] } else { 0.0 };
-                let (cprev, dprev) = if j > 0 {
-                    (self.cp[k - nr], self.dp[k - nr])
-                } else {
-                    (0.0, 0.0)
-                };
-                let m = diag - a * cprev;
-                self.cp[k] = cc / m;
-                self.dp[k] = (rhs - a * dprev) / m;
+                let p = base + i;
+                let mut rhs = b[p] - w[p] * x[p - 1] - e[p] * x[p + 1];
+                if self.nine {
+                    rhs -= sw[p] * x[p - pw - 1]
+                        + se[p] * x[p - pw + 1]
+                        + nw[p] * x[p + pw - 1]
+                        + ne[p] * x[p + pw + 1];
+                }
+                let inv = 1.0 / (c[p] - s[p] * cp[p - pw]);
+                cp[p] = n[p] * inv;
+                dp[p] = (rhs - s[p] * dp[p - pw]) * inv;
             }
         }
+        let top = nz * pw + 1;
         for i in (colour..nr).step_by(2) {
-            let k = (nz - 1) * nr + i;
-            x[k] = self.dp[k];
+            x[top + i] = dp[top + i];
         }
         for j in (0..nz - 1).rev() {
+            let base = (j + 1) * pw + 1;
             for i in (colour..nr).step_by(2) {
-                let k = j * nr + i;
-                x[k] = self.dp[k] - self.cp[k] * x[k + nr];
+                let p = base + i;
+                x[p] = dp[p] - cp[p] * x[p + pw];
             }
         }
-        self.x = x;
     }
 
     fn residual(&mut self) {
+        let (nr, pw) = (self.nr, self.pw);
+        let [c, w, e, s, n, sw, se, nw, ne] = &self.st;
+        let x = &self.x;
         for j in 0..self.nz {
-            for i in 0..self.nr {
-                let k = j * self.nr + i;
-                let ax = self.st[k][C] * self.x[k] + self.off_sum(&self.x, i, j, [C, C, C]);
-                self.r[k] = self.b[k] - ax;
+            let base = (j + 1) * pw + 1;
+            for p in base..base + nr {
+                let mut ax = c[p] * x[p]
+                    + w[p] * x[p - 1]
+                    + e[p] * x[p + 1]
+                    + s[p] * x[p - pw]
+                    + n[p] * x[p + pw];
+                if self.nine {
+                    ax += sw[p] * x[p - pw - 1]
+                        + se[p] * x[p - pw + 1]
+                        + nw[p] * x[p + pw - 1]
+                        + ne[p] * x[p + pw + 1];
+                }
+                self.r[p] = self.b[p] - ax;
             }
         }
+    }
+
+    /// The stencil entry of node (i, j) towards offset (di, dj), as f64.
+    #[inline(always)]
+    fn entry(&self, p: usize, slot: usize) -> f64 {
+        let v = &self.st[slot];
+        if v.is_empty() { 0.0 } else { v[p] as f64 }
     }
 }
 
 impl Multigrid {
     /// The finest level, read from the operator's rows.
     fn fine_level(op: &Operator, nr: usize, nz: usize) -> Level {
-        let n = nr * nz;
-        let mut st = vec![[0.0f64; 9]; n];
-        let mut dead = vec![false; n];
+        let mut l = Level::new(nr, nz, false);
         let ip = op.matrix.indptr();
         let ip = ip.raw_storage();
         let idx = op.matrix.indices();
         let val = op.matrix.data();
-        for k in 0..n {
-            let (i, j) = ((k % nr) as i64, (k / nr) as i64);
-            for p in ip[k] as usize..ip[k + 1] as usize {
-                let q = idx[p] as usize;
-                let (di, dj) = ((q % nr) as i64 - i, (q / nr) as i64 - j);
-                if di.abs() <= 1 && dj.abs() <= 1 {
-                    st[k][slot(di as i32, dj as i32)] = val[p];
-                }
+        for k in 0..nr * nz {
+            let (i, j) = (k % nr, k / nr);
+            let p = l.p(i, j);
+            for q in ip[k] as usize..ip[k + 1] as usize {
+                let col = idx[q] as usize;
+                let slot = if col == k {
+                    Slot::C
+                } else if col + 1 == k {
+                    Slot::W
+                } else if col == k + 1 {
+                    Slot::E
+                } else if col + nr == k {
+                    Slot::S
+                } else if col == k + nr {
+                    Slot::N
+                } else {
+                    continue;
+                };
+                l.st[slot as usize][p] = val[q] as f32;
             }
-            dead[k] = op.fixed[k] != crate::mesh::FREE;
+            l.mask[p] = if op.fixed[k] == crate::mesh::FREE {
+                1.0
+            } else {
+                0.0
+            };
         }
-        Level::new(nr, nz, st, dead)
+        l
     }
 
     /// Builds the hierarchy for an operator on the grid with node coordinates `r` × `z`.
     pub fn build(op: &Operator, r: &[f64], z: &[f64], params: MgParams) -> Multigrid {
-        let mut mg = Multigrid {
-            levels: vec![Self::fine_level(op, r.len(), z.len())],
-            coarse_lu: None,
-            params,
-        };
+        let mut levels = vec![Self::fine_level(op, r.len(), z.len())];
         let mut rx = r.to_vec();
         let mut zx = z.to_vec();
         loop {
-            let fine = mg.levels.last().expect("hierarchy has a level");
+            let Some(fine) = levels.last() else { break };
             let (nr, nz) = (fine.nr, fine.nz);
             if nr * nz <= params.coarsest_nodes || (nr <= 3 && nz <= 3) {
                 break;
@@ -289,31 +331,34 @@ impl Multigrid {
             let coarse = galerkin(fine, &mr, &mz, ci.len(), cj.len());
             rx = ci.iter().map(|&i| rx[i]).collect();
             zx = cj.iter().map(|&j| zx[j]).collect();
-            let last = mg.levels.len() - 1;
-            mg.levels[last].map = Some((mr, mz));
-            mg.levels.push(coarse);
+            let last = levels.len() - 1;
+            levels[last].map = Some((mr, mz));
+            levels.push(coarse);
         }
-        // Dense LU of the coarsest level.
-        let cl = mg.levels.last().expect("hierarchy has a level");
-        let n = cl.nr * cl.nz;
-        let mut m = DMatrix::<f64>::zeros(n, n);
-        for j in 0..cl.nz {
-            for i in 0..cl.nr {
-                let k = j * cl.nr + i;
-                for dj in -1i32..=1 {
-                    for di in -1i32..=1 {
-                        let (ii, jj) = (i as i32 + di, j as i32 + dj);
-                        if ii < 0 || jj < 0 || ii >= cl.nr as i32 || jj >= cl.nz as i32 {
+        let coarse_lu = levels.last().map(|cl| {
+            let n = cl.nr * cl.nz;
+            let mut m = DMatrix::<f64>::zeros(n, n);
+            for j in 0..cl.nz {
+                for i in 0..cl.nr {
+                    let k = j * cl.nr + i;
+                    let p = cl.p(i, j);
+                    for (slot, di, dj) in SLOTS {
+                        let (ii, jj) = (i as i64 + di as i64, j as i64 + dj as i64);
+                        if ii < 0 || jj < 0 || ii >= cl.nr as i64 || jj >= cl.nz as i64 {
                             continue;
                         }
                         let q = jj as usize * cl.nr + ii as usize;
-                        m[(k, q)] += cl.st[k][slot(di, dj)];
+                        m[(k, q)] += cl.entry(p, slot as usize);
                     }
                 }
             }
+            m.lu()
+        });
+        Multigrid {
+            levels,
+            coarse_lu,
+            params,
         }
-        mg.coarse_lu = Some(m.lu());
-        mg
     }
 
     /// Number of levels.
@@ -321,21 +366,29 @@ impl Multigrid {
         self.levels.len()
     }
 
-    /// Bytes held by the hierarchy (stencils and work vectors).
+    /// Bytes held by the hierarchy (stencils, masks and work vectors).
     pub fn bytes(&self) -> usize {
-        let mut b = 0;
-        for l in &self.levels {
-            let n = l.nr * l.nz;
-            b += n * (9 * 8 + 1 + 5 * 8);
-        }
-        b
+        self.levels.iter().map(Level::bytes).sum()
     }
 
     /// z = M⁻¹ r: one V-cycle from a zero guess.
     pub fn apply(&mut self, r: &[f64], z: &mut [f64]) {
-        self.levels[0].b.copy_from_slice(r);
+        let l0 = &mut self.levels[0];
+        let nr = l0.nr;
+        for j in 0..l0.nz {
+            let base = (j + 1) * l0.pw + 1;
+            for i in 0..nr {
+                l0.b[base + i] = r[j * nr + i] as f32;
+            }
+        }
         self.cycle(0);
-        z.copy_from_slice(&self.levels[0].x);
+        let l0 = &self.levels[0];
+        for j in 0..l0.nz {
+            let base = (j + 1) * l0.pw + 1;
+            for i in 0..nr {
+                z[j * nr + i] = l0.x[base + i] as f64;
+            }
+        }
     }
 
     fn smooth_pre(l: &mut Level) {
@@ -357,10 +410,19 @@ impl Multigrid {
         if li == last {
             let l = &mut self.levels[li];
             if let Some(lu) = &self.coarse_lu {
-                let b = DVector::from_column_slice(&l.b);
-                match lu.solve(&b) {
-                    Some(x) => l.x.copy_from_slice(x.as_slice()),
-                    None => l.x.copy_from_slice(&l.b),
+                let mut b = DVector::<f64>::zeros(l.nr * l.nz);
+                for j in 0..l.nz {
+                    for i in 0..l.nr {
+                        b[j * l.nr + i] = l.b[l.p(i, j)] as f64;
+                    }
+                }
+                if let Some(x) = lu.solve(&b) {
+                    for j in 0..l.nz {
+                        for i in 0..l.nr {
+                            let p = l.p(i, j);
+                            l.x[p] = x[j * l.nr + i] as f32;
+                        }
+                    }
                 }
             }
             return;
@@ -373,75 +435,15 @@ impl Multigrid {
             }
             l.residual();
         }
-        // Restrict: b_c = Pᵀ r.
         {
             let (fine, rest) = self.levels.split_at_mut(li + 1);
-            let f = &fine[li];
-            let c = &mut rest[0];
-            let (mr, mz) = f.map.as_ref().expect("non-coarsest level has a map");
-            c.b.iter_mut().for_each(|v| *v = 0.0);
-            let cnr = c.nr;
-            for j in 0..f.nz {
-                let (cj, wj0, wj1) = (mz.c0[j], mz.w0[j], mz.w1[j]);
-                for i in 0..f.nr {
-                    let k = j * f.nr + i;
-                    if f.dead[k] {
-                        continue;
-                    }
-                    let rv = f.r[k];
-                    if rv == 0.0 {
-                        continue;
-                    }
-                    let (ci, wi0, wi1) = (mr.c0[i], mr.w0[i], mr.w1[i]);
-                    let base = cj * cnr + ci;
-                    c.b[base] += wi0 * wj0 * rv;
-                    if wi1 != 0.0 {
-                        c.b[base + 1] += wi1 * wj0 * rv;
-                    }
-                    if wj1 != 0.0 {
-                        c.b[base + cnr] += wi0 * wj1 * rv;
-                        if wi1 != 0.0 {
-                            c.b[base + cnr + 1] += wi1 * wj1 * rv;
-                        }
-                    }
-                }
-            }
-            for (k, d) in c.dead.iter().enumerate() {
-                if *d {
-                    c.b[k] = 0.0;
-                }
-            }
+            restrict(&fine[li], &mut rest[0]);
         }
         self.cycle(li + 1);
-        // Prolong and correct: x += P x_c.
         {
             let (fine, rest) = self.levels.split_at_mut(li + 1);
             let f = &mut fine[li];
-            let c = &rest[0];
-            let (mr, mz) = f.map.as_ref().expect("non-coarsest level has a map");
-            let cnr = c.nr;
-            for j in 0..f.nz {
-                let (cj, wj0, wj1) = (mz.c0[j], mz.w0[j], mz.w1[j]);
-                for i in 0..f.nr {
-                    let k = j * f.nr + i;
-                    if f.dead[k] {
-                        continue;
-                    }
-                    let (ci, wi0, wi1) = (mr.c0[i], mr.w0[i], mr.w1[i]);
-                    let base = cj * cnr + ci;
-                    let mut v = wi0 * wj0 * c.x[base];
-                    if wi1 != 0.0 {
-                        v += wi1 * wj0 * c.x[base + 1];
-                    }
-                    if wj1 != 0.0 {
-                        v += wi0 * wj1 * c.x[base + cnr];
-                        if wi1 != 0.0 {
-                            v += wi1 * wj1 * c.x[base + cnr + 1];
-                        }
-                    }
-                    f.x[k] += v;
-                }
-            }
+            prolong_add(f, &rest[0]);
             for _ in 0..self.params.sweeps {
                 Self::smooth_post(f);
             }
@@ -449,13 +451,75 @@ impl Multigrid {
     }
 }
 
-/// The Galerkin coarse operator Pᵀ A P with tensor bilinear P that is zero on dead fine nodes.
+/// b_c = Pᵀ r (masked).
+fn restrict(f: &Level, c: &mut Level) {
+    let Some((mr, mz)) = f.map.as_ref() else {
+        return;
+    };
+    c.b.iter_mut().for_each(|v| *v = 0.0);
+    let cpw = c.pw;
+    for j in 0..f.nz {
+        let (cj, wj0, wj1) = (mz.c0[j], mz.w0[j], mz.w1[j]);
+        let base = (j + 1) * f.pw + 1;
+        for i in 0..f.nr {
+            let p = base + i;
+            let rv = f.r[p] * f.mask[p];
+            if rv == 0.0 {
+                continue;
+            }
+            let (ci, wi0, wi1) = (mr.c0[i], mr.w0[i], mr.w1[i]);
+            let q = (cj + 1) * cpw + ci + 1;
+            c.b[q] += wi0 * wj0 * rv;
+            c.b[q + 1] += wi1 * wj0 * rv;
+            c.b[q + cpw] += wi0 * wj1 * rv;
+            c.b[q + cpw + 1] += wi1 * wj1 * rv;
+        }
+    }
+    for (v, m) in c.b.iter_mut().zip(&c.mask) {
+        *v *= m;
+    }
+}
+
+/// x_f += P x_c (masked).
+fn prolong_add(f: &mut Level, c: &Level) {
+    let Some((mr, mz)) = f.map.as_ref() else {
+        return;
+    };
+    let cpw = c.pw;
+    for j in 0..f.nz {
+        let (cj, wj0, wj1) = (mz.c0[j], mz.w0[j], mz.w1[j]);
+        let base = (j + 1) * f.pw + 1;
+        for i in 0..f.nr {
+            let p = base + i;
+            let (ci, wi0, wi1) = (mr.c0[i], mr.w0[i], mr.w1[i]);
+            let q = (cj + 1) * cpw + ci + 1;
+            let v = wj0 * (wi0 * c.x[q] + wi1 * c.x[q + 1])
+                + wj1 * (wi0 * c.x[q + cpw] + wi1 * c.x[q + cpw + 1]);
+            f.x[p] += f.mask[p] * v;
+        }
+    }
+}
+
+/// The Galerkin coarse operator Pᵀ A P with tensor bilinear P that is zero on fixed nodes,
+/// accumulated in double precision.
 fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, cnr: usize, cnz: usize) -> Level {
     let cn = cnr * cnz;
-    let mut st = vec![[0.0f64; 9]; cn];
+    let mut acc = vec![[0.0f64; 9]; cn];
+    let slot_of = |oi: i64, oj: i64| -> usize {
+        SLOTS
+            .iter()
+            .position(|&(_, di, dj)| di as i64 == oi && dj as i64 == oj)
+            .unwrap_or(0)
+    };
+    let mut slot_table = [[0usize; 3]; 3];
+    for (oj, row) in slot_table.iter_mut().enumerate() {
+        for (oi, v) in row.iter_mut().enumerate() {
+            *v = slot_of(oi as i64 - 1, oj as i64 - 1);
+        }
+    }
     let parents = |i: usize, j: usize| -> [(usize, usize, f64); 4] {
-        let (ci, wi0, wi1) = (mr.c0[i], mr.w0[i], mr.w1[i]);
-        let (cj, wj0, wj1) = (mz.c0[j], mz.w0[j], mz.w1[j]);
+        let (ci, wi0, wi1) = (mr.c0[i], mr.w0[i] as f64, mr.w1[i] as f64);
+        let (cj, wj0, wj1) = (mz.c0[j], mz.w0[j] as f64, mz.w1[j] as f64);
         [
             (ci, cj, wi0 * wj0),
             (ci + 1, cj, wi1 * wj0),
@@ -465,52 +529,57 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, cnr: usize, cnz: usize) -> Le
     };
     for j in 0..f.nz {
         for i in 0..f.nr {
-            let k = j * f.nr + i;
-            if f.dead[k] {
+            let p = f.p(i, j);
+            if f.mask[p] == 0.0 {
                 continue;
             }
             let pf = parents(i, j);
-            for dj in -1i32..=1 {
-                for di in -1i32..=1 {
-                    let a = f.st[k][slot(di, dj)];
-                    if a == 0.0 {
+            for (slot, di, dj) in SLOTS {
+                let a = f.entry(p, slot as usize);
+                if a == 0.0 {
+                    continue;
+                }
+                let (gi, gj) = (i as i64 + di as i64, j as i64 + dj as i64);
+                if gi < 0 || gj < 0 || gi >= f.nr as i64 || gj >= f.nz as i64 {
+                    continue;
+                }
+                let (gi, gj) = (gi as usize, gj as usize);
+                if f.mask[f.p(gi, gj)] == 0.0 {
+                    continue;
+                }
+                let pg = parents(gi, gj);
+                for &(ci, cj, wc) in &pf {
+                    if wc == 0.0 {
                         continue;
                     }
-                    let (gi, gj) = (i as i32 + di, j as i32 + dj);
-                    if gi < 0 || gj < 0 || gi >= f.nr as i32 || gj >= f.nz as i32 {
-                        continue;
-                    }
-                    let g = gj as usize * f.nr + gi as usize;
-                    if f.dead[g] {
-                        continue;
-                    }
-                    let pg = parents(gi as usize, gj as usize);
-                    for &(ci, cj, wc) in &pf {
-                        if wc == 0.0 {
+                    let row = &mut acc[cj * cnr + ci];
+                    for &(di2, dj2, wd) in &pg {
+                        if wd == 0.0 {
                             continue;
                         }
-                        let crow = cj * cnr + ci;
-                        for &(di2, dj2, wd) in &pg {
-                            if wd == 0.0 {
-                                continue;
-                            }
-                            let oi = di2 as i64 - ci as i64;
-                            let oj = dj2 as i64 - cj as i64;
-                            debug_assert!(oi.abs() <= 1 && oj.abs() <= 1);
-                            st[crow][slot(oi as i32, oj as i32)] += wc * a * wd;
-                        }
+                        let oi = (di2 as i64 - ci as i64 + 1) as usize;
+                        let oj = (dj2 as i64 - cj as i64 + 1) as usize;
+                        row[slot_table[oj][oi]] += wc * a * wd;
                     }
                 }
             }
         }
     }
-    let mut dead = vec![false; cn];
-    for k in 0..cn {
-        if st[k][C] == 0.0 {
-            dead[k] = true;
-            st[k] = [0.0; 9];
-            st[k][C] = 1.0;
+    let mut c = Level::new(cnr, cnz, true);
+    for j in 0..cnz {
+        for i in 0..cnr {
+            let k = j * cnr + i;
+            let p = c.p(i, j);
+            if acc[k][Slot::C as usize] == 0.0 {
+                c.st[Slot::C as usize][p] = 1.0;
+                c.mask[p] = 0.0;
+            } else {
+                for s in 0..9 {
+                    c.st[s][p] = acc[k][s] as f32;
+                }
+                c.mask[p] = 1.0;
+            }
         }
     }
-    Level::new(cnr, cnz, st, dead)
+    c
 }
