@@ -1,1 +1,18 @@
 //! Breakdown criteria per medium: gas, vacuum, insulator surfaces, corona.
+//!
+//! Input: a gas state ([`crate::model::Gas`]), gap lengths, surface fields and field-line
+//! profiles handed down by the field stage, all in SI units. Output: [`Limit`] values (a field in
+//! V/m or a voltage in V) that carry their criterion, published source, confidence mark, range of
+//! validity and any derating, for the margin stage to compare with computed peaks.
+//!
+//! Every function here is pure: no I/O, no global state, no field solution. Constants carry the
+//! confidence marks of REFERENCES.md in their doc comments: \[C\] confirmed, \[M\] from memory,
+//! \[P\] common practice, \[D\] derived by algebra from the others.
+//!
+
+pub mod convert;
+pub mod error;
+pub mod limit;
+
+pub use error::BreakdownError;
+pub use limit::{Criterion, Derating, Limit, LimitKind, Mark, Validity};
