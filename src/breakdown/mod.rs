@@ -9,10 +9,15 @@
 //! confidence marks of REFERENCES.md in their doc comments: \[C\] confirmed, \[M\] from memory,
 //! \[P\] common practice, \[D\] derived by algebra from the others.
 //!
+//! - [`gas`]: identification of the gas, density reduction, SF6–N2 mixture strength.
+//! - [`paschen`]: Townsend (Paschen) breakdown with per-gas constants and measured minima.
 
 pub mod convert;
 pub mod error;
+pub mod gas;
 pub mod limit;
+pub mod paschen;
 
 pub use error::BreakdownError;
+pub use gas::{GasKind, GasOptions, GasState};
 pub use limit::{Criterion, Derating, Limit, LimitKind, Mark, Validity};
