@@ -273,6 +273,14 @@ impl Limit {
         self.value = ideal * self.derating.factor;
         Ok(self)
     }
+
+    /// The same limit scaled by `factor` (e.g. a field limit turned into a voltage by a length,
+    /// or an inception factor applied); kind and validity unchanged unless the caller changes them.
+    pub(crate) fn scaled(mut self, factor: f64) -> Self {
+        self.ideal *= factor;
+        self.value *= factor;
+        self
+    }
 }
 
 #[cfg(test)]

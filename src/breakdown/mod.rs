@@ -11,12 +11,17 @@
 //!
 //! - [`gas`]: identification of the gas, density reduction, SF6–N2 mixture strength.
 //! - [`paschen`]: Townsend (Paschen) breakdown with per-gas constants and measured minima.
+//! - [`uniform`]: uniform-field breakdown at higher pd (Schumann fit, SF6), the limiting field
+//!   of each gas, and the regime chooser [`uniform::uniform_breakdown`].
+//! - [`ionisation`]: effective ionisation coefficients (α − η) for the streamer integral.
 
 pub mod convert;
 pub mod error;
 pub mod gas;
+pub mod ionisation;
 pub mod limit;
 pub mod paschen;
+pub mod uniform;
 
 pub use error::BreakdownError;
 pub use gas::{GasKind, GasOptions, GasState};
