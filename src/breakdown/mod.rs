@@ -14,6 +14,8 @@
 //! - [`uniform`]: uniform-field breakdown at higher pd (Schumann fit, SF6), the limiting field
 //!   of each gas, and the regime chooser [`uniform::uniform_breakdown`].
 //! - [`ionisation`]: effective ionisation coefficients (α − η) for the streamer integral.
+//! - [`streamer`]: the Raether–Meek ionisation integral along a field line and the inception
+//!   scale factor.
 
 pub mod convert;
 pub mod error;
@@ -21,6 +23,7 @@ pub mod gas;
 pub mod ionisation;
 pub mod limit;
 pub mod paschen;
+pub mod streamer;
 pub mod uniform;
 
 pub use error::BreakdownError;
