@@ -16,15 +16,23 @@
 //! - [`ionisation`]: effective ionisation coefficients (α − η) for the streamer integral.
 //! - [`streamer`]: the Raether–Meek ionisation integral along a field line and the inception
 //!   scale factor.
+//! - [`corona`]: Peek's corona-onset fields in air.
+//! - [`vacuum`]: Cranberg's V·E criterion, the total-voltage effect, cathode surface fields and
+//!   the (RF-only) Kilpatrick criterion.
+//! - [`insulator`]: tangential-field flashover limits along insulator surfaces and the
+//!   triple-junction flag.
 
 pub mod convert;
+pub mod corona;
 pub mod error;
 pub mod gas;
+pub mod insulator;
 pub mod ionisation;
 pub mod limit;
 pub mod paschen;
 pub mod streamer;
 pub mod uniform;
+pub mod vacuum;
 
 pub use error::BreakdownError;
 pub use gas::{GasKind, GasOptions, GasState};
