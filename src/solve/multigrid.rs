@@ -310,8 +310,7 @@ impl Multigrid {
         let mut levels = vec![Self::fine_level(op, r.len(), z.len())];
         let mut rx = r.to_vec();
         let mut zx = z.to_vec();
-        loop {
-            let Some(fine) = levels.last() else { break };
+        while let Some(fine) = levels.last() {
             let (nr, nz) = (fine.nr, fine.nz);
             if nr * nz <= params.coarsest_nodes || (nr <= 3 && nz <= 3) {
                 break;
@@ -574,8 +573,8 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, cnr: usize, cnz: usize) -> Le
                 c.st[Slot::C as usize][p] = 1.0;
                 c.mask[p] = 0.0;
             } else {
-                for s in 0..9 {
-                    c.st[s][p] = acc[k][s] as f32;
+                for (s, v) in acc[k].iter().enumerate() {
+                    c.st[s][p] = *v as f32;
                 }
                 c.mask[p] = 1.0;
             }
