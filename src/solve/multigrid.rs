@@ -69,9 +69,14 @@ struct Level {
     map: Option<(AxisMap, AxisMap)>,
     x: Vec<f32>,
     b: Vec<f32>,
-    r: Vec<f32>,
-    cp: Vec<f32>,
+    /// Scratch: line right-hand sides during relaxation, the residual after it.
     dp: Vec<f32>,
+    /// Thomas factors of the r-lines (reciprocal pivots and upper coefficients) and of the
+    /// z-lines, computed once.
+    r_inv: Vec<f32>,
+    r_up: Vec<f32>,
+    z_inv: Vec<f32>,
+    z_up: Vec<f32>,
 }
 
 /// Settings of the V-cycle.
@@ -147,9 +152,39 @@ impl Level {
             map: None,
             x: full(),
             b: full(),
-            r: full(),
-            cp: full(),
             dp: full(),
+            r_inv: full(),
+            r_up: full(),
+            z_inv: full(),
+            z_up: full(),
+        }
+    }
+
+    /// Factors every r-line and z-line tridiagonal block once.
+    fn factor(&mut self) {
+        let (nr, nz, pw) = (self.nr, self.nz, self.pw);
+        let [c, w, e, s, n, ..] = &self.st;
+        for j in 0..nz {
+            let base = (j + 1) * pw + 1;
+            let mut up_prev = 0.0f32;
+            for p in base..base + nr {
+                let m = c[p] - w[p] * up_prev;
+                let inv = 1.0 / m;
+                self.r_inv[p] = inv;
+                self.r_up[p] = e[p] * inv;
+                up_prev = self.r_up[p];
+            }
+        }
+        for i in 0..nr {
+            let mut up_prev = 0.0f32;
+            for j in 0..nz {
+                let p = (j + 1) * pw + 1 + i;
+                let m = c[p] - s[p] * up_prev;
+                let inv = 1.0 / m;
+                self.z_inv[p] = inv;
+                self.z_up[p] = n[p] * inv;
+                up_prev = self.z_up[p];
+            }
         }
     }
 
@@ -161,41 +196,62 @@ impl Level {
     fn bytes(&self) -> usize {
         let np = self.pw * (self.nz + 2);
         let slots = if self.nine { 9 } else { 5 };
-        np * 4 * (slots + 6)
+        np * 4 * (slots + 8)
     }
 
     /// Exact solves on every r-line of one colour (j ≡ colour mod 2).
     fn relax_r_lines(&mut self, colour: usize) {
         let (nr, pw) = (self.nr, self.pw);
-        let [c, w, e, s, n, sw, se, nw, ne] = &self.st;
-        let x = &mut self.x;
-        let b = &self.b;
-        let cp = &mut self.cp;
-        let dp = &mut self.dp;
+        let [_, w, _, s, n, sw, se, nw, ne] = &self.st;
         for j in (colour..self.nz).step_by(2) {
             let base = (j + 1) * pw + 1;
-            for p in base..base + nr {
-                let mut rhs = b[p] - s[p] * x[p - pw] - n[p] * x[p + pw];
-                if self.nine {
-                    rhs -= sw[p] * x[p - pw - 1]
-                        + se[p] * x[p - pw + 1]
-                        + nw[p] * x[p + pw - 1]
-                        + ne[p] * x[p + pw + 1];
+            let row = base..base + nr;
+            let down = base - pw..base - pw + nr;
+            let up = base + pw..base + pw + nr;
+            {
+                let x = &self.x;
+                let (xd, xu) = (&x[down.clone()], &x[up.clone()]);
+                let (ss, nn, bb) = (&s[row.clone()], &n[row.clone()], &self.b[row.clone()]);
+                let out = &mut self.dp[row.clone()];
+                for k in 0..nr {
+                    out[k] = bb[k] - ss[k] * xd[k] - nn[k] * xu[k];
                 }
-                let inv = 1.0 / (c[p] - w[p] * cp[p - 1]);
-                cp[p] = e[p] * inv;
-                dp[p] = (rhs - w[p] * dp[p - 1]) * inv;
+                if self.nine {
+                    let (xdl, xdr) = (
+                        &x[down.start - 1..down.end - 1],
+                        &x[down.start + 1..down.end + 1],
+                    );
+                    let (xul, xur) = (&x[up.start - 1..up.end - 1], &x[up.start + 1..up.end + 1]);
+                    let (a, b2, c2, d) = (
+                        &sw[row.clone()],
+                        &se[row.clone()],
+                        &nw[row.clone()],
+                        &ne[row.clone()],
+                    );
+                    for k in 0..nr {
+                        out[k] -= a[k] * xdl[k] + b2[k] * xdr[k] + c2[k] * xul[k] + d[k] * xur[k];
+                    }
+                }
             }
-            let last = base + nr - 1;
-            x[last] = dp[last];
-            for p in (base..last).rev() {
-                x[p] = dp[p] - cp[p] * x[p + 1];
+            let out = &mut self.dp[row.clone()];
+            let (ww, inv, upc) = (
+                &w[row.clone()],
+                &self.r_inv[row.clone()],
+                &self.r_up[row.clone()],
+            );
+            let mut prev = 0.0f32;
+            for k in 0..nr {
+                let v = (out[k] - ww[k] * prev) * inv[k];
+                out[k] = v;
+                prev = v;
             }
-        }
-        // The ghost column left of the first node must stay zero for the next line.
-        for j in 0..self.nz {
-            cp[(j + 1) * pw] = 0.0;
-            dp[(j + 1) * pw] = 0.0;
+            let xr = &mut self.x[row];
+            let mut next = 0.0f32;
+            for k in (0..nr).rev() {
+                let v = out[k] - upc[k] * next;
+                xr[k] = v;
+                next = v;
+            }
         }
     }
 
@@ -203,11 +259,11 @@ impl Level {
     /// advanced together row by row, for contiguous memory access.
     fn relax_z_lines(&mut self, colour: usize) {
         let (nr, nz, pw) = (self.nr, self.nz, self.pw);
-        let [c, w, e, s, n, sw, se, nw, ne] = &self.st;
+        let [_, w, e, s, _, sw, se, nw, ne] = &self.st;
         let x = &mut self.x;
         let b = &self.b;
-        let cp = &mut self.cp;
         let dp = &mut self.dp;
+        let (inv, upc) = (&self.z_inv, &self.z_up);
         for j in 0..nz {
             let base = (j + 1) * pw + 1;
             for i in (colour..nr).step_by(2) {
@@ -219,9 +275,7 @@ impl Level {
                         + nw[p] * x[p + pw - 1]
                         + ne[p] * x[p + pw + 1];
                 }
-                let inv = 1.0 / (c[p] - s[p] * cp[p - pw]);
-                cp[p] = n[p] * inv;
-                dp[p] = (rhs - s[p] * dp[p - pw]) * inv;
+                dp[p] = (rhs - s[p] * dp[p - pw]) * inv[p];
             }
         }
         let top = nz * pw + 1;
@@ -232,30 +286,57 @@ impl Level {
             let base = (j + 1) * pw + 1;
             for i in (colour..nr).step_by(2) {
                 let p = base + i;
-                x[p] = dp[p] - cp[p] * x[p + pw];
+                x[p] = dp[p] - upc[p] * x[p + pw];
             }
         }
     }
 
+    /// The residual b − A x, into the scratch vector.
     fn residual(&mut self) {
         let (nr, pw) = (self.nr, self.pw);
         let [c, w, e, s, n, sw, se, nw, ne] = &self.st;
         let x = &self.x;
         for j in 0..self.nz {
             let base = (j + 1) * pw + 1;
-            for p in base..base + nr {
-                let mut ax = c[p] * x[p]
-                    + w[p] * x[p - 1]
-                    + e[p] * x[p + 1]
-                    + s[p] * x[p - pw]
-                    + n[p] * x[p + pw];
-                if self.nine {
-                    ax += sw[p] * x[p - pw - 1]
-                        + se[p] * x[p - pw + 1]
-                        + nw[p] * x[p + pw - 1]
-                        + ne[p] * x[p + pw + 1];
+            let row = base..base + nr;
+            let xc = &x[row.clone()];
+            let (xl, xr) = (&x[base - 1..base - 1 + nr], &x[base + 1..base + 1 + nr]);
+            let (xd, xu) = (&x[base - pw..base - pw + nr], &x[base + pw..base + pw + nr]);
+            let (cc, ww, ee, ss, nn) = (
+                &c[row.clone()],
+                &w[row.clone()],
+                &e[row.clone()],
+                &s[row.clone()],
+                &n[row.clone()],
+            );
+            let bb = &self.b[row.clone()];
+            let out = &mut self.dp[row.clone()];
+            for k in 0..nr {
+                out[k] = bb[k]
+                    - (cc[k] * xc[k]
+                        + ww[k] * xl[k]
+                        + ee[k] * xr[k]
+                        + ss[k] * xd[k]
+                        + nn[k] * xu[k]);
+            }
+            if self.nine {
+                let (xdl, xdr) = (
+                    &x[base - pw - 1..base - pw - 1 + nr],
+                    &x[base - pw + 1..base - pw + 1 + nr],
+                );
+                let (xul, xur) = (
+                    &x[base + pw - 1..base + pw - 1 + nr],
+                    &x[base + pw + 1..base + pw + 1 + nr],
+                );
+                let (a, b2, c2, d) = (
+                    &sw[row.clone()],
+                    &se[row.clone()],
+                    &nw[row.clone()],
+                    &ne[row],
+                );
+                for k in 0..nr {
+                    out[k] -= a[k] * xdl[k] + b2[k] * xdr[k] + c2[k] * xul[k] + d[k] * xur[k];
                 }
-                self.r[p] = self.b[p] - ax;
             }
         }
     }
@@ -302,6 +383,7 @@ impl Multigrid {
                 0.0
             };
         }
+        l.factor();
         l
     }
 
@@ -462,7 +544,7 @@ fn restrict(f: &Level, c: &mut Level) {
         let base = (j + 1) * f.pw + 1;
         for i in 0..f.nr {
             let p = base + i;
-            let rv = f.r[p] * f.mask[p];
+            let rv = f.dp[p] * f.mask[p];
             if rv == 0.0 {
                 continue;
             }
@@ -580,5 +662,6 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, cnr: usize, cnz: usize) -> Le
             }
         }
     }
+    c.factor();
     c
 }
