@@ -302,7 +302,7 @@ impl UnitError {
                 suggestion: Some(s),
                 ..
             } => format!(
-                "did you mean \"{s}\" (units are case-sensitive) instead of \"{unit}\"?; {accepted}"
+                "did you mean \"{s}\" instead of \"{unit}\"? Units are case-sensitive; {accepted}"
             ),
             UnitError::UnknownUnit { unit, .. } if is_gauge(unit) => format!(
                 "pressures are absolute: convert the gauge reading by adding the atmospheric pressure, e.g. \"6.5 bar\"; {accepted}"
