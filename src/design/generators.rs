@@ -1,0 +1,342 @@
+//! The `[[column]]` generator: N grading electrodes (tori, optionally with a disc tube
+//! electrode on each plane) between two end conductors, expanded into named primitives.
+//!
+//! Input: the raw `[[column]]` table. Output: a checked [`ColumnSpec`] and, once the end
+//! conductors are resolved, the generated `model::Conductor`s ("column electrode 7",
+//! "column tube electrode 7"; prefixed with the column's name when there are several
+//! columns). Electrode k sits at `z_first + (k - 1) * pitch` and takes node k of the column's
+//! grading network; node 0 is the `from` end and node N + 1 the `to` end. A negative pitch
+//! lets a column run from its `from` end towards smaller z.
+
+use super::read::{At, Reader};
+use super::schema::{RawColumn, RawValue};
+use super::shapes;
+use crate::geometry::Shape;
+use crate::model::{Conductor, Origin, PotentialSpec};
+use crate::units::{Dimension, format_si};
+use std::ops::Range;
+use toml::Spanned;
+
+/// A disc on each electrode plane, on the same node as the torus.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct TubeElectrode {
+    pub r0: f64,
+    pub r1: f64,
+    pub thickness: f64,
+    pub corner_radius: f64,
+}
+
+/// A checked `[[column]]` table, its end conductors still named.
+#[derive(Debug, Clone)]
+pub(crate) struct ColumnSpec {
+    pub name: String,
+    pub from: (String, Range<usize>),
+    pub to: (String, Range<usize>),
+    pub electrodes: usize,
+    pub z_first: f64,
+    pub pitch: f64,
+    pub major_radius: f64,
+    pub minor_radius: f64,
+    pub tube: Option<TubeElectrode>,
+    pub resistor_ohm: Option<f64>,
+    pub tolerance: Option<f64>,
+    pub strings: usize,
+    pub protective_gap_v: Option<f64>,
+    pub at: At,
+    pub line: usize,
+}
+
+fn end(
+    rd: &mut Reader,
+    v: Option<&Spanned<RawValue>>,
+    at: &At,
+    key: &str,
+) -> Option<(String, Range<usize>)> {
+    let Some(v) = v else {
+        rd.missing(at, key, "\"ground\" or the name of a conductor");
+        return None;
+    };
+    let name = rd.name(v, &at.key(key))?;
+    Some((name, v.span()))
+}
+
+/// Reads one `[[column]]` table. `several` says whether the file has more than one column (a
+/// name is then required).
+pub(crate) fn read_column(
+    rd: &mut Reader,
+    raw: &RawColumn,
+    at: At,
+    line: usize,
+    several: bool,
+) -> Option<ColumnSpec> {
+    let name = match &raw.name {
+        Some(v) => rd.name(v, &at.key("name")),
+        None if several => {
+            rd.missing(
+                &at,
+                "name",
+                "\"LE\" (a name is needed when there are several columns)",
+            );
+            None
+        }
+        None => Some("column".to_string()),
+    };
+    let from = end(rd, raw.from.as_ref(), &at, "from");
+    let to = end(rd, raw.to.as_ref(), &at, "to");
+    let electrodes = rd
+        .required(&raw.electrodes, &at, "electrodes", "24")
+        .and_then(|v| rd.count(v, &at.key("electrodes"), 1));
+    let z_first = rd.req_quantity(&raw.z_first, &at, "z_first", Dimension::Length);
+    let pitch = rd.req_quantity(&raw.pitch, &at, "pitch", Dimension::Length);
+    let pitch = rd.check(
+        pitch,
+        raw.pitch.as_ref(),
+        &at.key("pitch"),
+        |p| p != 0.0,
+        "is zero: the electrodes would sit on one plane",
+    );
+    if let Some(v) = &raw.shape
+        && let Some(s) = rd.string(v, &at.key("shape"), "\"torus\"")
+        && s != "torus"
+    {
+        rd.push(
+            "unknown-shape",
+            at.key("shape"),
+            v.span(),
+            format!("column electrodes of shape \"{s}\" are not available"),
+            Some(
+                "column electrodes are rings: shape = \"torus\" with major_radius and minor_radius"
+                    .to_string(),
+            ),
+        );
+    }
+    let major = rd.req_quantity(&raw.major_radius, &at, "major_radius", Dimension::Length);
+    let major = rd.check(
+        major,
+        raw.major_radius.as_ref(),
+        &at.key("major_radius"),
+        |x| x > 0.0,
+        "must be greater than zero",
+    );
+    let minor = rd.req_quantity(&raw.minor_radius, &at, "minor_radius", Dimension::Length);
+    let minor = rd.check(
+        minor,
+        raw.minor_radius.as_ref(),
+        &at.key("minor_radius"),
+        |x| x > 0.0,
+        "must be greater than zero",
+    );
+    if let (Some(a), Some(b)) = (major, minor) {
+        shapes::torus_ring(rd, raw.minor_radius.as_ref(), &at.key("minor_radius"), a, b)?;
+    }
+    if let (Some(p), Some(b), Some(v)) = (pitch, minor, raw.pitch.as_ref())
+        && p.abs() <= 2.0 * b
+    {
+        rd.push(
+            "overlap",
+            at.key("pitch"),
+            v.span(),
+            format!(
+                "`{}` ({}) is not larger than the ring diameter ({}): neighbouring electrodes touch",
+                at.key("pitch"),
+                format_si(p.abs(), Dimension::Length),
+                format_si(2.0 * b, Dimension::Length)
+            ),
+            Some("increase the pitch or reduce minor_radius".to_string()),
+        );
+    }
+    let tube = match &raw.tube_electrode {
+        None => Some(None),
+        Some(t) => {
+            let tat = At::new(at.key("tube_electrode"), t.span());
+            let t = t.get_ref();
+            let r = rd
+                .required(&t.r, &tat, "r", "[\"12 mm\", \"70 mm\"]")
+                .and_then(|v| {
+                    let key = tat.key("r");
+                    let [r0, r1] = rd.pair(v, &key, Dimension::Length)?;
+                    if r0 < 0.0 || r0 >= r1 {
+                        rd.push(
+                            "bad-interval",
+                            key.clone(),
+                            v.span(),
+                            format!(
+                                "`{key} = {}` must be [r0, r1] with 0 <= r0 < r1",
+                                v.get_ref().show()
+                            ),
+                            None,
+                        );
+                        return None;
+                    }
+                    Some([r0, r1])
+                });
+            let th = rd.req_quantity(&t.thickness, &tat, "thickness", Dimension::Length);
+            let th = rd.check(
+                th,
+                t.thickness.as_ref(),
+                &tat.key("thickness"),
+                |x| x > 0.0,
+                "must be greater than zero",
+            );
+            if let (Some(th), Some(p), Some(v)) = (th, pitch, t.thickness.as_ref())
+                && th >= p.abs()
+            {
+                rd.push(
+                    "overlap",
+                    tat.key("thickness"),
+                    v.span(),
+                    format!(
+                        "tube electrodes {} thick do not fit a pitch of {}",
+                        format_si(th, Dimension::Length),
+                        format_si(p.abs(), Dimension::Length)
+                    ),
+                    None,
+                );
+            }
+            match (r, th) {
+                (Some([r0, r1]), Some(th)) => {
+                    shapes::disc_shape(rd, &t.corner_radius, &tat, r0, r1, 0.0, th).and_then(|s| {
+                        match s {
+                            Shape::RoundedRect { corner_radius, .. } => Some(Some(TubeElectrode {
+                                r0,
+                                r1,
+                                thickness: th,
+                                corner_radius,
+                            })),
+                            _ => None,
+                        }
+                    })
+                }
+                _ => None,
+            }
+        }
+    };
+    let (resistor, tolerance, strings) = match &raw.grading {
+        None => (Some(None), Some(None), Some(1)),
+        Some(g) => {
+            let gat = At::new(at.key("grading"), g.span());
+            let g = g.get_ref();
+            let res = rd.opt_quantity(&g.resistor, &gat, "resistor", Dimension::Resistance);
+            let res = rd.check(
+                res,
+                g.resistor.as_ref(),
+                &gat.key("resistor"),
+                |x| x > 0.0,
+                "must be greater than zero",
+            );
+            let tol = rd.opt_quantity(&g.tolerance, &gat, "tolerance", Dimension::Ratio);
+            let tol = rd.check(
+                tol,
+                g.tolerance.as_ref(),
+                &gat.key("tolerance"),
+                |x| (0.0..1.0).contains(&x),
+                "must be at least 0 % and below 100 %",
+            );
+            let strings = match &g.strings {
+                Some(v) => rd.count(v, &gat.key("strings"), 1),
+                None => Some(1),
+            };
+            let res = if g.resistor.is_some() {
+                res.map(Some)
+            } else {
+                Some(None)
+            };
+            let tol = if g.tolerance.is_some() {
+                tol.map(Some)
+            } else {
+                Some(None)
+            };
+            (res, tol, strings)
+        }
+    };
+    let gap = match &raw.protective_gap {
+        None => Some(None),
+        Some(p) => {
+            let pat = At::new(at.key("protective_gap"), p.span());
+            let f = rd.req_quantity(&p.get_ref().firing, &pat, "firing", Dimension::Voltage);
+            rd.check(
+                f,
+                p.get_ref().firing.as_ref(),
+                &pat.key("firing"),
+                |x| x > 0.0,
+                "must be greater than zero",
+            )
+            .map(Some)
+        }
+    };
+    Some(ColumnSpec {
+        name: name?,
+        from: from?,
+        to: to?,
+        electrodes: electrodes?,
+        z_first: z_first?,
+        pitch: pitch?,
+        major_radius: major?,
+        minor_radius: minor?,
+        tube: tube?,
+        resistor_ohm: resistor?,
+        tolerance: tolerance?,
+        strings: strings?,
+        protective_gap_v: gap?,
+        at,
+        line,
+    })
+}
+
+/// The name of generated electrode `k` of a column.
+pub(crate) fn electrode_name(spec: &ColumnSpec, several: bool, k: usize, tube: bool) -> String {
+    let prefix = if several {
+        format!("{} ", spec.name)
+    } else {
+        String::new()
+    };
+    let what = if tube { "tube electrode" } else { "electrode" };
+    format!("{prefix}column {what} {k}")
+}
+
+/// The generated conductors of column number `column` (0-based), in order from the `from`
+/// end: for each plane the torus, then its tube electrode when there is one. The flag says
+/// whether the conductor is the plane's torus.
+pub(crate) fn expand(spec: &ColumnSpec, column: usize, several: bool) -> Vec<(Conductor, bool)> {
+    let mut out = Vec::with_capacity(spec.electrodes * 2);
+    for k in 1..=spec.electrodes {
+        let z = spec.z_first + (k - 1) as f64 * spec.pitch;
+        let potential = PotentialSpec::Grading { column, node: k };
+        let origin = Origin::Column {
+            column,
+            electrode: k,
+            line: Some(spec.line),
+        };
+        out.push((
+            Conductor {
+                name: electrode_name(spec, several, k, false),
+                shape: Shape::Torus {
+                    center_z: z,
+                    major_radius: spec.major_radius,
+                    minor_radius: spec.minor_radius,
+                },
+                potential: potential.clone(),
+                origin: origin.clone(),
+            },
+            true,
+        ));
+        if let Some(t) = &spec.tube {
+            out.push((
+                Conductor {
+                    name: electrode_name(spec, several, k, true),
+                    shape: Shape::RoundedRect {
+                        r0: t.r0,
+                        r1: t.r1,
+                        z0: z - 0.5 * t.thickness,
+                        z1: z + 0.5 * t.thickness,
+                        corner_radius: t.corner_radius,
+                    },
+                    potential,
+                    origin,
+                },
+                false,
+            ));
+        }
+    }
+    out
+}
