@@ -861,12 +861,23 @@ fn read_mesh(rd: &mut Reader, m: &Spanned<RawMesh>, tank: &Tank) -> Option<MeshS
                 |x| x > 0.0,
                 "must be greater than zero",
             );
-            rd.check(
+            let x = rd.check(
                 x,
                 Some(v),
                 "mesh.cell",
                 |x| x < size,
                 "is larger than the tank",
+            );
+            // Finer than 1e-5 of the domain would need over 1e10 cells: a unit mistake.
+            rd.check(
+                x,
+                Some(v),
+                "mesh.cell",
+                |x| x >= 1e-5 * size,
+                &format!(
+                    "is finer than 1/100000 of the tank ({}); check the unit",
+                    format_si(size, Dimension::Length)
+                ),
             )
         }
     };
