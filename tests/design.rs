@@ -556,3 +556,62 @@ fn a_stage_beyond_the_multiplier_is_rejected() {
     let p = &err.with_code("unknown-stage")[0];
     assert!(p.message.contains("stages 1 to 5"), "{}", p.message);
 }
+
+/// A small xorshift generator, seeded, so the mutated inputs are the same on every run.
+struct Rng(u64);
+
+impl Rng {
+    fn next(&mut self) -> u64 {
+        self.0 ^= self.0 << 13;
+        self.0 ^= self.0 >> 7;
+        self.0 ^= self.0 << 17;
+        self.0
+    }
+    fn below(&mut self, n: usize) -> usize {
+        (self.next() % n.max(1) as u64) as usize
+    }
+}
+
+#[test]
+fn mangled_design_files_give_errors_not_panics() {
+    let pieces = [
+        "\"", "=", "[", "]", "-", "0", "9", "e", "\u{b5}", "\n", " ", "{", "}", ",", "#", "1e9",
+        "-1", "grading:", "0 mm", "ground",
+    ];
+    let mut rng = Rng(0x5eed_1234_abcd_0001);
+    for file in [
+        "examples/demo_750kv.toml",
+        "examples/tandem_3mv.toml",
+        "examples/concentric_spheres.toml",
+    ] {
+        let original: Vec<char> = std::fs::read_to_string(file).unwrap().chars().collect();
+        for round in 0..100 {
+            let mut text = original.clone();
+            for _ in 0..1 + rng.below(3) {
+                let at = rng.below(text.len());
+                match rng.below(3) {
+                    0 => {
+                        let end = (at + 1 + rng.below(12)).min(text.len());
+                        text.drain(at..end);
+                    }
+                    1 => {
+                        let piece = pieces[rng.below(pieces.len())];
+                        text.splice(at..at, piece.chars());
+                    }
+                    _ => {
+                        let piece = pieces[rng.below(pieces.len())];
+                        let end = (at + 1).min(text.len());
+                        text.splice(at..end, piece.chars());
+                    }
+                }
+            }
+            let text: String = text.into_iter().collect();
+            let result = std::panic::catch_unwind(|| design::from_str(&text, "mangled.toml"));
+            match result {
+                Ok(Ok(_)) => {}
+                Ok(Err(e)) => assert!(!e.problems.is_empty(), "{file} round {round}"),
+                Err(_) => panic!("{file} round {round} panicked on:\n{text}"),
+            }
+        }
+    }
+}

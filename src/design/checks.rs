@@ -1,12 +1,13 @@
 //! Geometry checks on the expanded design: every shape inside the tank, no conductor off
 //! ground touching the wall, the terminal enclosed, no two conductors at different potentials
-//! overlapping, each column between its end conductors.
+//! overlapping, each column between its end conductors, no name used twice.
 //!
 //! Input: the expanded bodies with their resolved potentials. Output: located problems. The
 //! tests sample each surface at a modest number of points (bounding boxes first, then sample
 //! points of one shape strictly inside the other), which finds every overlap deeper than the
 //! sample spacing; that is enough for drawing mistakes, which is what these checks are for.
 
+use super::generators::ColumnSpec;
 use super::read::Reader;
 use super::shapes::boundary_samples;
 use crate::geometry::{BBox, Point, Shape};
@@ -272,4 +273,113 @@ pub(crate) fn z_extent<'a>(shapes: impl Iterator<Item = &'a Shape>) -> Option<(f
         .map(|s| s.bbox())
         .map(|b| (b.z_min, b.z_max))
         .reduce(|a, b| (a.0.min(b.0), a.1.max(b.1)))
+}
+
+pub(crate) fn check_duplicates(rd: &mut Reader, bodies: &[Body], columns: &[Option<ColumnSpec>]) {
+    let mut seen: HashMap<&str, &Body> = HashMap::new();
+    for b in bodies {
+        match seen.get(b.name.as_str()) {
+            Some(first) => rd.push(
+                "duplicate-name",
+                format!("{}.name", b.key),
+                b.span.clone(),
+                format!(
+                    "the name `{}` is used twice (first on line {})",
+                    b.name, first.line
+                ),
+                Some(
+                    "every conductor, dielectric and vacuum region needs its own name".to_string(),
+                ),
+            ),
+            None => {
+                seen.insert(b.name.as_str(), b);
+            }
+        }
+    }
+    let mut names: HashMap<&str, usize> = HashMap::new();
+    for c in columns.iter().flatten() {
+        match names.get(c.name.as_str()) {
+            Some(line) => rd.push(
+                "duplicate-name",
+                c.at.key("name"),
+                c.at.span.clone(),
+                format!("two columns are named `{}` (first on line {line})", c.name),
+                None,
+            ),
+            None => {
+                names.insert(c.name.as_str(), c.line);
+            }
+        }
+    }
+}
+
+/// The column must lie between its end conductors along z, in the direction of its pitch.
+pub(crate) fn check_column_fit(
+    rd: &mut Reader,
+    spec: &ColumnSpec,
+    ci: usize,
+    from: Option<usize>,
+    to: Option<usize>,
+    bodies: &[Body],
+) {
+    let own = bodies
+        .iter()
+        .filter(|b| b.group == Group::Column(ci))
+        .map(|b| &b.shape);
+    let Some((lo, hi)) = z_extent(own) else {
+        return;
+    };
+    let l = |x: f64| format_si(x, Dimension::Length);
+    let up = spec.pitch > 0.0;
+    let direct = |i: usize| {
+        bodies
+            .iter()
+            .find(|b| b.group == Group::Direct(i) && b.kind == Kind::Conductor)
+    };
+    let tol = 1e-7;
+    for (end, which, at_start) in [(from, "from", true), (to, "to", false)] {
+        let Some(i) = end else { continue };
+        let Some(b) = direct(i) else { continue };
+        let bb = b.shape.bbox();
+        // The `from` end lies before the first electrode in the direction of the pitch, the
+        // `to` end after the last.
+        let before = at_start == up;
+        let fits = if before {
+            bb.z_max <= lo + tol
+        } else {
+            bb.z_min >= hi - tol
+        };
+        if !fits {
+            let (span, key) = if which == "from" {
+                (&spec.from.1, spec.at.key("from"))
+            } else {
+                (&spec.to.1, spec.at.key("to"))
+            };
+            let detail = if before {
+                format!(
+                    "`{}` reaches z = {} but the column's electrodes start at z = {}",
+                    b.name,
+                    l(bb.z_max),
+                    l(lo)
+                )
+            } else {
+                format!(
+                    "`{}` starts at z = {} but the column's electrodes reach z = {}",
+                    b.name,
+                    l(bb.z_min),
+                    l(hi)
+                )
+            };
+            rd.push(
+                "column-fit",
+                key,
+                span.clone(),
+                format!("column `{}` does not fit between its end conductors: {detail}", spec.name),
+                Some(format!(
+                    "electrode k sits at z_first + (k - 1) * pitch; the column runs from `from` to `to` {} (check z_first, pitch, electrodes and the ends)",
+                    if up { "towards larger z" } else { "towards smaller z" }
+                )),
+            );
+        }
+    }
 }

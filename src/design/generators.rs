@@ -17,6 +17,10 @@ use crate::units::{Dimension, format_si};
 use std::ops::Range;
 use toml::Spanned;
 
+/// The most electrodes one column may have. Real columns have tens to a few hundred planes;
+/// the bound keeps a mistyped count from expanding into millions of primitives.
+pub(crate) const MAX_ELECTRODES: usize = 2000;
+
 /// A disc on each electrode plane, on the same node as the torus.
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct TubeElectrode {
@@ -85,7 +89,19 @@ pub(crate) fn read_column(
     let to = end(rd, raw.to.as_ref(), &at, "to");
     let electrodes = rd
         .required(&raw.electrodes, &at, "electrodes", "24")
-        .and_then(|v| rd.count(v, &at.key("electrodes"), 1));
+        .and_then(|v| {
+            let n = rd.count(v, &at.key("electrodes"), 1)?;
+            if n > MAX_ELECTRODES {
+                rd.out_of_range(
+                    v,
+                    &at.key("electrodes"),
+                    format!("`{}` = {n} is more than {MAX_ELECTRODES} electrodes", at.key("electrodes")),
+                    Some("a column of more planes than this is a drawing mistake; split it or check the count".to_string()),
+                );
+                return None;
+            }
+            Some(n)
+        });
     let z_first = rd.req_quantity(&raw.z_first, &at, "z_first", Dimension::Length);
     let pitch = rd.req_quantity(&raw.pitch, &at, "pitch", Dimension::Length);
     let pitch = rd.check(

@@ -120,7 +120,7 @@ pub fn expansion_listing(model: &Model) -> Vec<ListingRow> {
             notes,
         });
     }
-    for d in &model.dielectrics {
+    for (k, d) in model.dielectrics.iter().enumerate() {
         let what = match &d.material {
             Some(m) => format!("eps_r {} ({m}); source: {}", d.eps_r, d.source),
             None => format!("eps_r {}; source: {}", d.eps_r, d.source),
@@ -131,7 +131,21 @@ pub fn expansion_listing(model: &Model) -> Vec<ListingRow> {
             shape: describe(&d.shape),
             potential: None,
             origin: origin_text(model, &d.origin),
-            notes: vec![what],
+            notes: {
+                let mut notes = vec![what];
+                // Where dielectrics overlap, the one listed later holds (`Model::eps_r_at`).
+                for (j, other) in model.dielectrics.iter().enumerate().skip(k + 1) {
+                    if checks::overlap(&d.shape, &diel_samples[k], &other.shape, &diel_samples[j])
+                        .is_some()
+                    {
+                        notes.push(format!(
+                            "overlaps dielectric `{}`, which is listed later and holds there",
+                            other.name
+                        ));
+                    }
+                }
+                notes
+            },
         });
     }
     for v in &model.vacuum {

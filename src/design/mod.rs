@@ -19,15 +19,17 @@ pub mod materials;
 mod potential;
 mod problem;
 mod read;
+mod resolve;
 mod schema;
+mod sections;
 mod shapes;
 mod validate;
 
 pub use listing::{ListingKind, ListingRow, expansion_listing, potential_words};
 pub use problem::{DesignError, Problem};
 pub use schema::{RawDesign, RawValue};
+pub use sections::{GASES, OVERRIDES, OverrideKind};
 pub use shapes::describe as describe_shape;
-pub use validate::{GASES, OVERRIDES, OverrideKind};
 
 use crate::model::Model;
 use std::path::{Path, PathBuf};

@@ -28,19 +28,31 @@ stage (\"stage:3\")";
 /// Why a potential could not be read: a message and a help text.
 pub(crate) type Failure = (String, String);
 
+/// `text` without `prefix`, compared without regard to ASCII case.
+fn strip_prefix_ci<'a>(text: &'a str, prefix: &str) -> Option<&'a str> {
+    let head = text.get(..prefix.len())?;
+    head.eq_ignore_ascii_case(prefix)
+        .then(|| &text[prefix.len()..])
+}
+
+/// `text` without `suffix`, compared without regard to ASCII case.
+fn strip_suffix_ci<'a>(text: &'a str, suffix: &str) -> Option<&'a str> {
+    let cut = text.len().checked_sub(suffix.len())?;
+    let tail = text.get(cut..)?;
+    tail.eq_ignore_ascii_case(suffix).then(|| &text[..cut])
+}
+
 /// Parses a potential string.
 pub(crate) fn parse(text: &str) -> Result<PotentialText, Failure> {
     let t = text.trim();
-    let lower = t.to_lowercase();
-    if lower == "ground" {
+    if t.eq_ignore_ascii_case("ground") {
         return Ok(PotentialText::Ground);
     }
-    if lower == "terminal" {
+    if t.eq_ignore_ascii_case("terminal") {
         return Ok(PotentialText::Terminal(1.0));
     }
-    if let Some(rest) = lower.strip_prefix("grading:") {
-        let rest_orig = &t["grading:".len()..];
-        let (column, node_text) = match rest_orig.rsplit_once(':') {
+    if let Some(rest) = strip_prefix_ci(t, "grading:") {
+        let (column, node_text) = match rest.rsplit_once(':') {
             Some((c, n)) => (Some(c.trim().to_string()), n.trim()),
             None => (None, rest.trim()),
         };
@@ -59,7 +71,7 @@ pub(crate) fn parse(text: &str) -> Result<PotentialText, Failure> {
         }
         return Ok(PotentialText::Grading { column, node });
     }
-    if let Some(rest) = lower.strip_prefix("stage:") {
+    if let Some(rest) = strip_prefix_ci(t, "stage:") {
         let stage = rest.trim().parse::<usize>().map_err(|_| {
             (
                 format!("\"{t}\": the stage must be a whole number"),
@@ -68,17 +80,18 @@ pub(crate) fn parse(text: &str) -> Result<PotentialText, Failure> {
         })?;
         return Ok(PotentialText::Stage(stage));
     }
-    if let Some(frac) = lower.strip_suffix("terminal") {
+    if let Some(frac) = strip_suffix_ci(t, "terminal") {
         let frac = frac.trim().trim_end_matches('*').trim();
         return match units::parse_quantity(frac) {
             Ok((f, Dimension::Ratio)) => Ok(PotentialText::Terminal(f)),
-            _ => frac.parse::<f64>().map(PotentialText::Terminal).map_err(|_| {
-                (
+            _ => match frac.parse::<f64>() {
+                Ok(f) if f.is_finite() => Ok(PotentialText::Terminal(f)),
+                _ => Err((
                     format!("\"{t}\": \"{frac}\" is not a fraction"),
                     "write a fraction before \"terminal\", e.g. \"0.4 terminal\" or \"40 % terminal\""
                         .to_string(),
-                )
-            }),
+                )),
+            },
         };
     }
     match units::parse(t, Dimension::Voltage) {
@@ -124,6 +137,16 @@ mod tests {
         assert!(parse("grading:x").is_err());
         assert!(parse("stage:").is_err());
         assert!(parse("half terminal").is_err());
+        // Text that is not ASCII never splits a character.
+        assert!(parse("grad\u{130}ng:3").is_err());
+        assert!(parse("\u{212a}terminal").is_err());
+        assert_eq!(
+            parse("GRADING:2"),
+            Ok(PotentialText::Grading {
+                column: None,
+                node: 2
+            })
+        );
         let (msg, help) = parse("300").unwrap_err();
         assert!(msg.contains("300"));
         assert!(help.contains("ground"));
