@@ -382,9 +382,12 @@ impl Mesh {
                             }),
                         ),
                     ] {
+                        // A link may clip a shallow cap of a curved body (its depth is
+                        // second order in the spacing); a part that reaches a tenth of the
+                        // link deep between two free nodes is not resolved.
                         if let (Some(q), Some(mid)) = (q, mid)
                             && self.fixed[q] == FREE
-                            && cond.shape.sdf(mid) < 0.0
+                            && cond.shape.sdf(mid) < -0.1 * link_len(self, k, q)
                         {
                             return Err(MeshError::TooThin {
                                 name: cond.name.clone(),
@@ -483,6 +486,11 @@ impl Mesh {
             (false, false) => (p, qp),
         }
     }
+}
+
+fn link_len(m: &Mesh, a: usize, b: usize) -> f64 {
+    let (p, q) = (m.point(a), m.point(b));
+    (q.r - p.r).hypot(q.z - p.z)
 }
 
 fn shift(p: Point, dr: f64, dz: f64) -> Point {

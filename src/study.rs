@@ -1,13 +1,14 @@
-//! Grid study: the same design solved at three spacings (h, 2h, 4h), Richardson extrapolation
-//! of every peak, and an error estimate beside it.
+//! Grid study: the same design solved at three spacings (h, √2·h, 2h), Richardson
+//! extrapolation of every peak, and an error estimate beside it.
 //!
 //! Input: a model and the fine analysis at its own spacing. Output: per conductor the three
 //! peaks, the observed order of convergence, the extrapolated value and the estimated error of
 //! the fine value, by Roache's grid convergence index (P. J. Roache, "Quantification of
 //! uncertainty in computational fluid dynamics", Annu. Rev. Fluid Mech. 29, 123 (1997)):
-//! GCI = F_s · |f_h − f_2h| / (2^p − 1), with safety factor F_s = 1.25 when three grids give a
-//! monotone observed order p (taken within [1, 2], the order range of the scheme), and
-//! F_s = 3 with the formal order p = 2 when they do not.
+//! GCI = F_s · |f_1 − f_2| / (ρ^p − 1) for grids of ratio ρ = √2, with safety factor
+//! F_s = 1.25 when three grids give a monotone observed order p (taken within [1, 2], the
+//! order range of the scheme), and F_s = 3 with the formal order p = 2 when they do not, or
+//! when the coarsest grid cannot resolve the design and only two grids are available.
 
 use crate::analysis::{Analysis, AnalysisError, analyze};
 use crate::model::Model;
@@ -32,7 +33,8 @@ pub struct PeakStudy {
     pub error_v_per_m: f64,
     /// `error_v_per_m` relative to the fine peak.
     pub relative_error: f64,
-    /// "monotone" or "oscillatory" (no observed order; the formal order and F_s = 3 are used).
+    /// "monotone", "oscillatory" (no observed order; the formal order and F_s = 3 are used) or
+    /// "two grids" (the coarsest grid could not resolve the design).
     pub convergence: &'static str,
 }
 
@@ -41,27 +43,36 @@ pub struct PeakStudy {
 pub struct GridStudy {
     /// Cell sizes, m: fine, medium, coarse.
     pub cells_m: [f64; 3],
-    /// Nodes of each grid.
+    /// Nodes of each grid (0 for a grid that could not be built).
     pub nodes: [usize; 3],
+    /// Why the coarsest grid is missing, when it is.
+    pub coarse_unavailable: Option<String>,
     pub peaks: Vec<PeakStudy>,
 }
 
-/// Estimate from three values on grids of ratio 2 (fine first).
-pub fn richardson(f: [f64; 3]) -> (Option<f64>, f64, f64, &'static str) {
+/// Ratio between successive grid spacings of the study.
+pub const RATIO: f64 = std::f64::consts::SQRT_2;
+
+/// Estimate from values on grids of ratio `ratio` (fine first): three values, or two when the
+/// coarsest grid was not available (`f[2]` NaN).
+pub fn richardson(f: [f64; 3], ratio: f64) -> (Option<f64>, f64, f64, &'static str) {
     let (f1, f2, f3) = (f[0], f[1], f[2]);
     let d12 = f2 - f1;
+    let formal = ratio.powf(FORMAL_ORDER) - 1.0;
+    if !f3.is_finite() {
+        return (None, f1, 3.0 * d12.abs() / formal, "two grids");
+    }
     let d23 = f3 - f2;
     let monotone =
         d12 != 0.0 && d23 != 0.0 && d12.signum() == d23.signum() && d23.abs() > d12.abs();
     if monotone {
-        let p = ((d23 / d12).ln() / 2f64.ln()).clamp(1.0, FORMAL_ORDER);
-        let denom = 2f64.powf(p) - 1.0;
+        let p = ((d23 / d12).ln() / ratio.ln()).clamp(1.0, FORMAL_ORDER);
+        let denom = ratio.powf(p) - 1.0;
         let ext = f1 - d12 / denom;
         (Some(p), ext, 1.25 * d12.abs() / denom, "monotone")
     } else {
-        let denom = 2f64.powf(FORMAL_ORDER) - 1.0;
-        let spread = d12.abs().max(d23.abs() / 2f64.powf(FORMAL_ORDER));
-        (None, f1, 3.0 * spread / denom, "oscillatory")
+        let spread = d12.abs().max(d23.abs() / ratio.powf(FORMAL_ORDER));
+        (None, f1, 3.0 * spread / formal, "oscillatory")
     }
 }
 
@@ -73,19 +84,25 @@ pub fn grid_study(
     stage_v: Option<&[f64]>,
 ) -> Result<GridStudy, AnalysisError> {
     let mut medium_model = model.clone();
-    medium_model.mesh = model.mesh.scaled(2.0);
+    medium_model.mesh = model.mesh.scaled(RATIO);
     let mut coarse_model = model.clone();
-    coarse_model.mesh = model.mesh.scaled(4.0);
+    coarse_model.mesh = model.mesh.scaled(RATIO * RATIO);
     let medium = analyze(&medium_model, params, stage_v)?;
-    let coarse = analyze(&coarse_model, params, stage_v)?;
+    let (coarse, coarse_unavailable) = match analyze(&coarse_model, params, stage_v) {
+        Ok(c) => (Some(c), None),
+        Err(AnalysisError::Mesh(e)) => (None, Some(e.to_string())),
+        Err(e) => return Err(e),
+    };
     let mut peaks = Vec::new();
     for (k, p) in fine.peaks.iter().enumerate() {
         let f = [
             p.peak_surface_field_v_per_m,
             medium.peaks[k].peak_surface_field_v_per_m,
-            coarse.peaks[k].peak_surface_field_v_per_m,
+            coarse
+                .as_ref()
+                .map_or(f64::NAN, |c| c.peaks[k].peak_surface_field_v_per_m),
         ];
-        let (order, ext, err, conv) = richardson(f);
+        let (order, ext, err, conv) = richardson(f, RATIO);
         peaks.push(PeakStudy {
             conductor: k,
             name: p.name.clone(),
@@ -103,7 +120,12 @@ pub fn grid_study(
             medium_model.mesh.cell,
             coarse_model.mesh.cell,
         ],
-        nodes: [fine.mesh.nodes(), medium.mesh.nodes(), coarse.mesh.nodes()],
+        nodes: [
+            fine.mesh.nodes(),
+            medium.mesh.nodes(),
+            coarse.as_ref().map_or(0, |c| c.mesh.nodes()),
+        ],
+        coarse_unavailable,
         peaks,
     })
 }
@@ -115,7 +137,7 @@ mod tests {
     #[test]
     fn richardson_recovers_a_second_order_sequence() {
         // f(h) = 1 + 0.1 h², h = 1, 2, 4.
-        let (p, ext, err, conv) = richardson([1.1, 1.4, 2.6]);
+        let (p, ext, err, conv) = richardson([1.1, 1.4, 2.6], 2.0);
         assert_eq!(conv, "monotone");
         assert!((p.unwrap() - 2.0).abs() < 1e-12);
         assert!((ext - 1.0).abs() < 1e-12);

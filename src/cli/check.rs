@@ -65,9 +65,7 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
         } else {
             &mut std::io::stdout()
         };
-        for row in listing {
-            writeln!(target, "{row}")?;
-        }
+        write!(target, "{}", table::render_listing(&listing))?;
     }
     let params = SolverParams::default();
     let fine = analyze(&model, &params, None)?;

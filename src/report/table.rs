@@ -145,3 +145,29 @@ pub fn render(report: &Report) -> String {
     }
     out
 }
+
+/// Renders the expanded model (what was modelled) as a table.
+pub fn render_listing(rows: &[crate::design::ListingRow]) -> String {
+    let mut t = Table::new();
+    t.load_style(UTF8_FULL_CONDENSED)
+        .set_content_arrangement(ContentArrangement::Dynamic);
+    t.set_header(vec![
+        "primitive",
+        "kind",
+        "shape (mm)",
+        "potential",
+        "from",
+        "notes",
+    ]);
+    for r in rows {
+        t.add_row(vec![
+            Cell::new(&r.name),
+            Cell::new(r.kind.to_string()),
+            Cell::new(&r.shape),
+            Cell::new(r.potential.as_deref().unwrap_or("-")),
+            Cell::new(&r.origin),
+            Cell::new(r.notes.join("; ")),
+        ]);
+    }
+    format!("{t}\n")
+}

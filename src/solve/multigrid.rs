@@ -409,7 +409,7 @@ impl Multigrid {
             };
             let mr = axis_map(&rx, &ci);
             let mz = axis_map(&zx, &cj);
-            let coarse = galerkin(fine, &mr, &mz, ci.len(), cj.len());
+            let coarse = galerkin(fine, &mr, &mz, &ci, &cj);
             rx = ci.iter().map(|&i| rx[i]).collect();
             zx = cj.iter().map(|&j| zx[j]).collect();
             let last = levels.len() - 1;
@@ -581,10 +581,20 @@ fn prolong_add(f: &mut Level, c: &Level) {
     }
 }
 
-/// The Galerkin coarse operator Pᵀ A P with tensor bilinear P that is zero on fixed nodes,
-/// accumulated in double precision.
-fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, cnr: usize, cnz: usize) -> Level {
+/// The Galerkin coarse operator Pᵀ A P with tensor bilinear P, accumulated in double
+/// precision. A coarse node that sits on a fixed fine node is fixed too (it takes no
+/// correction, as the boundary it lies in), so every live coarse node coincides with a live
+/// fine node and P keeps full column rank: the coarse operator stays nonsingular even where a
+/// strip of free nodes is thinner than a coarse cell.
+fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -> Level {
+    let (cnr, cnz) = (ci.len(), cj.len());
     let cn = cnr * cnz;
+    let mut live = vec![false; cn];
+    for (jj, &fj) in cj.iter().enumerate() {
+        for (ii, &fi) in ci.iter().enumerate() {
+            live[jj * cnr + ii] = f.mask[f.p(fi, fj)] != 0.0;
+        }
+    }
     let mut acc = vec![[0.0f64; 9]; cn];
     let slot_of = |oi: i64, oj: i64| -> usize {
         SLOTS
@@ -601,11 +611,18 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, cnr: usize, cnz: usize) -> Le
     let parents = |i: usize, j: usize| -> [(usize, usize, f64); 4] {
         let (ci, wi0, wi1) = (mr.c0[i], mr.w0[i] as f64, mr.w1[i] as f64);
         let (cj, wj0, wj1) = (mz.c0[j], mz.w0[j] as f64, mz.w1[j] as f64);
+        let w = |a: usize, b: usize, wt: f64| -> (usize, usize, f64) {
+            if wt != 0.0 && live[b * cnr + a] {
+                (a, b, wt)
+            } else {
+                (a, b, 0.0)
+            }
+        };
         [
-            (ci, cj, wi0 * wj0),
-            (ci + 1, cj, wi1 * wj0),
-            (ci, cj + 1, wi0 * wj1),
-            (ci + 1, cj + 1, wi1 * wj1),
+            w(ci, cj, wi0 * wj0),
+            w(ci + 1, cj, wi1 * wj0),
+            w(ci, cj + 1, wi0 * wj1),
+            w(ci + 1, cj + 1, wi1 * wj1),
         ]
     };
     for j in 0..f.nz {
@@ -651,7 +668,7 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, cnr: usize, cnz: usize) -> Le
         for i in 0..cnr {
             let k = j * cnr + i;
             let p = c.p(i, j);
-            if acc[k][Slot::C as usize] == 0.0 {
+            if !live[k] || acc[k][Slot::C as usize] == 0.0 {
                 c.st[Slot::C as usize][p] = 1.0;
                 c.mask[p] = 0.0;
             } else {
