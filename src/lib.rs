@@ -12,6 +12,33 @@
 //!   → study    grid study: Richardson extrapolation and an error estimate per peak
 //!   → breakdown / margin / report
 //! ```
+//!
+//! The whole field pipeline on a small design: a sphere at 100 kV in a grounded spherical
+//! tank, whose peak surface field is V·b/(a(b − a)) = 2 MV/m.
+//!
+//! ```
+//! let text = r#"
+//! title = "sphere in a sphere"
+//! [tank]
+//! shape = "sphere"
+//! inner_radius = "200 mm"
+//! [terminal]
+//! voltage = "100 kV"
+//! [[conductor]]
+//! name = "ball"
+//! shape = "sphere"
+//! center_z = "200 mm"
+//! radius = "100 mm"
+//! potential = "terminal"
+//! [mesh]
+//! cell = "2 mm"
+//! "#;
+//! let model = holdoff::design::from_str(text, "example.toml").expect("valid design");
+//! let params = holdoff::solve::SolverParams::default();
+//! let fine = holdoff::analysis::analyze(&model, &params, None).expect("solves");
+//! let peak = fine.peaks[0].peak_surface_field_v_per_m;
+//! assert!((peak - 2.0e6).abs() / 2.0e6 < 1e-3);
+//! ```
 
 pub mod analysis;
 pub mod benchmark;

@@ -116,7 +116,8 @@ pub fn pcg(
     }
 }
 
-/// Right-preconditioned BiCGStab from the initial guess in `x`.
+/// Right-preconditioned BiCGStab from the initial guess in `x`, with the intermediate
+/// residual and the two preconditioned directions kept in place (six work vectors).
 pub fn bicgstab(
     op: &Operator,
     mg: &mut Multigrid,
@@ -138,11 +139,17 @@ pub fn bicgstab(
     let r0 = r.clone();
     let mut p = vec![0.0; n];
     let mut v = vec![0.0; n];
-    let mut phat = vec![0.0; n];
-    let mut shat = vec![0.0; n];
-    let mut s = vec![0.0; n];
+    let mut hat = vec![0.0; n];
     let mut t = vec![0.0; n];
     let (mut rho, mut alpha, mut omega) = (1.0f64, 1.0f64, 1.0f64);
+    let done = |op: &Operator, x: &[f64], r: &mut [f64], it: usize| -> Option<KrylovInfo> {
+        let tn = residual(op, x, b, r);
+        (tn / bnorm <= params.tolerance).then_some(KrylovInfo {
+            iterations: it,
+            relative_residual: tn / bnorm,
+            converged: true,
+        })
+    };
     for it in 1..=params.max_iterations {
         let rho_new = dot(&r0, &r);
         if rho_new == 0.0 || !rho_new.is_finite() {
@@ -153,51 +160,36 @@ pub fn bicgstab(
         for k in 0..n {
             p[k] = r[k] + beta * (p[k] - omega * v[k]);
         }
-        mg.apply(&p, &mut phat);
-        op.apply(&phat, &mut v);
+        mg.apply(&p, &mut hat);
+        op.apply(&hat, &mut v);
         let r0v = dot(&r0, &v);
         if r0v == 0.0 || !r0v.is_finite() {
             break;
         }
         alpha = rho / r0v;
         for k in 0..n {
-            s[k] = r[k] - alpha * v[k];
+            x[k] += alpha * hat[k];
+            r[k] -= alpha * v[k];
         }
-        let sn = norm(&s);
-        if sn / bnorm <= params.tolerance {
-            for k in 0..n {
-                x[k] += alpha * phat[k];
-            }
-            let tn = residual(op, x, b, &mut r);
-            if tn / bnorm <= params.tolerance {
-                return KrylovInfo {
-                    iterations: it,
-                    relative_residual: tn / bnorm,
-                    converged: true,
-                };
-            }
-            rn = tn;
-            continue;
+        if norm(&r) / bnorm <= params.tolerance
+            && let Some(info) = done(op, x, &mut r, it)
+        {
+            return info;
         }
-        mg.apply(&s, &mut shat);
-        op.apply(&shat, &mut t);
+        mg.apply(&r, &mut hat);
+        op.apply(&hat, &mut t);
         let tt = dot(&t, &t);
-        omega = if tt > 0.0 { dot(&t, &s) / tt } else { 0.0 };
+        omega = if tt > 0.0 { dot(&t, &r) / tt } else { 0.0 };
         for k in 0..n {
-            x[k] += alpha * phat[k] + omega * shat[k];
-            r[k] = s[k] - omega * t[k];
+            x[k] += omega * hat[k];
+            r[k] -= omega * t[k];
         }
         rn = norm(&r);
         if rn / bnorm <= params.tolerance {
-            let tn = residual(op, x, b, &mut r);
-            if tn / bnorm <= params.tolerance {
-                return KrylovInfo {
-                    iterations: it,
-                    relative_residual: tn / bnorm,
-                    converged: true,
-                };
+            if let Some(info) = done(op, x, &mut r, it) {
+                return info;
             }
-            rn = tn;
+            rn = norm(&r);
         }
         if omega == 0.0 {
             break;

@@ -127,9 +127,10 @@ impl Solver {
             });
         }
         let n = b.len();
+        // Right-hand side, solution and the Krylov work vectors.
         let vectors = match self.params.scheme {
             Scheme::Symmetric => 6,
-            Scheme::ShortleyWeller => 9,
+            Scheme::ShortleyWeller => 8,
         };
         let memory_bytes =
             self.op.matrix.nnz() * 12 + (n + 1) * 4 + self.mg.bytes() + vectors * 8 * n;

@@ -71,12 +71,10 @@ struct Level {
     b: Vec<f32>,
     /// Scratch: line right-hand sides during relaxation, the residual after it.
     dp: Vec<f32>,
-    /// Thomas factors of the r-lines (reciprocal pivots and upper coefficients) and of the
-    /// z-lines, computed once.
+    /// Reciprocal Thomas pivots of the r-lines and of the z-lines, computed once; the upper
+    /// factors are the east (north) coefficients times these.
     r_inv: Vec<f32>,
-    r_up: Vec<f32>,
     z_inv: Vec<f32>,
-    z_up: Vec<f32>,
 }
 
 /// Settings of the V-cycle.
@@ -154,9 +152,7 @@ impl Level {
             b: full(),
             dp: full(),
             r_inv: full(),
-            r_up: full(),
             z_inv: full(),
-            z_up: full(),
         }
     }
 
@@ -171,8 +167,7 @@ impl Level {
                 let m = c[p] - w[p] * up_prev;
                 let inv = 1.0 / m;
                 self.r_inv[p] = inv;
-                self.r_up[p] = e[p] * inv;
-                up_prev = self.r_up[p];
+                up_prev = e[p] * inv;
             }
         }
         for i in 0..nr {
@@ -182,8 +177,7 @@ impl Level {
                 let m = c[p] - s[p] * up_prev;
                 let inv = 1.0 / m;
                 self.z_inv[p] = inv;
-                self.z_up[p] = n[p] * inv;
-                up_prev = self.z_up[p];
+                up_prev = n[p] * inv;
             }
         }
     }
@@ -196,13 +190,13 @@ impl Level {
     fn bytes(&self) -> usize {
         let np = self.pw * (self.nz + 2);
         let slots = if self.nine { 9 } else { 5 };
-        np * 4 * (slots + 8)
+        np * 4 * (slots + 6)
     }
 
     /// Exact solves on every r-line of one colour (j ≡ colour mod 2).
     fn relax_r_lines(&mut self, colour: usize) {
         let (nr, pw) = (self.nr, self.pw);
-        let [_, w, _, s, n, sw, se, nw, ne] = &self.st;
+        let [_, w, e, s, n, sw, se, nw, ne] = &self.st;
         for j in (colour..self.nz).step_by(2) {
             let base = (j + 1) * pw + 1;
             let row = base..base + nr;
@@ -234,11 +228,7 @@ impl Level {
                 }
             }
             let out = &mut self.dp[row.clone()];
-            let (ww, inv, upc) = (
-                &w[row.clone()],
-                &self.r_inv[row.clone()],
-                &self.r_up[row.clone()],
-            );
+            let (ww, inv, ee) = (&w[row.clone()], &self.r_inv[row.clone()], &e[row.clone()]);
             let mut prev = 0.0f32;
             for k in 0..nr {
                 let v = (out[k] - ww[k] * prev) * inv[k];
@@ -248,7 +238,7 @@ impl Level {
             let xr = &mut self.x[row];
             let mut next = 0.0f32;
             for k in (0..nr).rev() {
-                let v = out[k] - upc[k] * next;
+                let v = out[k] - ee[k] * inv[k] * next;
                 xr[k] = v;
                 next = v;
             }
@@ -259,11 +249,11 @@ impl Level {
     /// advanced together row by row, for contiguous memory access.
     fn relax_z_lines(&mut self, colour: usize) {
         let (nr, nz, pw) = (self.nr, self.nz, self.pw);
-        let [_, w, e, s, _, sw, se, nw, ne] = &self.st;
+        let [_, w, e, s, n, sw, se, nw, ne] = &self.st;
         let x = &mut self.x;
         let b = &self.b;
         let dp = &mut self.dp;
-        let (inv, upc) = (&self.z_inv, &self.z_up);
+        let inv = &self.z_inv;
         for j in 0..nz {
             let base = (j + 1) * pw + 1;
             for i in (colour..nr).step_by(2) {
@@ -286,7 +276,7 @@ impl Level {
             let base = (j + 1) * pw + 1;
             for i in (colour..nr).step_by(2) {
                 let p = base + i;
-                x[p] = dp[p] - upc[p] * x[p + pw];
+                x[p] = dp[p] - n[p] * inv[p] * x[p + pw];
             }
         }
     }
