@@ -579,10 +579,26 @@ fn prolong_add(f: &mut Level, c: &Level) {
 fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -> Level {
     let (cnr, cnz) = (ci.len(), cj.len());
     let cn = cnr * cnz;
+    // A coarse node takes corrections when the fine node under it does, or when that node is
+    // fixed but borders free ones (it then carries the correction up to the surface).
     let mut live = vec![false; cn];
     for (jj, &fj) in cj.iter().enumerate() {
         for (ii, &fi) in ci.iter().enumerate() {
-            live[jj * cnr + ii] = f.mask[f.p(fi, fj)] != 0.0;
+            let p = f.p(fi, fj);
+            let pw = f.pw;
+            let free_nb = [
+                p - 1,
+                p + 1,
+                p - pw,
+                p + pw,
+                p - pw - 1,
+                p - pw + 1,
+                p + pw - 1,
+                p + pw + 1,
+            ]
+            .iter()
+            .any(|&q| f.mask[q] != 0.0);
+            live[jj * cnr + ii] = f.mask[p] != 0.0 || free_nb;
         }
     }
     let mut acc = vec![[0.0f64; 9]; cn];
@@ -598,61 +614,70 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -
             *v = slot_of(oi as i64 - 1, oj as i64 - 1);
         }
     }
-    let parents = |i: usize, j: usize| -> [(usize, usize, f64); 4] {
-        let (ci, wi0, wi1) = (mr.c0[i], mr.w0[i] as f64, mr.w1[i] as f64);
-        let (cj, wj0, wj1) = (mz.c0[j], mz.w0[j] as f64, mz.w1[j] as f64);
-        let w = |a: usize, b: usize, wt: f64| -> (usize, usize, f64) {
-            if wt != 0.0 && live[b * cnr + a] {
-                (a, b, wt)
-            } else {
-                (a, b, 0.0)
-            }
-        };
-        [
-            w(ci, cj, wi0 * wj0),
-            w(ci + 1, cj, wi1 * wj0),
-            w(ci, cj + 1, wi0 * wj1),
-            w(ci + 1, cj + 1, wi1 * wj1),
-        ]
+    // Parents along each axis: the one or two coarse indices with a nonzero weight.
+    let axis_parents = |m: &AxisMap| -> Vec<([(usize, f64); 2], usize)> {
+        (0..m.c0.len())
+            .map(|i| {
+                let (c, w0, w1) = (m.c0[i], m.w0[i] as f64, m.w1[i] as f64);
+                if w1 == 0.0 {
+                    ([(c, w0), (c, 0.0)], 1)
+                } else {
+                    ([(c, w0), (c + 1, w1)], 2)
+                }
+            })
+            .collect()
     };
+    let pr = axis_parents(mr);
+    let pz = axis_parents(mz);
+    let slots: Vec<(usize, i64, i64)> = SLOTS
+        .iter()
+        .filter(|(s, _, _)| !f.st[*s as usize].is_empty())
+        .map(|&(s, di, dj)| (s as usize, di as i64, dj as i64))
+        .collect();
     for j in 0..f.nz {
         for i in 0..f.nr {
             let p = f.p(i, j);
             if f.mask[p] == 0.0 {
                 continue;
             }
-            let pf = parents(i, j);
-            for (slot, di, dj) in SLOTS {
-                let a = f.entry(p, slot as usize);
+            let (pri, nri) = pr[i];
+            let (pzj, nzj) = pz[j];
+            for &(slot, di, dj) in &slots {
+                let a = f.st[slot][p] as f64;
                 if a == 0.0 {
                     continue;
                 }
-                let (gi, gj) = (i as i64 + di as i64, j as i64 + dj as i64);
-                if gi < 0 || gj < 0 || gi >= f.nr as i64 || gj >= f.nz as i64 {
-                    continue;
-                }
-                let (gi, gj) = (gi as usize, gj as usize);
+                // Neighbours outside the grid have zero coefficients, so (gi, gj) is inside.
+                let (gi, gj) = ((i as i64 + di) as usize, (j as i64 + dj) as usize);
                 if f.mask[f.p(gi, gj)] == 0.0 {
                     continue;
                 }
-                let pg = parents(gi, gj);
-                for &(ci, cj, wc) in &pf {
-                    if wc == 0.0 {
-                        continue;
-                    }
-                    let row = &mut acc[cj * cnr + ci];
-                    for &(di2, dj2, wd) in &pg {
-                        if wd == 0.0 {
+                let (prg, nrg) = pr[gi];
+                let (pzg, nzg) = pz[gj];
+                for &(cjf, wjf) in &pzj[..nzj] {
+                    for &(cif, wif) in &pri[..nri] {
+                        let row_k = cjf * cnr + cif;
+                        if !live[row_k] {
                             continue;
                         }
-                        let oi = (di2 as i64 - ci as i64 + 1) as usize;
-                        let oj = (dj2 as i64 - cj as i64 + 1) as usize;
-                        row[slot_table[oj][oi]] += wc * a * wd;
+                        let wa = wif * wjf * a;
+                        let row = &mut acc[row_k];
+                        for &(cjg, wjg) in &pzg[..nzg] {
+                            let oj = cjg + 1 - cjf;
+                            for &(cig, wig) in &prg[..nrg] {
+                                if !live[cjg * cnr + cig] {
+                                    continue;
+                                }
+                                let oi = cig + 1 - cif;
+                                row[slot_table[oj][oi]] += wa * wig * wjg;
+                            }
+                        }
                     }
                 }
             }
         }
     }
+    remove_singular(&mut acc, &mut live, cnr, cnz, &slot_table);
     let mut c = Level::new(cnr, cnz, true);
     for j in 0..cnz {
         for i in 0..cnr {
@@ -671,4 +696,92 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -
     }
     c.factor();
     c
+}
+
+/// Takes out of the coarse operator every live node whose line factorisation would meet a
+/// vanishing pivot (coarse nodes whose interpolation columns are nearly dependent, as where a
+/// strip of gas is thinner than a coarse cell): its row and column are removed, which is the
+/// Galerkin product with that column of P left out, and the test repeats until none is left.
+fn remove_singular(
+    acc: &mut [[f64; 9]],
+    live: &mut [bool],
+    cnr: usize,
+    cnz: usize,
+    slot_table: &[[usize; 3]; 3],
+) {
+    const C: usize = Slot::C as usize;
+    let rel = 1e-6;
+    for _pass in 0..8 {
+        let mut bad = Vec::new();
+        // r-lines.
+        for j in 0..cnz {
+            let mut up = 0.0;
+            for i in 0..cnr {
+                let k = j * cnr + i;
+                if !live[k] {
+                    up = 0.0;
+                    continue;
+                }
+                let w = if i > 0 && live[k - 1] {
+                    acc[k][Slot::W as usize]
+                } else {
+                    0.0
+                };
+                let m = acc[k][C] - w * up;
+                if !(m > rel * acc[k][C].abs()) {
+                    bad.push(k);
+                    up = 0.0;
+                    continue;
+                }
+                up = acc[k][Slot::E as usize] / m;
+            }
+        }
+        // z-lines.
+        for i in 0..cnr {
+            let mut up = 0.0;
+            for j in 0..cnz {
+                let k = j * cnr + i;
+                if !live[k] {
+                    up = 0.0;
+                    continue;
+                }
+                let sv = if j > 0 && live[k - cnr] {
+                    acc[k][Slot::S as usize]
+                } else {
+                    0.0
+                };
+                let m = acc[k][C] - sv * up;
+                if !(m > rel * acc[k][C].abs()) {
+                    bad.push(k);
+                    up = 0.0;
+                    continue;
+                }
+                up = acc[k][Slot::N as usize] / m;
+            }
+        }
+        if bad.is_empty() {
+            return;
+        }
+        for k in bad {
+            if !live[k] {
+                continue;
+            }
+            live[k] = false;
+            let (i, j) = ((k % cnr) as i64, (k / cnr) as i64);
+            // Remove the couplings of the neighbours to k.
+            for dj in -1i64..=1 {
+                for di in -1i64..=1 {
+                    let (ni, nj) = (i + di, j + dj);
+                    if ni < 0 || nj < 0 || ni >= cnr as i64 || nj >= cnz as i64 {
+                        continue;
+                    }
+                    let nk = nj as usize * cnr + ni as usize;
+                    // From nk, k lies at offset (−di, −dj).
+                    let slot = slot_table[(1 - dj) as usize][(1 - di) as usize];
+                    acc[nk][slot] = 0.0;
+                }
+            }
+            acc[k] = [0.0; 9];
+        }
+    }
 }

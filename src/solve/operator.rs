@@ -135,36 +135,39 @@ impl Operator {
                 continue;
             }
             let nc = node_coeffs(mesh, k, scheme);
-            let nb = |d: Dir| -> Option<usize> {
-                let (i, j) = (k % nr, k / nr);
-                match d {
-                    Dir::E => (i + 1 < nr).then_some(k + 1),
-                    Dir::W => (i > 0).then(|| k - 1),
-                    Dir::N => (j + 1 < mesh.nz()).then_some(k + nr),
-                    Dir::S => (j > 0).then(|| k - nr),
-                }
-            };
+            let (i, j) = (k % nr, k / nr);
+            let exists = [i + 1 < nr, i > 0, j + 1 < mesh.nz(), j > 0];
+            let cols = [k + 1, k.wrapping_sub(1), k + nr, k.wrapping_sub(nr)];
             let mut diag = 0.0;
-            // Columns in increasing order: S, W, P, E, N.
-            let mut row: Vec<(u32, f64)> = Vec::with_capacity(5);
+            // Off-diagonal entries by direction (E, W, N, S); zero where the link ends on a
+            // surface (moved to the right-hand side) or does not exist.
+            let mut off = [0.0f64; 4];
             for d in DIRS {
-                let c = nc.c[d as usize];
-                if c == 0.0 {
+                let di = d as usize;
+                let c = nc.c[di];
+                if c == 0.0 || !exists[di] {
                     continue;
                 }
-                let Some(q) = nb(d) else { continue };
                 diag += c;
-                if let Some(cut) = mesh.cuts[k][d as usize] {
+                if let Some(cut) = mesh.cuts[k][di] {
                     boundary.push((k as u32, cut.id, c));
                 } else {
-                    row.push((q as u32, -c));
+                    off[di] = -c;
                 }
             }
-            row.push((k as u32, diag));
-            row.sort_by_key(|e| e.0);
-            for (col, v) in row {
-                indices.push(col);
-                data.push(v);
+            // Columns in increasing order: S, W, P, E, N.
+            for (di, col) in [
+                (Dir::S as usize, cols[3]),
+                (Dir::W as usize, cols[1]),
+                (usize::MAX, k),
+                (Dir::E as usize, cols[0]),
+                (Dir::N as usize, cols[2]),
+            ] {
+                let v = if di == usize::MAX { diag } else { off[di] };
+                if v != 0.0 || di == usize::MAX {
+                    indices.push(col as u32);
+                    data.push(v);
+                }
             }
             indptr.push(indices.len() as u32);
         }
