@@ -728,7 +728,7 @@ fn remove_singular(
                     0.0
                 };
                 let m = acc[k][C] - w * up;
-                if !(m > rel * acc[k][C].abs()) {
+                if m.is_nan() || m <= rel * acc[k][C].abs() {
                     bad.push(k);
                     up = 0.0;
                     continue;
@@ -751,7 +751,7 @@ fn remove_singular(
                     0.0
                 };
                 let m = acc[k][C] - sv * up;
-                if !(m > rel * acc[k][C].abs()) {
+                if m.is_nan() || m <= rel * acc[k][C].abs() {
                     bad.push(k);
                     up = 0.0;
                     continue;
