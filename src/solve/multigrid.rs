@@ -17,6 +17,7 @@
 
 use crate::solve::operator::Operator;
 use nalgebra::{DMatrix, DVector};
+use rayon::prelude::*;
 
 /// Interpolation weights along one axis: for each fine index, the coarse index below and the
 /// weights on it and on the next coarse index.
@@ -193,91 +194,97 @@ impl Level {
         np * 4 * (slots + 6)
     }
 
-    /// Exact solves on every r-line of one colour (j ≡ colour mod 2).
+    /// Exact solves on every r-line of one colour (j ≡ colour mod 2); the lines of one colour
+    /// are independent and run in parallel on large levels.
     fn relax_r_lines(&mut self, colour: usize) {
-        let (nr, pw) = (self.nr, self.pw);
-        let [_, w, e, s, n, sw, se, nw, ne] = &self.st;
-        for j in (colour..self.nz).step_by(2) {
+        let (nr, pw, nz, nine) = (self.nr, self.pw, self.nz, self.nine);
+        let st = &self.st;
+        let b = &self.b;
+        let inv = &self.r_inv;
+        let x = Shared(self.x.as_mut_ptr());
+        let dp = Shared(self.dp.as_mut_ptr());
+        let line = |j: usize| {
             let base = (j + 1) * pw + 1;
-            let row = base..base + nr;
-            let down = base - pw..base - pw + nr;
-            let up = base + pw..base + pw + nr;
-            {
-                let x = &self.x;
-                let (xd, xu) = (&x[down.clone()], &x[up.clone()]);
-                let (ss, nn, bb) = (&s[row.clone()], &n[row.clone()], &self.b[row.clone()]);
-                let out = &mut self.dp[row.clone()];
-                for k in 0..nr {
-                    out[k] = bb[k] - ss[k] * xd[k] - nn[k] * xu[k];
-                }
-                if self.nine {
-                    let (xdl, xdr) = (
-                        &x[down.start - 1..down.end - 1],
-                        &x[down.start + 1..down.end + 1],
-                    );
-                    let (xul, xur) = (&x[up.start - 1..up.end - 1], &x[up.start + 1..up.end + 1]);
-                    let (a, b2, c2, d) = (
-                        &sw[row.clone()],
-                        &se[row.clone()],
-                        &nw[row.clone()],
-                        &ne[row.clone()],
-                    );
-                    for k in 0..nr {
-                        out[k] -= a[k] * xdl[k] + b2[k] * xdr[k] + c2[k] * xul[k] + d[k] * xur[k];
-                    }
-                }
-            }
-            let out = &mut self.dp[row.clone()];
-            let (ww, inv, ee) = (&w[row.clone()], &self.r_inv[row.clone()], &e[row.clone()]);
-            let mut prev = 0.0f32;
-            for k in 0..nr {
-                let v = (out[k] - ww[k] * prev) * inv[k];
-                out[k] = v;
-                prev = v;
-            }
-            let xr = &mut self.x[row];
-            let mut next = 0.0f32;
-            for k in (0..nr).rev() {
-                let v = out[k] - ee[k] * inv[k] * next;
-                xr[k] = v;
-                next = v;
-            }
+            // SAFETY: the task for line j writes only row j of `x` and `dp`; it reads rows
+            // j − 1 and j + 1 of `x`, which belong to the other colour and are written by no
+            // task of this pass. Rows of one colour are disjoint, so no two tasks touch the
+            // same element and no element is read while another task writes it.
+            let (xd, xu, xrow, out) = unsafe {
+                (
+                    std::slice::from_raw_parts(x.get().add(base - pw - 1), nr + 2),
+                    std::slice::from_raw_parts(x.get().add(base + pw - 1), nr + 2),
+                    std::slice::from_raw_parts_mut(x.get().add(base), nr),
+                    std::slice::from_raw_parts_mut(dp.get().add(base), nr),
+                )
+            };
+            relax_one_r_line(st, b, inv, base, nr, nine, xd, xu, xrow, out);
+        };
+        let lines = (colour..nz).step_by(2);
+        if nr * nz >= PARALLEL_NODES {
+            lines.collect::<Vec<_>>().into_par_iter().for_each(line);
+        } else {
+            lines.for_each(line);
         }
     }
 
     /// Exact solves on every z-line of one colour (i ≡ colour mod 2), all lines of the colour
-    /// advanced together row by row, for contiguous memory access.
+    /// advanced together row by row for contiguous memory access; on large levels blocks of
+    /// columns run in parallel.
     fn relax_z_lines(&mut self, colour: usize) {
-        let (nr, nz, pw) = (self.nr, self.nz, self.pw);
-        let [_, w, e, s, n, sw, se, nw, ne] = &self.st;
-        let x = &mut self.x;
+        let (nr, nz, pw, nine) = (self.nr, self.nz, self.pw, self.nine);
+        let st = &self.st;
         let b = &self.b;
-        let dp = &mut self.dp;
         let inv = &self.z_inv;
-        for j in 0..nz {
-            let base = (j + 1) * pw + 1;
-            for i in (colour..nr).step_by(2) {
-                let p = base + i;
-                let mut rhs = b[p] - w[p] * x[p - 1] - e[p] * x[p + 1];
-                if self.nine {
-                    rhs -= sw[p] * x[p - pw - 1]
-                        + se[p] * x[p - pw + 1]
-                        + nw[p] * x[p + pw - 1]
-                        + ne[p] * x[p + pw + 1];
+        let x = Shared(self.x.as_mut_ptr());
+        let dp = Shared(self.dp.as_mut_ptr());
+        let block = |cols: std::ops::Range<usize>| {
+            let [_, w, e, s, n, sw, se, nw, ne] = st;
+            let first = cols.start + (cols.start + colour) % 2;
+            // SAFETY: a block writes `x` and `dp` only in its own columns of this colour; it
+            // reads `x` in the neighbouring columns, which are of the other colour and are
+            // written by no block of this pass. Blocks cover disjoint columns, so no element
+            // is written by two tasks or read by one while another writes it. Access is by raw
+            // pointer only, so no references alias.
+            unsafe {
+                let (xp, dq) = (x.get(), dp.get());
+                for j in 0..nz {
+                    let base = (j + 1) * pw + 1;
+                    for i in (first..cols.end).step_by(2) {
+                        let p = base + i;
+                        let mut rhs = b[p] - w[p] * *xp.add(p - 1) - e[p] * *xp.add(p + 1);
+                        if nine {
+                            rhs -= sw[p] * *xp.add(p - pw - 1)
+                                + se[p] * *xp.add(p - pw + 1)
+                                + nw[p] * *xp.add(p + pw - 1)
+                                + ne[p] * *xp.add(p + pw + 1);
+                        }
+                        *dq.add(p) = (rhs - s[p] * *dq.add(p - pw)) * inv[p];
+                    }
                 }
-                dp[p] = (rhs - s[p] * dp[p - pw]) * inv[p];
+                let top = nz * pw + 1;
+                for i in (first..cols.end).step_by(2) {
+                    *xp.add(top + i) = *dq.add(top + i);
+                }
+                for j in (0..nz - 1).rev() {
+                    let base = (j + 1) * pw + 1;
+                    for i in (first..cols.end).step_by(2) {
+                        let p = base + i;
+                        *xp.add(p) = *dq.add(p) - n[p] * inv[p] * *xp.add(p + pw);
+                    }
+                }
             }
-        }
-        let top = nz * pw + 1;
-        for i in (colour..nr).step_by(2) {
-            x[top + i] = dp[top + i];
-        }
-        for j in (0..nz - 1).rev() {
-            let base = (j + 1) * pw + 1;
-            for i in (colour..nr).step_by(2) {
-                let p = base + i;
-                x[p] = dp[p] - n[p] * inv[p] * x[p + pw];
-            }
+        };
+        if nr * nz >= PARALLEL_NODES {
+            let parts = (rayon::current_num_threads() * 4).clamp(1, nr.div_ceil(2));
+            let width = nr.div_ceil(parts);
+            (0..parts)
+                .map(|t| t * width..((t + 1) * width).min(nr))
+                .filter(|r| !r.is_empty())
+                .collect::<Vec<_>>()
+                .into_par_iter()
+                .for_each(block);
+        } else {
+            block(0..nr);
         }
     }
 
@@ -783,5 +790,74 @@ fn remove_singular(
             }
             acc[k] = [0.0; 9];
         }
+    }
+}
+
+/// Levels with at least this many nodes relax in parallel.
+const PARALLEL_NODES: usize = 60_000;
+
+/// A raw pointer that parallel relaxation tasks share; each task touches a disjoint set of
+/// elements (see the SAFETY notes at the use sites).
+#[derive(Clone, Copy)]
+struct Shared(*mut f32);
+
+// SAFETY: the pointer is only dereferenced under the disjointness rules stated where the
+// tasks are spawned; the arrays outlive the parallel section, which joins before returning.
+unsafe impl Send for Shared {}
+unsafe impl Sync for Shared {}
+
+impl Shared {
+    fn get(self) -> *mut f32 {
+        self.0
+    }
+}
+
+/// One r-line: right-hand side from the rows below and above, then the Thomas solve with
+/// the stored pivots. `xd` and `xu` are the padded rows below and above (one ghost each side).
+#[allow(clippy::too_many_arguments)]
+fn relax_one_r_line(
+    st: &[Vec<f32>; 9],
+    b: &[f32],
+    inv: &[f32],
+    base: usize,
+    nr: usize,
+    nine: bool,
+    xd: &[f32],
+    xu: &[f32],
+    xrow: &mut [f32],
+    out: &mut [f32],
+) {
+    let [_, w, e, s, n, sw, se, nw, ne] = st;
+    let row = base..base + nr;
+    let (ss, nn, bb) = (&s[row.clone()], &n[row.clone()], &b[row.clone()]);
+    let (xdc, xuc) = (&xd[1..nr + 1], &xu[1..nr + 1]);
+    for k in 0..nr {
+        out[k] = bb[k] - ss[k] * xdc[k] - nn[k] * xuc[k];
+    }
+    if nine {
+        let (a, b2, c2, d) = (
+            &sw[row.clone()],
+            &se[row.clone()],
+            &nw[row.clone()],
+            &ne[row.clone()],
+        );
+        let (xdl, xdr) = (&xd[..nr], &xd[2..nr + 2]);
+        let (xul, xur) = (&xu[..nr], &xu[2..nr + 2]);
+        for k in 0..nr {
+            out[k] -= a[k] * xdl[k] + b2[k] * xdr[k] + c2[k] * xul[k] + d[k] * xur[k];
+        }
+    }
+    let (ww, iv, ee) = (&w[row.clone()], &inv[row.clone()], &e[row]);
+    let mut prev = 0.0f32;
+    for k in 0..nr {
+        let v = (out[k] - ww[k] * prev) * iv[k];
+        out[k] = v;
+        prev = v;
+    }
+    let mut next = 0.0f32;
+    for k in (0..nr).rev() {
+        let v = out[k] - ee[k] * iv[k] * next;
+        xrow[k] = v;
+        next = v;
     }
 }
