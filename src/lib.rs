@@ -43,6 +43,7 @@
 pub mod analysis;
 pub mod benchmark;
 pub mod breakdown;
+pub mod capacitance;
 pub mod design;
 pub mod field;
 pub mod geometry;
