@@ -6,6 +6,7 @@
 
 use crate::solve::multigrid::Multigrid;
 use crate::solve::operator::Operator;
+use rayon::prelude::*;
 
 /// Settings of the iteration.
 #[derive(Debug, Clone, Copy)]
@@ -32,8 +33,33 @@ pub struct KrylovInfo {
     pub converged: bool,
 }
 
+/// Vectors at least this long are reduced and updated in parallel.
+const PARALLEL_LEN: usize = 60_000;
+
 fn dot(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
+    if a.len() >= PARALLEL_LEN {
+        a.par_iter().zip(b).map(|(x, y)| x * y).sum()
+    } else {
+        a.iter().zip(b).map(|(x, y)| x * y).sum()
+    }
+}
+
+/// y += a·x and z += b·w in one pass.
+fn axpy2(y: &mut [f64], a: f64, x: &[f64], z: &mut [f64], b: f64, w: &[f64]) {
+    if y.len() >= PARALLEL_LEN {
+        y.par_iter_mut()
+            .zip(z.par_iter_mut())
+            .zip(x.par_iter().zip(w.par_iter()))
+            .for_each(|((yi, zi), (xi, wi))| {
+                *yi += a * xi;
+                *zi += b * wi;
+            });
+    } else {
+        for k in 0..y.len() {
+            y[k] += a * x[k];
+            z[k] += b * w[k];
+        }
+    }
 }
 
 fn norm(a: &[f64]) -> f64 {
@@ -84,10 +110,7 @@ pub fn pcg(
             };
         }
         let alpha = rz / pq;
-        for k in 0..n {
-            x[k] += alpha * p[k];
-            r[k] -= alpha * q[k];
-        }
+        axpy2(x, alpha, &p, &mut r, -alpha, &q);
         rn = norm(&r);
         if rn / bnorm <= params.tolerance {
             // Confirm with the true residual.
@@ -105,9 +128,10 @@ pub fn pcg(
         let rz_new = dot(&r, &z);
         let beta = rz_new / rz;
         rz = rz_new;
-        for k in 0..n {
-            p[k] = z[k] + beta * p[k];
-        }
+        p.par_iter_mut()
+            .zip(z.par_iter())
+            .with_min_len(PARALLEL_LEN / 2)
+            .for_each(|(pk, zk)| *pk = zk + beta * *pk);
     }
     KrylovInfo {
         iterations: params.max_iterations,
@@ -157,9 +181,10 @@ pub fn bicgstab(
         }
         let beta = (rho_new / rho) * (alpha / omega);
         rho = rho_new;
-        for k in 0..n {
-            p[k] = r[k] + beta * (p[k] - omega * v[k]);
-        }
+        p.par_iter_mut()
+            .zip(r.par_iter().zip(v.par_iter()))
+            .with_min_len(PARALLEL_LEN / 2)
+            .for_each(|(pk, (rk, vk))| *pk = rk + beta * (*pk - omega * vk));
         mg.apply(&p, &mut hat);
         op.apply(&hat, &mut v);
         let r0v = dot(&r0, &v);
@@ -167,10 +192,7 @@ pub fn bicgstab(
             break;
         }
         alpha = rho / r0v;
-        for k in 0..n {
-            x[k] += alpha * hat[k];
-            r[k] -= alpha * v[k];
-        }
+        axpy2(x, alpha, &hat, &mut r, -alpha, &v);
         if norm(&r) / bnorm <= params.tolerance
             && let Some(info) = done(op, x, &mut r, it)
         {
@@ -180,10 +202,7 @@ pub fn bicgstab(
         op.apply(&hat, &mut t);
         let tt = dot(&t, &t);
         omega = if tt > 0.0 { dot(&t, &r) / tt } else { 0.0 };
-        for k in 0..n {
-            x[k] += omega * hat[k];
-            r[k] -= omega * t[k];
-        }
+        axpy2(x, omega, &hat, &mut r, -omega, &t);
         rn = norm(&r);
         if rn / bnorm <= params.tolerance {
             if let Some(info) = done(op, x, &mut r, it) {

@@ -24,6 +24,10 @@ use crate::mesh::{DIRS, Dir, FREE, FixedId, Mesh, TANK};
 use serde::Serialize;
 use sprs::CsMatI;
 
+/// Products with at least this many rows run in parallel, in chunks of `CHUNK` rows.
+const PARALLEL_ROWS: usize = 60_000;
+const CHUNK: usize = 8192;
+
 /// Boundary treatment at cut links.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
 #[serde(rename_all = "snake_case")]
@@ -209,13 +213,24 @@ impl Operator {
         let ip = ip.raw_storage();
         let idx = self.matrix.indices();
         let val = self.matrix.data();
-        for (row, yr) in y.iter_mut().enumerate() {
-            let (s, e) = (ip[row] as usize, ip[row + 1] as usize);
-            let mut acc = 0.0;
-            for p in s..e {
-                acc += val[p] * x[idx[p] as usize];
+        let rows = |first: usize, ys: &mut [f64]| {
+            for (off, yr) in ys.iter_mut().enumerate() {
+                let row = first + off;
+                let (s, e) = (ip[row] as usize, ip[row + 1] as usize);
+                let mut acc = 0.0;
+                for p in s..e {
+                    acc += val[p] * x[idx[p] as usize];
+                }
+                *yr = acc;
             }
-            *yr = acc;
+        };
+        if y.len() >= PARALLEL_ROWS {
+            use rayon::prelude::*;
+            y.par_chunks_mut(CHUNK)
+                .enumerate()
+                .for_each(|(c, ys)| rows(c * CHUNK, ys));
+        } else {
+            rows(0, y);
         }
     }
 
