@@ -1,24 +1,16 @@
 //! Field-solver checks against closed-form electrostatics and an independent image-charge
 //! series. Sources are named beside each check (see REFERENCES.md §10).
 
+mod common;
+
+use common::{conductor, sphere_above_plane};
 use holdoff::analysis::{Analysis, analyze};
 use holdoff::field::{EPSILON_0, FieldMap};
 use holdoff::geometry::{Point, Shape};
 use holdoff::mesh::Mesh;
-use holdoff::model::{
-    Conductor, Dielectric, MeshSpec, Model, Origin, PotentialSpec, Probe, Tank, Wall,
-};
+use holdoff::model::{Dielectric, MeshSpec, Model, Origin, PotentialSpec, Probe, Tank, Wall};
 use holdoff::solve::{Solver, SolverParams};
 use holdoff::study::grid_study;
-
-fn conductor(name: &str, shape: Shape, volts: f64) -> Conductor {
-    Conductor {
-        name: name.into(),
-        shape,
-        potential: PotentialSpec::Absolute { volts },
-        origin: Origin::Program,
-    }
-}
 
 fn uniform(cell: f64) -> MeshSpec {
     MeshSpec {
@@ -259,27 +251,7 @@ fn sphere_above_grounded_plane() {
         let series = sphere_plane_image_field(radius, gap, v);
         // The series itself against the tabulated utilisation factor (E_mean = V/d).
         assert!(((v / gap) / series - eta).abs() < 1e-3, "series η");
-        let mut m = Model::new(
-            "sphere above plane",
-            Tank::Cylinder {
-                inner_radius: 1.0,
-                length: 1.0,
-            },
-            v,
-        );
-        m.conductors.push(conductor(
-            "sphere",
-            Shape::Sphere {
-                center_z: radius + gap,
-                radius,
-            },
-            v,
-        ));
-        m.mesh = MeshSpec {
-            cell: 0.001,
-            max_cell: 0.02,
-            growth: 1.08,
-        };
+        let m = sphere_above_plane(radius, gap, v, 0.001, 0.02);
         let e = peak_of(&m, true);
         assert!(
             (e - series).abs() / series < 0.02,
@@ -352,27 +324,7 @@ fn grid_study_brackets_the_true_error() {
     );
     // Sphere above a plane (exact: image series).
     let (radius, gap) = (0.05, 0.05);
-    let mut m = Model::new(
-        "sphere above plane",
-        Tank::Cylinder {
-            inner_radius: 1.0,
-            length: 1.0,
-        },
-        v,
-    );
-    m.conductors.push(conductor(
-        "sphere",
-        Shape::Sphere {
-            center_z: radius + gap,
-            radius,
-        },
-        v,
-    ));
-    m.mesh = MeshSpec {
-        cell: 0.002,
-        max_cell: 0.04,
-        growth: 1.08,
-    };
+    let m = sphere_above_plane(radius, gap, v, 0.002, 0.04);
     let fine = analyze(&m, &params, None).expect("analysis");
     let st = grid_study(&m, &fine, &params, None).expect("study");
     let series = sphere_plane_image_field(radius, gap, v);

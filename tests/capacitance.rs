@@ -1,22 +1,16 @@
 //! Capacitance from Gauss's law on unit-potential solves, against closed forms
 //! (REFERENCES.md §10).
 
+mod common;
+
+use common::conductor;
 use holdoff::capacitance::{capacitance_matrix, electrodes};
 use holdoff::field::EPSILON_0;
 use holdoff::geometry::Shape;
 use holdoff::mesh::Mesh;
-use holdoff::model::{Conductor, MeshSpec, Model, Origin, PotentialSpec, Tank, Wall};
+use holdoff::model::{MeshSpec, Model, Tank, Wall};
 use holdoff::solve::SolverParams;
 use std::f64::consts::PI;
-
-fn conductor(name: &str, shape: Shape, volts: f64) -> Conductor {
-    Conductor {
-        name: name.into(),
-        shape,
-        potential: PotentialSpec::Absolute { volts },
-        origin: Origin::Program,
-    }
-}
 
 /// Concentric spheres: C = 4πε₀ab/(b − a) (check row 24: a = 0.1 m, b = 0.2 m → 22.25 pF),
 /// within 1 %.

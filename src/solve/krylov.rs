@@ -75,6 +75,20 @@ fn residual(op: &Operator, x: &[f64], b: &[f64], r: &mut [f64]) -> f64 {
     norm(r)
 }
 
+/// The result when ‖r‖ = `rn` meets the tolerance.
+fn converged_at(
+    rn: f64,
+    bnorm: f64,
+    iterations: usize,
+    params: &KrylovParams,
+) -> Option<KrylovInfo> {
+    (rn / bnorm <= params.tolerance).then_some(KrylovInfo {
+        iterations,
+        relative_residual: rn / bnorm,
+        converged: true,
+    })
+}
+
 /// Preconditioned conjugate gradients from the initial guess in `x`.
 pub fn pcg(
     op: &Operator,
@@ -87,12 +101,8 @@ pub fn pcg(
     let bnorm = norm(b).max(f64::MIN_POSITIVE);
     let mut r = vec![0.0; n];
     let mut rn = residual(op, x, b, &mut r);
-    if rn / bnorm <= params.tolerance {
-        return KrylovInfo {
-            iterations: 0,
-            relative_residual: rn / bnorm,
-            converged: true,
-        };
+    if let Some(info) = converged_at(rn, bnorm, 0, params) {
+        return info;
     }
     let mut z = vec![0.0; n];
     mg.apply(&r, &mut z);
@@ -153,12 +163,8 @@ pub fn bicgstab(
     let bnorm = norm(b).max(f64::MIN_POSITIVE);
     let mut r = vec![0.0; n];
     let mut rn = residual(op, x, b, &mut r);
-    if rn / bnorm <= params.tolerance {
-        return KrylovInfo {
-            iterations: 0,
-            relative_residual: rn / bnorm,
-            converged: true,
-        };
+    if let Some(info) = converged_at(rn, bnorm, 0, params) {
+        return info;
     }
     let r0 = r.clone();
     let mut p = vec![0.0; n];

@@ -720,51 +720,41 @@ fn remove_singular(
     let rel = 1e-6;
     for _pass in 0..8 {
         let mut bad = Vec::new();
-        // r-lines.
+        // r-lines (nodes k, k + 1, …) and z-lines (k, k + cnr, …).
+        let mut scan = |line: &mut dyn Iterator<Item = usize>, lo: usize, hi: usize| {
+            let mut up = 0.0;
+            let mut prev_live = false;
+            for k in line {
+                if !live[k] {
+                    up = 0.0;
+                    prev_live = false;
+                    continue;
+                }
+                let lower = if prev_live { acc[k][lo] } else { 0.0 };
+                let m = acc[k][C] - lower * up;
+                if m.is_nan() || m <= rel * acc[k][C].abs() {
+                    bad.push(k);
+                    up = 0.0;
+                    prev_live = false;
+                    continue;
+                }
+                up = acc[k][hi] / m;
+                prev_live = true;
+            }
+        };
         for j in 0..cnz {
-            let mut up = 0.0;
-            for i in 0..cnr {
-                let k = j * cnr + i;
-                if !live[k] {
-                    up = 0.0;
-                    continue;
-                }
-                let w = if i > 0 && live[k - 1] {
-                    acc[k][Slot::W as usize]
-                } else {
-                    0.0
-                };
-                let m = acc[k][C] - w * up;
-                if m.is_nan() || m <= rel * acc[k][C].abs() {
-                    bad.push(k);
-                    up = 0.0;
-                    continue;
-                }
-                up = acc[k][Slot::E as usize] / m;
-            }
+            scan(
+                &mut (j * cnr..(j + 1) * cnr),
+                Slot::W as usize,
+                Slot::E as usize,
+            );
         }
-        // z-lines.
         for i in 0..cnr {
-            let mut up = 0.0;
-            for j in 0..cnz {
-                let k = j * cnr + i;
-                if !live[k] {
-                    up = 0.0;
-                    continue;
-                }
-                let sv = if j > 0 && live[k - cnr] {
-                    acc[k][Slot::S as usize]
-                } else {
-                    0.0
-                };
-                let m = acc[k][C] - sv * up;
-                if m.is_nan() || m <= rel * acc[k][C].abs() {
-                    bad.push(k);
-                    up = 0.0;
-                    continue;
-                }
-                up = acc[k][Slot::N as usize] / m;
-            }
+            scan(
+                &mut (i..cnr * cnz).step_by(cnr),
+                Slot::S as usize,
+                Slot::N as usize,
+            );
         }
         if bad.is_empty() {
             return;
