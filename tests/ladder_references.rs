@@ -43,7 +43,7 @@ fn symmetric(n: usize, c: f64, v0: f64, f: f64, i: f64) -> LadderParams {
 #[test]
 fn row_30_closed_forms_ten_stage_example() {
     let p = half_wave(10, 0.06e-6, 141.42e3, 150.0, 1e-3);
-    let cf = closed_form(&p);
+    let cf = closed_form(&p).unwrap();
     let hw = cf.half_wave.as_ref().unwrap();
     assert!(rel(hw.drop_v, 79.44e3) < 1e-4, "ΔV {}", hw.drop_v);
     assert!(rel(hw.ripple_pp_v, 6.111e3) < 1e-4, "δV {}", hw.ripple_pp_v);
@@ -69,7 +69,7 @@ fn row_30_closed_forms_ten_stage_example() {
 #[test]
 fn row_31_closed_forms_twelve_stage_example() {
     let p = half_wave(12, 0.15e-6, 282.84e3, 50.0, 5e-3);
-    let hw = closed_form(&p).half_wave.unwrap();
+    let hw = closed_form(&p).unwrap().half_wave.unwrap();
     assert!(rel(hw.ripple_pp_v, 52.00e3) < 1e-4, "δV {}", hw.ripple_pp_v);
     assert!(rel(hw.drop_v, 814.67e3) < 1e-4, "ΔV {}", hw.drop_v);
     assert_eq!(
@@ -93,7 +93,7 @@ fn doubler() -> LadderParams {
 /// ripple 2.0 kV, mean drop 11.0 kV, mean output 271.84 kV, 1e-4.
 #[test]
 fn row_33_greinacher_doubler_closed_form() {
-    let d = closed_form(&doubler()).doubler.unwrap();
+    let d = closed_form(&doubler()).unwrap().doubler.unwrap();
     assert!(rel(d.ripple_pp_v, 2.0e3) < 1e-4, "ripple {}", d.ripple_pp_v);
     assert!(rel(d.mean_drop_v, 11.0e3) < 1e-4, "drop {}", d.mean_drop_v);
     assert!(
@@ -125,8 +125,8 @@ fn greinacher_doubler_simulated_against_worked_example() {
 #[test]
 fn rows_34_35_stray_efficiency_closed_forms() {
     for (ratio, eta, cont) in [(0.01, 0.8022, 0.8300), (0.04, 0.5248, 0.5760)] {
-        assert!((stray_efficiency_discrete(8, ratio) - eta).abs() < 1e-4);
-        assert!((stray_efficiency_continuum(8, ratio) - cont).abs() < 1e-4);
+        assert!((stray_efficiency_discrete(8, ratio).unwrap() - eta).abs() < 1e-4);
+        assert!((stray_efficiency_continuum(8, ratio).unwrap() - cont).abs() < 1e-4);
     }
 }
 
@@ -153,7 +153,7 @@ fn half_wave_drop_and_ripple_within_3_percent_for_tall_stacks() {
     ];
     for (n, c, v0, f, i) in sets {
         let p = half_wave(n, c, v0, f, i);
-        let hw = closed_form(&p).half_wave.unwrap();
+        let hw = closed_form(&p).unwrap().half_wave.unwrap();
         let r = simulate(&p, &ctl(300)).unwrap();
         println!(
             "n={n}: drop {:.2} V vs {:.2} V ({:+.2} %), ripple {:.2} V vs {:.2} V ({:+.2} %), \
@@ -181,7 +181,7 @@ fn half_wave_closed_form_is_optimistic_for_short_stacks() {
     for (n, table) in [(2, 7.97), (3, 23.41), (4, 51.82)] {
         // V0 = 1 kV, 1 kHz, 1 µF, 1 mA: I/(fC) = 1 V
         let p = half_wave(n, 1e-6, 1e3, 1e3, 1e-3);
-        let hw = closed_form(&p).half_wave.unwrap();
+        let hw = closed_form(&p).unwrap().half_wave.unwrap();
         let r = simulate(&p, &ctl(400)).unwrap();
         let excess = r.output.drop_v / hw.drop_v - 1.0;
         println!(
@@ -206,7 +206,7 @@ fn half_wave_closed_form_is_optimistic_for_short_stacks() {
 #[test]
 fn row_32_four_stage_formula_against_simulation() {
     let p = half_wave(4, 1e-6, 10e3, 50.0, 1e-3);
-    let hw = closed_form(&p).half_wave.unwrap();
+    let hw = closed_form(&p).unwrap().half_wave.unwrap();
     assert!(rel(hw.drop_v, 1000.0) < 1e-9);
     let r = simulate(&p, &ctl(400)).unwrap();
     println!(
@@ -255,6 +255,7 @@ fn optimum_stage_count_matches_simulated_maximum() {
     let (v0, f, c) = (1e3, 1e3, 1e-6);
     let i = v0 * f * c / 64.0;
     let n_opt = closed_form(&half_wave(8, c, v0, f, i))
+        .unwrap()
         .half_wave
         .unwrap()
         .n_opt;
@@ -306,7 +307,7 @@ fn symmetric_drop_against_time_domain_table() {
     for (n, table) in [(3, 7.71), (4, 15.93), (6, 46.81), (8, 103.63)] {
         let p = symmetric(n, 1e-6, 1e3, 1e3, 1e-3);
         let r = simulate(&p, &ctl(300)).unwrap();
-        let sy = closed_form(&p).symmetric.unwrap();
+        let sy = closed_form(&p).unwrap().symmetric.unwrap();
         println!(
             "symmetric n={n}: drop {:.2} V (table {table}); compilation (n³+2n)/6 = {:.2} V \
              (unconfirmed), time-domain fit = {:.2} V",
@@ -357,7 +358,7 @@ fn rows_34_35_strays_lower_the_output_simulated() {
             ..ctl(200)
         };
         let r = simulate(&p, &controls).unwrap();
-        let cf = closed_form(&p).strays.unwrap();
+        let cf = closed_form(&p).unwrap().strays.unwrap();
         println!(
             "C_s/C = {ratio}: simulated η {:.5}, discrete {:.5}, continuum {:.5}; {} cycles",
             r.output.no_load_efficiency,
@@ -382,7 +383,7 @@ fn strays_lower_the_output_of_a_tall_stack() {
     assert!(rel(r0.output.no_load_v, 2.0 * 30.0 * 40e3) < 1e-5);
     let stray = clean.clone().with_uniform_strays(10e-12);
     let r = simulate(&stray, &ctl(100)).unwrap();
-    let cf = closed_form(&stray).strays.unwrap();
+    let cf = closed_form(&stray).unwrap().strays.unwrap();
     println!(
         "30 stages, C_s/C = 0.005: η simulated {:.4}, discrete {:.4}, continuum {:.4}",
         r.output.no_load_efficiency, cf.efficiency_discrete, cf.efficiency_continuum
@@ -777,7 +778,7 @@ fn diode_forward_drop_costs_two_n_vf() {
     let r = simulate(&p, &ctl(400)).unwrap();
     assert!(rel(r.output.no_load_v, 2.0 * 4.0 * (1e3 - 50.0)) < 1e-5);
     assert!(r.max_diode_piv_v() <= 2e3);
-    let cf = closed_form(&p);
+    let cf = closed_form(&p).unwrap();
     assert_eq!(cf.diode_drop_loss_v, 400.0);
 }
 
@@ -793,7 +794,7 @@ fn graded_capacitors_against_impulse_model() {
     p.capacitors.oscillating_f = graded.clone();
     p.capacitors.smoothing_f = graded;
     let r = simulate(&p, &ctl(400)).unwrap();
-    let cf = closed_form(&p);
+    let cf = closed_form(&p).unwrap();
     assert!(cf.half_wave.is_none(), "textbook forms need equal C");
     println!(
         "graded: ripple {:.3} V, impulse model {:.3} V, formula sheet I/(fC) = 1 V; drop {:.2} V, \
@@ -806,4 +807,34 @@ fn graded_capacitors_against_impulse_model() {
     assert!(rel(cf.impulse_model.ripple_pp_v, n as f64) < 1e-12);
     assert!(rel(r.output.ripple_pp_v, cf.impulse_model.ripple_pp_v) < 0.03);
     assert!(rel(r.output.drop_v, cf.impulse_model.mean_drop_v) < 0.03);
+}
+
+/// Hand-built parameters that break the invariants are errors, not panics.
+#[test]
+fn inconsistent_parameters_are_errors_not_panics() {
+    let mut p = symmetric(4, 1e-9, 1e3, 1e3, 1e-3);
+    p.capacitors.oscillating_b_f.clear();
+    assert!(closed_form(&p).is_err());
+    assert!(simulate(&p, &ctl(100)).is_err());
+    let mut p = half_wave(4, 1e-9, 1e3, 1e3, 1e-3);
+    p.strays_f.pop();
+    assert!(closed_form(&p).is_err());
+    p.strays_f.push(-1e-12);
+    let e = simulate(&p, &ctl(100)).unwrap_err();
+    assert!(e.to_string().contains("stray_capacitance[s4]"), "{e}");
+    assert!(stray_efficiency_discrete(0, 0.01).is_err());
+    assert!(stray_efficiency_continuum(8, -0.01).is_err());
+    let mut p = half_wave(4, 1e-9, 1e3, 1e3, 1e-3);
+    p.stages = 401;
+    assert!(closed_form(&p).is_err());
+    assert!(
+        simulate(
+            &p,
+            &SimControls {
+                steps_per_cycle: 102,
+                ..ctl(100)
+            }
+        )
+        .is_err()
+    );
 }

@@ -15,7 +15,10 @@
 //! form that REFERENCES.md §8/§14 fitted to time-domain runs. The textbook half-wave drop
 //! (I/fC)(2n³/3 + n²/2 − n/6) lies between the peak and the mean drop.
 
-use super::params::{Capacitors, Column, LadderParams, Load, Topology, Waveform};
+use super::error::LadderError;
+use super::params::{
+    Capacitors, Column, LadderParams, Load, Topology, Waveform, check_non_negative,
+};
 use serde::Serialize;
 
 /// Half-wave textbook forms (REFERENCES.md §8: Kuffel, Zaengl & Kuffel 2000 Ch. 2; Naidu &
@@ -110,8 +113,13 @@ pub struct ClosedForm {
     pub notes: Vec<String>,
 }
 
-/// Closed forms for `p` (no simulation).
-pub fn closed_form(p: &LadderParams) -> ClosedForm {
+/// Closed forms for `p` (no simulation); the parameters are validated first.
+pub fn closed_form(p: &LadderParams) -> Result<ClosedForm, LadderError> {
+    p.validate()?;
+    Ok(closed_form_unchecked(p))
+}
+
+pub(crate) fn closed_form_unchecked(p: &LadderParams) -> ClosedForm {
     let n = p.stages;
     let nf = n as f64;
     let v0 = p.drive.peak_v;
@@ -221,15 +229,28 @@ pub fn closed_form(p: &LadderParams) -> ClosedForm {
 
 /// Discrete stray-ladder efficiency for n equal stages with C_s/C = `ratio` on each
 /// oscillating node (REFERENCES.md §8 discrete model, rows 34–35).
-pub fn stray_efficiency_discrete(stages: usize, ratio: f64) -> f64 {
+pub fn stray_efficiency_discrete(stages: usize, ratio: f64) -> Result<f64, LadderError> {
+    check_stray_args(stages, ratio)?;
     let u = ac_amplitudes(&vec![1.0; stages], &vec![ratio; stages], 1.0);
-    u.iter().sum::<f64>() / stages as f64
+    Ok(u.iter().sum::<f64>() / stages as f64)
 }
 
 /// Continuum stray efficiency tanh(αn)/(αn), α = √ratio (REFERENCES.md §8, PRACTICE.md §4.4).
-pub fn stray_efficiency_continuum(stages: usize, ratio: f64) -> f64 {
+pub fn stray_efficiency_continuum(stages: usize, ratio: f64) -> Result<f64, LadderError> {
+    check_stray_args(stages, ratio)?;
+    Ok(continuum(stages, ratio))
+}
+
+fn continuum(stages: usize, ratio: f64) -> f64 {
     let x = ratio.sqrt() * stages as f64;
     if x < 1e-8 { 1.0 } else { x.tanh() / x }
+}
+
+fn check_stray_args(stages: usize, ratio: f64) -> Result<(), LadderError> {
+    if stages == 0 {
+        return Err(LadderError::invalid("stages", 0, "at least 1"));
+    }
+    check_non_negative("stray ratio C_s/C", ratio, "")
 }
 
 /// Energy ½CV² of a capacitor (REFERENCES.md §13, row 40).
@@ -257,7 +278,7 @@ fn stray_forms(p: &LadderParams) -> StrayForms {
     let c = all.iter().sum::<f64>() / all.len() as f64;
     StrayForms {
         efficiency_discrete,
-        efficiency_continuum: stray_efficiency_continuum(n, cs / c),
+        efficiency_continuum: continuum(n, cs / c),
         alpha: (cs / c).sqrt(),
     }
 }

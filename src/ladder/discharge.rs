@@ -1,5 +1,7 @@
 //! Discharge of the stack through the divider and an optional dump resistor once the drive is
-//! removed (drive nodes held at 0 V, a low-impedance source switched off).
+//! removed (drive nodes held at 0 V, a low-impedance source switched off) and the load has
+//! stopped with it (beam off): only the resistors discharge the stack, from the loaded state
+//! at the end of a cycle.
 //!
 //! τ = R·C_eff with C_eff the smoothing column in series (PRACTICE.md §4.5, §8.1: the
 //! divider-only discharge is set mainly by the smoothing column). The oscillating columns keep

@@ -12,8 +12,10 @@ use super::error::LadderError;
 use crate::model::Multiplier;
 use serde::Serialize;
 
-/// Largest stage count accepted (a guard against typing errors, far above any built stack).
-pub const MAX_STAGES: usize = 2000;
+/// Largest stage count accepted: far above any built stack (a few MV at 20–100 kV per stage
+/// is 20–150 stages), and where the dense one-cycle sensitivity of the shooting step
+/// (O(nodes²) per time step) still runs in seconds.
+pub const MAX_STAGES: usize = 400;
 
 /// Cascade topology.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]

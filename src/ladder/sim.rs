@@ -21,7 +21,7 @@
 //! the last changes.
 
 use super::circuit::Netlist;
-use super::closed::{closed_form, impulse_state};
+use super::closed::{closed_form_unchecked, impulse_state};
 use super::error::LadderError;
 use super::params::{LadderParams, Load};
 use super::result::RunInfo;
@@ -231,7 +231,7 @@ pub(crate) fn run_periodic(
             let current = if load.current_a == 0.0 && load.conductance_s == 0.0 {
                 0.0
             } else {
-                closed_form(p).load_current_a
+                closed_form_unchecked(p).load_current_a
             };
             let (state, _) = impulse_state(p, current);
             state.into_iter().map(|v| v * (1.0 - undershoot)).collect()

@@ -217,13 +217,13 @@ fn validate(t: &SizeTarget) -> Result<(), LadderError> {
     for (i, &c) in t.capacitor_values_f.iter().enumerate() {
         check_positive(&format!("size.capacitor_values[{}]", i + 1), c, "F")?;
     }
-    for (field, v) in [
-        ("size.gradient_limit", t.gradient_limit_v_per_m),
-        ("size.capacitor_rating", t.capacitor_rating_v),
-        ("size.diode_piv_rating", t.diode_piv_rating_v),
+    for (field, v, unit) in [
+        ("size.gradient_limit", t.gradient_limit_v_per_m, "V/m"),
+        ("size.capacitor_rating", t.capacitor_rating_v, "V"),
+        ("size.diode_piv_rating", t.diode_piv_rating_v, "V"),
     ] {
         if let Some(v) = v {
-            check_positive(field, v, if field.ends_with("limit") { "V/m" } else { "V" })?;
+            check_positive(field, v, unit)?;
         }
     }
     if let Some(d) = t.diode {
