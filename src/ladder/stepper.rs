@@ -196,7 +196,11 @@ impl<'a> Stepper<'a> {
     }
 
     /// One step as `step`, also carrying the sensitivity matrix S = ∂v/∂v(cycle start)
-    /// (column-major, m × m): (C/h + G(v₊))·S₊ = (C/h)·S.
+    /// (column-major, m × m): (C/h + G(v₊))·S₊ = (C/h)·S, i.e. S₊ = S − (C/h + G)⁻¹·G·S.
+    /// While every diode is below its forward drop and the load is a current source, G holds
+    /// only the leakage conductances and the update is of relative size h/(R_off·C) (10⁻¹² and
+    /// below for the near-ideal rectifier); such steps leave S unchanged, which is most of a
+    /// cycle and keeps the cost of the shooting matrix down.
     pub(crate) fn step_sensitivity(
         &mut self,
         t_next: f64,
@@ -204,6 +208,14 @@ impl<'a> Stepper<'a> {
         sens: &mut [f64],
     ) -> Result<(), LadderError> {
         self.step(t_next, vs_next)?;
+        let conducting = self.load.conductance_s > 0.0
+            || self.net.diodes.iter().any(|d| {
+                d.anode.voltage(&self.v, vs_next) - d.cathode.voltage(&self.v, vs_next)
+                    > self.diode.forward_drop_v
+            });
+        if !conducting {
+            return Ok(());
+        }
         let m = self.net.nodes;
         self.assemble(vs_next);
         self.jac.factor()?;
