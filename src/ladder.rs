@@ -1,1 +1,0 @@
-//! Multiplier ladder circuit model.
