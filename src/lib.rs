@@ -53,5 +53,6 @@ pub mod mesh;
 pub mod model;
 pub mod report;
 pub mod solve;
+pub mod stack;
 pub mod study;
 pub mod units;

@@ -1,0 +1,169 @@
+//! The multiplier stack of a design: ladder parameters from `[multiplier]`, node strays (a
+//! given value, or "auto" from the capacitance matrix of the drawn stack), the simulation and
+//! the closed forms beside it.
+//!
+//! Input: a `model::Model`. Output: a `StackAnalysis` whose stage voltages feed `"stage:N"`
+//! potentials and whose summary goes into the `ladder` section of the reports. With
+//! `stray_capacitance = "auto"` the stack must be drawn: conductors with potential
+//! `"stage:N"` for every stage N. Their capacitance matrix comes from unit-potential solves
+//! on the design's own mesh (the one loop the architecture allows, passing plain numbers).
+
+use crate::capacitance::{CapacitanceMatrix, capacitance_matrix};
+use crate::ladder::{
+    ClosedForm, Column, LadderError, LadderParams, LadderResult, SimControls, closed_form, simulate,
+};
+use crate::mesh::{Mesh, MeshError};
+use crate::model::{Model, PotentialSpec};
+use crate::solve::{SolveError, SolverParams};
+use serde::Serialize;
+use thiserror::Error;
+
+#[derive(Debug, Error)]
+pub enum StackError {
+    #[error(transparent)]
+    Ladder(#[from] LadderError),
+    #[error(
+        "[multiplier] stray_capacitance = \"auto\" takes the node strays from the drawn stack, but no conductor has potential \"stage:N\" for stage(s) {missing}; draw a ring per stage with potential = \"stage:N\", or give a value such as stray_capacitance = \"4 pF\""
+    )]
+    StackNotDrawn { missing: String },
+    #[error(transparent)]
+    Mesh(#[from] MeshError),
+    #[error(transparent)]
+    Solve(#[from] SolveError),
+}
+
+/// Where the node strays came from.
+#[derive(Debug, Clone, Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum StraySource {
+    /// One value for every node, from the design file.
+    Given { farads: f64 },
+    /// From the capacitance matrix of the drawn stack: each smoothing node's capacitance to
+    /// everything outside the stack; the oscillating nodes of a stage are given the value of
+    /// their stage's smoothing node (they are not drawn).
+    FieldSolution {
+        per_stage_f: Vec<f64>,
+        unit_solves: usize,
+        reciprocity_error: f64,
+    },
+}
+
+/// The simulated stack with its closed forms.
+#[derive(Debug, Clone, Serialize)]
+pub struct StackAnalysis {
+    pub params: LadderParams,
+    pub strays: StraySource,
+    pub result: LadderResult,
+    pub closed_form: ClosedForm,
+}
+
+impl StackAnalysis {
+    /// Loaded cycle-mean voltage of each stage node, stage 1 first (for "stage:N").
+    pub fn stage_voltages(&self) -> Vec<f64> {
+        self.result.stages.iter().map(|s| s.mean_v).collect()
+    }
+}
+
+/// The conductors drawn for each stage (index 0 = stage 1).
+pub fn stage_conductors(model: &Model, stages: usize) -> Vec<Vec<usize>> {
+    let mut out = vec![Vec::new(); stages];
+    for (k, c) in model.conductors.iter().enumerate() {
+        if let PotentialSpec::Stage { stage } = c.potential
+            && (1..=stages).contains(&stage)
+        {
+            out[stage - 1].push(k);
+        }
+    }
+    out
+}
+
+/// Node strays of the drawn stack from its capacitance matrix.
+fn auto_strays(
+    model: &Model,
+    stages: usize,
+    solver: &SolverParams,
+) -> Result<(Vec<f64>, CapacitanceMatrix), StackError> {
+    let drawn = stage_conductors(model, stages);
+    let missing: Vec<String> = drawn
+        .iter()
+        .enumerate()
+        .filter(|(_, v)| v.is_empty())
+        .map(|(k, _)| (k + 1).to_string())
+        .collect();
+    if !missing.is_empty() {
+        return Err(StackError::StackNotDrawn {
+            missing: missing.join(", "),
+        });
+    }
+    let mesh = Mesh::build(model)?;
+    let cm = capacitance_matrix(model, &mesh, solver)?;
+    // Electrode index of each stage.
+    let stage_electrode: Vec<Option<usize>> = drawn
+        .iter()
+        .map(|conds| {
+            cm.electrodes
+                .iter()
+                .position(|e| e.conductors.iter().any(|c| conds.contains(c)))
+        })
+        .collect();
+    let ladder_set: Vec<usize> = stage_electrode.iter().flatten().copied().collect();
+    let per_stage = stage_electrode
+        .iter()
+        .map(|e| {
+            e.map_or(0.0, |i| {
+                ladder_set.iter().map(|&j| cm.c_f[i][j]).sum::<f64>().max(0.0)
+            })
+        })
+        .collect();
+    Ok((per_stage, cm))
+}
+
+/// Builds, and simulates, the stack of a design; `None` when it has no `[multiplier]`.
+pub fn analyze_stack(
+    model: &Model,
+    solver: &SolverParams,
+    controls: &SimControls,
+) -> Result<Option<StackAnalysis>, StackError> {
+    let Some(m) = &model.multiplier else {
+        return Ok(None);
+    };
+    let (params, strays) = match m.stray_capacitance_f {
+        Some(c) => (
+            LadderParams::from_multiplier(m, None)?,
+            StraySource::Given { farads: c },
+        ),
+        None => {
+            let (per_stage, cm) = auto_strays(model, m.stages, solver)?;
+            let mut drawn = m.clone();
+            drawn.stray_capacitance_f = Some(0.0);
+            let mut p = LadderParams::from_multiplier(&drawn, None)?;
+            let mut strays = vec![0.0; p.node_count()];
+            for (k, &c) in per_stage.iter().enumerate() {
+                let stage = k + 1;
+                for col in [Column::Oscillating, Column::OscillatingB, Column::Smoothing] {
+                    if let Some(i) = p.node_index(col, stage) {
+                        strays[i] = c;
+                    }
+                }
+            }
+            p.strays_f = strays;
+            p.validate()?;
+            (
+                p,
+                StraySource::FieldSolution {
+                    per_stage_f: per_stage,
+                    unit_solves: cm.electrodes.len(),
+                    reciprocity_error: cm.asymmetry,
+                },
+            )
+        }
+    };
+    let result = simulate(&params, controls)?;
+    let closed_form = closed_form(&params)?;
+    Ok(Some(StackAnalysis {
+        params,
+        strays,
+        result,
+        closed_form,
+    }))
+}
