@@ -531,6 +531,7 @@ impl Mesh {
             z,
         };
         mesh.classify(model);
+        mesh.check_every_conductor_has_nodes(model)?;
         mesh.find_cuts(model)?;
         mesh.link_permittivities(model);
         Ok(mesh)
@@ -585,6 +586,28 @@ impl Mesh {
                 }
             }
         }
+    }
+
+    /// A conductor that holds no grid node has no cut links either, so the solve would not
+    /// see it at all: refuse it, with a cell small enough to put nodes inside it.
+    fn check_every_conductor_has_nodes(&self, model: &Model) -> Result<(), MeshError> {
+        let mut held = vec![false; model.conductors.len()];
+        for &f in &self.fixed {
+            if let Some(h) = held.get_mut(f as usize) {
+                *h = true;
+            }
+        }
+        let Some(c) = held.iter().position(|h| !h) else {
+            return Ok(());
+        };
+        let cond = &model.conductors[c];
+        let (at, depth) = deepest_point(&cond.shape, self.cell);
+        Err(MeshError::TooThin {
+            name: cond.name.clone(),
+            r_mm: at.r * 1e3,
+            z_mm: at.z * 1e3,
+            hint_mm: depth.min(0.5 * self.cell) * 1e3,
+        })
     }
 
     fn neighbour(&self, k: usize, d: Dir) -> Option<usize> {
@@ -672,7 +695,12 @@ impl Mesh {
                                 name: cond.name.clone(),
                                 r_mm: mid.r * 1e3,
                                 z_mm: mid.z * 1e3,
-                                hint_mm: 0.5 * thickness_hint(&cond.shape) * 1e3,
+                                // Half the thickness: the smaller of the bounding box's and
+                                // the sampled depth (a slanted part is thin across, not along
+                                // the axes).
+                                hint_mm: (0.5 * thickness_hint(&cond.shape))
+                                    .min(deepest_point(&cond.shape, self.cell).1)
+                                    * 1e3,
                             });
                         }
                     }
@@ -812,6 +840,30 @@ fn series_eps(model: &Model, a: Point, b: Point) -> f64 {
     };
     let t = t.clamp(0.0, 1.0);
     1.0 / (t / ea + (1.0 - t) / eb)
+}
+
+/// The sampled point deepest inside a shape and its depth (about half the local thickness),
+/// on a grid over the bounding box at a quarter of `cell`, at most 256 samples a side. When
+/// no sample falls inside, the box centre and the sample spacing.
+fn deepest_point(shape: &Shape, cell: f64) -> (Point, f64) {
+    let b = shape.bbox();
+    let (w, h) = (b.r_max - b.r_min, b.z_max - b.z_min);
+    let step = (0.25 * cell).max(w / 256.0).max(h / 256.0);
+    let (nr, nz) = ((w / step).ceil() as usize, (h / step).ceil() as usize);
+    let mut best = (
+        Point::new(0.5 * (b.r_min + b.r_max), 0.5 * (b.z_min + b.z_max)),
+        0.0,
+    );
+    for j in 0..=nz.min(256) {
+        for i in 0..=nr.min(256) {
+            let p = Point::new(b.r_min + i as f64 * step, b.z_min + j as f64 * step);
+            let depth = -shape.sdf(p);
+            if depth > best.1 {
+                best = (p, depth);
+            }
+        }
+    }
+    if best.1 > 0.0 { best } else { (best.0, step) }
 }
 
 fn thickness_hint(shape: &Shape) -> f64 {
