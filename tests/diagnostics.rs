@@ -183,3 +183,33 @@ fn the_binary_reports_a_too_thin_conductor_with_exit_code_2() {
     );
     assert!(out.stdout.is_empty(), "no table for a refused mesh");
 }
+
+#[test]
+fn a_solve_that_does_not_converge_is_an_error_with_the_residual_and_what_to_try() {
+    use holdoff::analysis::{AnalysisError, analyze};
+    use holdoff::solve::{SolveError, SolverParams};
+    let text = std::fs::read_to_string("examples/concentric_spheres.toml").unwrap_or_default();
+    let mut model = design::from_str(&text, "spheres").unwrap_or_else(|e| panic!("{e}"));
+    // A coarse grid keeps this fast; one Krylov iteration cannot reach 1e-10.
+    model.mesh.cell = 4e-3;
+    let mut params = SolverParams::default();
+    params.krylov.max_iterations = 1;
+    let err = match analyze(&model, &params, None) {
+        Ok(_) => panic!("converged in one iteration"),
+        Err(e) => e,
+    };
+    let AnalysisError::Solve(SolveError::NoConvergence {
+        iterations,
+        relative_residual,
+        tolerance,
+    }) = &err
+    else {
+        panic!("{err}");
+    };
+    assert_eq!(*iterations, 1);
+    assert!(relative_residual.is_finite() && *relative_residual > *tolerance);
+    let msg = err.to_string();
+    assert!(msg.contains("did not converge"), "{msg}");
+    assert!(msg.contains("relative residual"), "{msg}");
+    assert!(msg.contains("refine [mesh] cell"), "{msg}");
+}
