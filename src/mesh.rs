@@ -22,8 +22,26 @@ pub const TANK: FixedId = u32::MAX;
 /// A free node.
 pub const FREE: FixedId = u32::MAX - 1;
 
-/// Largest number of grid nodes a mesh may have before it is refused.
+/// Largest number of grid nodes a mesh may have where the machine's available memory cannot be
+/// read (no `/proc/meminfo`).
 pub const MAX_NODES: usize = 40_000_000;
+
+/// Bytes the field solve holds per grid node: operator, multigrid hierarchy and Krylov vectors
+/// (measured on the benchmark problems, `SolveInfo::memory_bytes` / nodes).
+pub const SOLVER_BYTES_PER_NODE: usize = 230;
+
+/// Bytes the mesh itself holds per grid node (node class, four cuts, three permittivities).
+pub const MESH_BYTES_PER_NODE: usize = std::mem::size_of::<FixedId>()
+    + std::mem::size_of::<[Option<Cut>; 4]>()
+    + 3 * std::mem::size_of::<f64>();
+
+/// The grid study's two coarser meshes (spacing ratio sqrt 2, so about 1/2 and 1/4 of the
+/// nodes) need together about this fraction of the fine mesh and its solve.
+pub const GRID_STUDY_SHARE: f64 = 0.75;
+
+/// Fraction of the machine's available memory that a run plans to use; the rest is left for
+/// the surface samples, the report and the other processes.
+pub const MEMORY_HEADROOM: f64 = 0.8;
 
 #[derive(Debug, Error, Clone, PartialEq)]
 pub enum MeshError {
@@ -37,18 +55,330 @@ pub enum MeshError {
         hint_mm: f64,
     },
     #[error(
-        "the mesh would have {nodes} nodes ({nr} x {nz}), above the limit of {limit} (about {gib:.1} GiB); coarsen [mesh] cell (now {cell_mm} mm) or raise max_cell"
+        "the mesh would have {}{nodes} nodes ({nr} x {nz}) and need about {need_gib:.2} GiB ({solve_gib:.2} GiB for the mesh and the solve, {study_gib:.2} GiB more for the grid study), more than {budget}; set [mesh] cell to at least {suggest_cell_mm:.3} mm (now {cell_mm:.3} mm) or raise max_cell",
+        if *exact { "" } else { "at least " }
     )]
     TooLarge {
         nodes: usize,
         nr: usize,
         nz: usize,
-        limit: usize,
-        gib: f64,
+        /// False when `nodes` is a lower bound (the count itself was too large to work out).
+        exact: bool,
+        need_gib: f64,
+        solve_gib: f64,
+        study_gib: f64,
+        /// What the mesh was compared with, in words.
+        budget: String,
         cell_mm: f64,
+        /// A cell at which the mesh fits.
+        suggest_cell_mm: f64,
     },
     #[error("invalid mesh controls: {0}")]
     Controls(String),
+}
+
+impl MeshError {
+    /// A stable code for the error class.
+    pub fn code(&self) -> &'static str {
+        match self {
+            MeshError::TooThin { .. } => "too-thin",
+            MeshError::TooLarge { .. } => "mesh-too-large",
+            MeshError::Controls(_) => "mesh-controls",
+        }
+    }
+}
+
+/// What a mesh and its solve may use.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Budget {
+    /// Bytes of memory available to the run.
+    Memory { available_bytes: u64 },
+    /// A fixed node count, where the available memory is not known.
+    Nodes { limit: usize },
+}
+
+impl Budget {
+    /// The budget of this machine: `MemAvailable` from `/proc/meminfo` where it can be read,
+    /// otherwise [`MAX_NODES`].
+    pub fn of_machine() -> Budget {
+        std::fs::read_to_string("/proc/meminfo")
+            .ok()
+            .and_then(|t| mem_available(&t))
+            .map_or(Budget::Nodes { limit: MAX_NODES }, |available_bytes| {
+                Budget::Memory { available_bytes }
+            })
+    }
+
+    /// Largest bytes a run may plan for (fine mesh, solve and grid study).
+    fn bytes(&self) -> f64 {
+        match *self {
+            Budget::Memory { available_bytes } => available_bytes as f64 * MEMORY_HEADROOM,
+            Budget::Nodes { limit } => limit as f64 * run_bytes_per_node(),
+        }
+    }
+
+    fn describe(&self) -> String {
+        match *self {
+            Budget::Memory { available_bytes } => format!(
+                "{:.0}% of the {:.2} GiB of memory available",
+                MEMORY_HEADROOM * 100.0,
+                available_bytes as f64 / GIB
+            ),
+            Budget::Nodes { limit } => {
+                format!("the limit of {limit} nodes (the available memory could not be read)")
+            }
+        }
+    }
+}
+
+/// `MemAvailable` of a `/proc/meminfo` text, in bytes.
+pub fn mem_available(meminfo: &str) -> Option<u64> {
+    meminfo.lines().find_map(|l| {
+        let rest = l.strip_prefix("MemAvailable:")?;
+        let mut words = rest.split_whitespace();
+        let n: u64 = words.next()?.parse().ok()?;
+        match words.next() {
+            Some("kB") | None => n.checked_mul(1024),
+            _ => None,
+        }
+    })
+}
+
+const GIB: f64 = (1u64 << 30) as f64;
+
+/// Bytes per fine-mesh node of a whole run: the mesh, its solve, and the grid study.
+fn run_bytes_per_node() -> f64 {
+    (MESH_BYTES_PER_NODE + SOLVER_BYTES_PER_NODE) as f64 * (1.0 + GRID_STUDY_SHARE)
+}
+
+/// The size of a mesh, worked out before any of it is allocated.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct MeshEstimate {
+    pub nr: usize,
+    pub nz: usize,
+    pub nodes: usize,
+    /// False when the counts are lower bounds (the grid would be too large to grade).
+    pub exact: bool,
+    /// Bytes of the mesh and its solve.
+    pub mesh_and_solve_bytes: f64,
+    /// Bytes the grid study adds.
+    pub grid_study_bytes: f64,
+}
+
+impl MeshEstimate {
+    fn of(nr: usize, nz: usize, exact: bool) -> MeshEstimate {
+        let nodes = nr.saturating_mul(nz);
+        let solve = nodes as f64 * (MESH_BYTES_PER_NODE + SOLVER_BYTES_PER_NODE) as f64;
+        MeshEstimate {
+            nr,
+            nz,
+            nodes,
+            exact,
+            mesh_and_solve_bytes: solve,
+            grid_study_bytes: solve * GRID_STUDY_SHARE,
+        }
+    }
+
+    pub fn total_bytes(&self) -> f64 {
+        self.mesh_and_solve_bytes + self.grid_study_bytes
+    }
+}
+
+/// Estimates the mesh of a model (node counts and bytes) without building it. The counts are
+/// exact unless a lower bound already exceeds `budget` (then `exact` is false).
+pub fn estimate(model: &Model, budget: Budget) -> Result<MeshEstimate, MeshError> {
+    check_controls(&model.mesh)?;
+    let f = Features::of(model, true);
+    Ok(f.estimate(&model.mesh, budget.bytes()))
+}
+
+/// Refuses a mesh whose run would not fit `budget`, with a cell at which it would.
+fn check_budget(
+    est: &MeshEstimate,
+    f: &Features,
+    spec: &crate::model::MeshSpec,
+    budget: Budget,
+) -> Result<(), MeshError> {
+    let limit = budget.bytes();
+    if est.total_bytes() <= limit {
+        return Ok(());
+    }
+    // Nodes go about as 1/cell^2 near the features; step the cell up until the estimate fits.
+    let mut cell = spec.cell;
+    let mut need = est.total_bytes();
+    for _ in 0..60 {
+        cell *= ((need / limit).sqrt() * 1.05).max(1.05);
+        let trial = crate::model::MeshSpec {
+            cell,
+            max_cell: spec.max_cell.max(cell),
+            growth: spec.growth,
+        };
+        need = f.estimate(&trial, limit).total_bytes();
+        if need <= limit {
+            break;
+        }
+    }
+    Err(MeshError::TooLarge {
+        nodes: est.nodes,
+        nr: est.nr,
+        nz: est.nz,
+        exact: est.exact,
+        need_gib: est.total_bytes() / GIB,
+        solve_gib: est.mesh_and_solve_bytes / GIB,
+        study_gib: est.grid_study_bytes / GIB,
+        budget: budget.describe(),
+        cell_mm: spec.cell * 1e3,
+        suggest_cell_mm: cell * 1e3,
+    })
+}
+
+fn check_controls(spec: &crate::model::MeshSpec) -> Result<(), MeshError> {
+    if !(spec.cell > 0.0 && spec.cell.is_finite()) {
+        return Err(MeshError::Controls(format!(
+            "cell must be positive, got {} m",
+            spec.cell
+        )));
+    }
+    if !(spec.growth >= 1.0 && spec.growth.is_finite()) {
+        return Err(MeshError::Controls(format!(
+            "growth must be at least 1, got {}",
+            spec.growth
+        )));
+    }
+    if spec.max_cell.is_nan() {
+        return Err(MeshError::Controls("max_cell is not a number".into()));
+    }
+    Ok(())
+}
+
+/// Extents of the features (fine spacing) and the fixed grid lines of a model.
+struct Features {
+    dom: crate::geometry::BBox,
+    r_feat: Vec<(f64, f64)>,
+    z_feat: Vec<(f64, f64)>,
+    r_fix: Vec<f64>,
+    z_fix: Vec<f64>,
+}
+
+impl Features {
+    fn of(model: &Model, snap: bool) -> Features {
+        let dom = model.tank.bbox();
+        let mut r_feat = Vec::new();
+        let mut z_feat = Vec::new();
+        let mut r_fix = vec![dom.r_min, dom.r_max];
+        let mut z_fix = vec![dom.z_min, dom.z_max];
+        let shapes = model
+            .conductors
+            .iter()
+            .map(|c| &c.shape)
+            .chain(model.dielectrics.iter().map(|d| &d.shape))
+            .chain(model.vacuum.iter().map(|v| &v.shape));
+        for s in shapes {
+            let b = s.bbox();
+            r_feat.push((b.r_min, b.r_max));
+            z_feat.push((b.z_min, b.z_max));
+            if snap {
+                let (hr, hz) = s.grid_hints();
+                r_fix.extend(hr);
+                z_fix.extend(hz);
+            }
+        }
+        if let Tank::Sphere { inner_radius } = model.tank {
+            // The whole sphere wall is a surface: fine everywhere near it is not affordable in
+            // a tensor grid, so the wall gets the spacing of its extent.
+            r_feat.push((0.0, inner_radius));
+            z_feat.push((0.0, 2.0 * inner_radius));
+            z_fix.push(inner_radius);
+        }
+        Features {
+            dom,
+            r_feat,
+            z_feat,
+            r_fix,
+            z_fix,
+        }
+    }
+
+    /// Node counts of the grid `spec` would give: exact (the axes are graded, which allocates
+    /// only the two node lines) unless a lower bound already exceeds `limit_bytes`.
+    fn estimate(&self, spec: &crate::model::MeshSpec, limit_bytes: f64) -> MeshEstimate {
+        self.estimate_and_axes(spec, limit_bytes).0
+    }
+
+    /// As `estimate`, also returning the graded axes when they were made.
+    fn estimate_and_axes(
+        &self,
+        spec: &crate::model::MeshSpec,
+        limit_bytes: f64,
+    ) -> (MeshEstimate, Option<(Axis, Axis)>) {
+        let max_cell = spec.max_cell.max(spec.cell);
+        let lr = axis_lower_bound(
+            self.dom.r_min,
+            self.dom.r_max,
+            &self.r_feat,
+            spec.cell,
+            max_cell,
+        );
+        let lz = axis_lower_bound(
+            self.dom.z_min,
+            self.dom.z_max,
+            &self.z_feat,
+            spec.cell,
+            max_cell,
+        );
+        let n = |x: f64| x.min(1e15) as usize;
+        let lower = MeshEstimate::of(n(lr), n(lz), false);
+        if lower.total_bytes() > limit_bytes {
+            return (lower, None);
+        }
+        let (r, z) = self.axes(spec);
+        (MeshEstimate::of(r.len(), z.len(), true), Some((r, z)))
+    }
+
+    fn axes(&self, spec: &crate::model::MeshSpec) -> (Axis, Axis) {
+        let max_cell = spec.max_cell.max(spec.cell);
+        let r = grade_axis(
+            self.dom.r_min,
+            self.dom.r_max,
+            &self.r_feat,
+            &self.r_fix,
+            spec.cell,
+            max_cell,
+            spec.growth,
+        );
+        let z = grade_axis(
+            self.dom.z_min,
+            self.dom.z_max,
+            &self.z_feat,
+            &self.z_fix,
+            spec.cell,
+            max_cell,
+            spec.growth,
+        );
+        (r, z)
+    }
+}
+
+/// A lower bound on the nodes of a graded axis on [a, b]: the union of the feature extents
+/// at spacing `cell`, the rest at `max_cell`, plus the end node.
+fn axis_lower_bound(a: f64, b: f64, feats: &[(f64, f64)], cell: f64, max_cell: f64) -> f64 {
+    let mut iv: Vec<(f64, f64)> = feats
+        .iter()
+        .map(|&(lo, hi)| (lo.max(a), hi.min(b)))
+        .filter(|(lo, hi)| lo < hi)
+        .collect();
+    iv.sort_by(|x, y| x.0.total_cmp(&y.0));
+    let mut covered = 0.0;
+    let mut end = f64::NEG_INFINITY;
+    for (lo, hi) in iv {
+        let lo = lo.max(end);
+        if hi > lo {
+            covered += hi - lo;
+            end = hi;
+        }
+    }
+    let rest = ((b - a) - covered).max(0.0);
+    covered / cell.min(max_cell) + rest / max_cell + 1.0
 }
 
 /// One direction of the grid: node coordinates, increasing.
@@ -169,77 +499,26 @@ impl Mesh {
     /// Builds the mesh, optionally without grid lines on flat faces (`snap = false`), which
     /// analytic checks use to put every surface between nodes.
     pub fn build_with(model: &Model, snap: bool) -> Result<Mesh, MeshError> {
+        Self::build_within(model, snap, Budget::of_machine())
+    }
+
+    /// As [`Mesh::build_with`], refusing the mesh when the run (mesh, solve and grid study)
+    /// is estimated to need more than `budget`; the estimate is made before anything the size
+    /// of the mesh is allocated.
+    pub fn build_within(model: &Model, snap: bool, budget: Budget) -> Result<Mesh, MeshError> {
         let spec = model.mesh;
-        if !(spec.cell > 0.0 && spec.cell.is_finite()) {
-            return Err(MeshError::Controls(format!(
-                "cell must be positive, got {} m",
-                spec.cell
-            )));
-        }
-        if !(spec.growth >= 1.0 && spec.growth.is_finite()) {
-            return Err(MeshError::Controls(format!(
-                "growth must be at least 1, got {}",
-                spec.growth
-            )));
-        }
-        let dom = model.tank.bbox();
-        let mut r_feat = Vec::new();
-        let mut z_feat = Vec::new();
-        let mut r_fix = vec![dom.r_min, dom.r_max];
-        let mut z_fix = vec![dom.z_min, dom.z_max];
-        let shapes = model
-            .conductors
-            .iter()
-            .map(|c| &c.shape)
-            .chain(model.dielectrics.iter().map(|d| &d.shape))
-            .chain(model.vacuum.iter().map(|v| &v.shape));
-        for s in shapes {
-            let b = s.bbox();
-            r_feat.push((b.r_min, b.r_max));
-            z_feat.push((b.z_min, b.z_max));
-            if snap {
-                let (hr, hz) = s.grid_hints();
-                r_fix.extend(hr);
-                z_fix.extend(hz);
-            }
-        }
-        if let Tank::Sphere { inner_radius } = model.tank {
-            // The whole sphere wall is a surface: fine everywhere near it is not affordable in
-            // a tensor grid, so the wall gets the spacing of its extent.
-            r_feat.push((0.0, inner_radius));
-            z_feat.push((0.0, 2.0 * inner_radius));
-            z_fix.push(inner_radius);
-        }
-        let max_cell = spec.max_cell.max(spec.cell);
-        let r = grade_axis(
-            dom.r_min,
-            dom.r_max,
-            &r_feat,
-            &r_fix,
-            spec.cell,
-            max_cell,
-            spec.growth,
-        );
-        let z = grade_axis(
-            dom.z_min,
-            dom.z_max,
-            &z_feat,
-            &z_fix,
-            spec.cell,
-            max_cell,
-            spec.growth,
-        );
+        check_controls(&spec)?;
+        let features = Features::of(model, snap);
+        let (est, axes) = features.estimate_and_axes(&spec, budget.bytes());
+        check_budget(&est, &features, &spec, budget)?;
+        let Some((r, z)) = axes else {
+            // Grading is skipped only when the lower bound is already over the budget, which
+            // `check_budget` has refused.
+            return Err(MeshError::Controls(
+                "the mesh is too large to grade".to_string(),
+            ));
+        };
         let nodes = r.len() * z.len();
-        if nodes > MAX_NODES {
-            return Err(MeshError::TooLarge {
-                nodes,
-                nr: r.len(),
-                nz: z.len(),
-                limit: MAX_NODES,
-                gib: nodes as f64 * 200.0 / (1u64 << 30) as f64,
-                cell_mm: spec.cell * 1e3,
-            });
-        }
         let mut mesh = Mesh {
             fixed: vec![FREE; nodes],
             cuts: vec![[None; 4]; nodes],
@@ -252,6 +531,7 @@ impl Mesh {
             z,
         };
         mesh.classify(model);
+        mesh.check_every_conductor_has_nodes(model)?;
         mesh.find_cuts(model)?;
         mesh.link_permittivities(model);
         Ok(mesh)
@@ -306,6 +586,28 @@ impl Mesh {
                 }
             }
         }
+    }
+
+    /// A conductor that holds no grid node has no cut links either, so the solve would not
+    /// see it at all: refuse it, with a cell small enough to put nodes inside it.
+    fn check_every_conductor_has_nodes(&self, model: &Model) -> Result<(), MeshError> {
+        let mut held = vec![false; model.conductors.len()];
+        for &f in &self.fixed {
+            if let Some(h) = held.get_mut(f as usize) {
+                *h = true;
+            }
+        }
+        let Some(c) = held.iter().position(|h| !h) else {
+            return Ok(());
+        };
+        let cond = &model.conductors[c];
+        let (at, depth) = deepest_point(&cond.shape, self.cell);
+        Err(MeshError::TooThin {
+            name: cond.name.clone(),
+            r_mm: at.r * 1e3,
+            z_mm: at.z * 1e3,
+            hint_mm: depth.min(0.5 * self.cell) * 1e3,
+        })
     }
 
     fn neighbour(&self, k: usize, d: Dir) -> Option<usize> {
@@ -393,7 +695,12 @@ impl Mesh {
                                 name: cond.name.clone(),
                                 r_mm: mid.r * 1e3,
                                 z_mm: mid.z * 1e3,
-                                hint_mm: 0.5 * thickness_hint(&cond.shape) * 1e3,
+                                // Half the thickness: the smaller of the bounding box's and
+                                // the sampled depth (a slanted part is thin across, not along
+                                // the axes).
+                                hint_mm: (0.5 * thickness_hint(&cond.shape))
+                                    .min(deepest_point(&cond.shape, self.cell).1)
+                                    * 1e3,
                             });
                         }
                     }
@@ -533,6 +840,30 @@ fn series_eps(model: &Model, a: Point, b: Point) -> f64 {
     };
     let t = t.clamp(0.0, 1.0);
     1.0 / (t / ea + (1.0 - t) / eb)
+}
+
+/// The sampled point deepest inside a shape and its depth (about half the local thickness),
+/// on a grid over the bounding box at a quarter of `cell`, at most 256 samples a side. When
+/// no sample falls inside, the box centre and the sample spacing.
+fn deepest_point(shape: &Shape, cell: f64) -> (Point, f64) {
+    let b = shape.bbox();
+    let (w, h) = (b.r_max - b.r_min, b.z_max - b.z_min);
+    let step = (0.25 * cell).max(w / 256.0).max(h / 256.0);
+    let (nr, nz) = ((w / step).ceil() as usize, (h / step).ceil() as usize);
+    let mut best = (
+        Point::new(0.5 * (b.r_min + b.r_max), 0.5 * (b.z_min + b.z_max)),
+        0.0,
+    );
+    for j in 0..=nz.min(256) {
+        for i in 0..=nr.min(256) {
+            let p = Point::new(b.r_min + i as f64 * step, b.z_min + j as f64 * step);
+            let depth = -shape.sdf(p);
+            if depth > best.1 {
+                best = (p, depth);
+            }
+        }
+    }
+    if best.1 > 0.0 { best } else { (best.0, step) }
 }
 
 fn thickness_hint(shape: &Shape) -> f64 {

@@ -111,7 +111,11 @@ fn auto_strays(
         .iter()
         .map(|e| {
             e.map_or(0.0, |i| {
-                ladder_set.iter().map(|&j| cm.c_f[i][j]).sum::<f64>().max(0.0)
+                ladder_set
+                    .iter()
+                    .map(|&j| cm.c_f[i][j])
+                    .sum::<f64>()
+                    .max(0.0)
             })
         })
         .collect();

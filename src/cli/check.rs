@@ -53,7 +53,10 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
     let model = match holdoff::design::from_str(text, file) {
         Ok(m) => m,
         Err(e) => {
-            eprintln!("{e}");
+            eprint!(
+                "{}",
+                holdoff::design::diagnostic::render_for_stderr(&e, text)
+            );
             return Ok(ExitCode::from(2));
         }
     };
@@ -75,6 +78,7 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
         Some(grid_study(&model, &fine, &params, None)?)
     };
     let report = Report::new(&model, file, text, &fine, study);
+    holdoff::report::finite::ensure_finite(&report)?;
     if let Some(target) = &out.json {
         let json = report.to_json();
         if target == "-" {

@@ -13,6 +13,7 @@
 //! [`expansion_listing`] shows what was modelled, one row per primitive.
 
 mod checks;
+pub mod diagnostic;
 mod generators;
 mod listing;
 pub mod materials;

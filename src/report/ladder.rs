@@ -52,9 +52,21 @@ impl LadderSection {
                 mean_v: st.mean_v,
                 ripple_pp_v: st.ripple_pp_v,
                 capacitor_max_v: st.capacitors.iter().map(|c| c.max_v).fold(0.0, f64::max),
-                diode_piv_v: st.diodes.iter().map(|d| d.peak_inverse_v).fold(0.0, f64::max),
-                diode_peak_current_a: st.diodes.iter().map(|d| d.peak_current_a).fold(0.0, f64::max),
-                diode_mean_current_a: st.diodes.iter().map(|d| d.mean_current_a).fold(0.0, f64::max),
+                diode_piv_v: st
+                    .diodes
+                    .iter()
+                    .map(|d| d.peak_inverse_v)
+                    .fold(0.0, f64::max),
+                diode_peak_current_a: st
+                    .diodes
+                    .iter()
+                    .map(|d| d.peak_current_a)
+                    .fold(0.0, f64::max),
+                diode_mean_current_a: st
+                    .diodes
+                    .iter()
+                    .map(|d| d.mean_current_a)
+                    .fold(0.0, f64::max),
                 stored_energy_j: st.stored_energy_j,
             })
             .collect();
@@ -121,10 +133,17 @@ pub fn render(l: &LadderSection) -> String {
     );
     match &l.strays {
         StraySource::Given { farads } => {
-            let _ = writeln!(out, "node strays: {:.2} pF on every node (design file)", farads * 1e12);
+            let _ = writeln!(
+                out,
+                "node strays: {:.2} pF on every node (design file)",
+                farads * 1e12
+            );
         }
         StraySource::FieldSolution { per_stage_f, .. } => {
-            let list: Vec<String> = per_stage_f.iter().map(|c| format!("{:.2}", c * 1e12)).collect();
+            let list: Vec<String> = per_stage_f
+                .iter()
+                .map(|c| format!("{:.2}", c * 1e12))
+                .collect();
             let _ = writeln!(
                 out,
                 "node strays from the field solution, pF per stage: {} (oscillating nodes taken equal to their stage's smoothing node)",
@@ -133,7 +152,11 @@ pub fn render(l: &LadderSection) -> String {
         }
     }
     let cf = &l.closed_form;
-    let _ = writeln!(out, "closed forms (small ripple, no strays, ideal diodes): no-load 2nV0 = {:.2} kV", cf.ideal_no_load_v / 1e3);
+    let _ = writeln!(
+        out,
+        "closed forms (small ripple, no strays, ideal diodes): no-load 2nV0 = {:.2} kV",
+        cf.ideal_no_load_v / 1e3
+    );
     if let Some(h) = &cf.half_wave {
         let _ = writeln!(
             out,
