@@ -142,7 +142,7 @@ fn demo_a_expands_its_column_with_tube_electrodes() {
     assert!(close(mult.drive_frequency_hz, 50e3));
     assert!(close(mult.drive_peak_v, 50e3));
     assert!(close(mult.load_current_a, 10.3e-3));
-    assert_eq!(mult.stray_capacitance_f, None);
+    assert_eq!(mult.stray_capacitance_f, Some(4e-12));
 
     assert_eq!(m.checks.design_factor, 1.5);
     assert!(m.checks.overrides.is_empty());

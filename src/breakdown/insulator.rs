@@ -156,14 +156,14 @@ pub fn classify_triple_junction(
     cathodic: bool,
 ) -> Result<JunctionFlag, BreakdownError> {
     positive("surface limit at the junction (V/m)", limit_v_per_m)?;
-    if let Some(e) = relative_error {
-        if e.is_nan() || e < 0.0 {
-            return Err(BreakdownError::InvalidInput {
-                name: "relative numerical error",
-                value: e,
-                accepted: "a non-negative fraction",
-            });
-        }
+    if let Some(e) = relative_error
+        && (e.is_nan() || e < 0.0)
+    {
+        return Err(BreakdownError::InvalidInput {
+            name: "relative numerical error",
+            value: e,
+            accepted: "a non-negative fraction",
+        });
     }
     if field_v_per_m.is_finite() && field_v_per_m < 0.0 {
         return Err(BreakdownError::InvalidInput {

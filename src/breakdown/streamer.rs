@@ -186,10 +186,10 @@ fn integrate(
         }
     }
     let mut reasons = Vec::new();
-    if let Some((s, e)) = above_window {
-        if let Some(r) = model.window_reason(e, p) {
-            reasons.push(format!("at s = {s:.4e} m: {r} (fit extrapolated)"));
-        }
+    if let Some((s, e)) = above_window
+        && let Some(r) = model.window_reason(e, p)
+    {
+        reasons.push(format!("at s = {s:.4e} m: {r} (fit extrapolated)"));
     }
     if stop == StopReason::ValidityLimit && critical.is_none_or(|c| c >= end * (1.0 - 1e-12)) {
         reasons.push(format!(

@@ -71,13 +71,16 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
         write!(target, "{}", table::render_listing(&listing))?;
     }
     let params = SolverParams::default();
-    let fine = analyze(&model, &params, None)?;
+    // The stack first: "stage:N" potentials take its loaded stage voltages.
+    let stack = holdoff::stack::analyze_stack(&model, &params, &Default::default())?;
+    let stage_v = stack.as_ref().map(|s| s.stage_voltages());
+    let fine = analyze(&model, &params, stage_v.as_deref())?;
     let study = if out.no_grid_study {
         None
     } else {
-        Some(grid_study(&model, &fine, &params, None)?)
+        Some(grid_study(&model, &fine, &params, stage_v.as_deref())?)
     };
-    let report = Report::new(&model, file, text, &fine, study);
+    let report = Report::new(&model, file, text, &fine, study).with_ladder(stack.as_ref());
     holdoff::report::finite::ensure_finite(&report)?;
     if let Some(target) = &out.json {
         let json = report.to_json();

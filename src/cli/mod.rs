@@ -2,6 +2,8 @@
 
 mod bench;
 mod check;
+mod ladder;
+mod size;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -20,6 +22,10 @@ pub enum Command {
     Check(check::CheckArgs),
     /// Run `check` on the built-in demo design (an invented 750 kV SF6 column).
     Demo(check::DemoArgs),
+    /// Simulate the multiplier stack of a design file beside its closed forms.
+    Ladder(ladder::LadderArgs),
+    /// Search stage count and capacitance for a terminal voltage, load and ripple.
+    Size(Box<size::SizeArgs>),
     /// Time the field solver on a standard problem at several sizes.
     Bench(bench::BenchArgs),
 }
@@ -29,6 +35,8 @@ pub fn run() -> anyhow::Result<ExitCode> {
     match cli.command {
         Command::Check(a) => check::run_check(&a),
         Command::Demo(a) => check::run_demo(&a),
+        Command::Ladder(a) => ladder::run(&a),
+        Command::Size(a) => size::run(&a),
         Command::Bench(a) => bench::run(&a),
     }
 }

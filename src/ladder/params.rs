@@ -354,14 +354,14 @@ impl LadderParams {
         check_count("multiplier.stages", n)?;
         check_positive("multiplier.drive_peak", self.drive.peak_v, "V")?;
         check_positive("multiplier.drive_frequency", self.drive.frequency_hz, "Hz")?;
-        if let Waveform::Square { rise_fraction } = self.drive.waveform {
-            if !(rise_fraction > 0.0 && rise_fraction <= 0.5) {
-                return Err(LadderError::invalid(
-                    "drive.rise_fraction",
-                    rise_fraction,
-                    "a fraction of the period in (0, 0.5]",
-                ));
-            }
+        if let Waveform::Square { rise_fraction } = self.drive.waveform
+            && !(rise_fraction > 0.0 && rise_fraction <= 0.5)
+        {
+            return Err(LadderError::invalid(
+                "drive.rise_fraction",
+                rise_fraction,
+                "a fraction of the period in (0, 0.5]",
+            ));
         }
         let caps = &self.capacitors;
         check_list("capacitors.oscillating", &caps.oscillating_f, n)?;

@@ -79,7 +79,7 @@ impl Default for SimControls {
 
 impl SimControls {
     pub fn validate(&self) -> Result<(), LadderError> {
-        if self.steps_per_cycle < 16 || self.steps_per_cycle % 4 != 0 {
+        if self.steps_per_cycle < 16 || !self.steps_per_cycle.is_multiple_of(4) {
             return Err(LadderError::invalid(
                 "steps_per_cycle",
                 self.steps_per_cycle,
@@ -107,14 +107,14 @@ impl SimControls {
                 "min_cycles ≥ 4 and max_cycles ≥ min_cycles",
             ));
         }
-        if let Start::ClosedForm { undershoot } = self.start {
-            if !(0.0..0.5).contains(&undershoot) {
-                return Err(LadderError::invalid(
-                    "start.undershoot",
-                    undershoot,
-                    "a fraction in [0, 0.5)",
-                ));
-            }
+        if let Start::ClosedForm { undershoot } = self.start
+            && !(0.0..0.5).contains(&undershoot)
+        {
+            return Err(LadderError::invalid(
+                "start.undershoot",
+                undershoot,
+                "a fraction in [0, 0.5)",
+            ));
         }
         Ok(())
     }

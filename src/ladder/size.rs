@@ -226,14 +226,14 @@ fn validate(t: &SizeTarget) -> Result<(), LadderError> {
             check_positive(field, v, unit)?;
         }
     }
-    if let Some(d) = t.diode {
-        if !(d.forward_drop_v >= 0.0 && d.forward_drop_v < t.drive_peak_v) {
-            return Err(LadderError::invalid(
-                "diode.forward_drop",
-                format!("{} V", d.forward_drop_v),
-                "a drop ≥ 0 V and below the drive peak",
-            ));
-        }
+    if let Some(d) = t.diode
+        && !(d.forward_drop_v >= 0.0 && d.forward_drop_v < t.drive_peak_v)
+    {
+        return Err(LadderError::invalid(
+            "diode.forward_drop",
+            format!("{} V", d.forward_drop_v),
+            "a drop ≥ 0 V and below the drive peak",
+        ));
     }
     t.controls.validate()
 }

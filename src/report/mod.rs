@@ -101,6 +101,8 @@ pub struct Report {
     pub grid_study: Option<GridStudy>,
     /// Electrostatic energy of the solved field, ½∫εE²dV, J.
     pub field_energy_j: f64,
+    /// The multiplier stack, when the design has one (DESIGN §6 `ladder`).
+    pub ladder: Option<ladder::LadderSection>,
     pub cautions: Vec<Caution>,
 }
 
@@ -204,8 +206,28 @@ impl Report {
             probes,
             grid_study: study,
             field_energy_j: fine.energy_j,
+            ladder: None,
             cautions,
         }
+    }
+
+    /// Adds the multiplier stack: its section, and its stored energy in the cautions.
+    pub fn with_ladder(mut self, stack: Option<&crate::stack::StackAnalysis>) -> Report {
+        if let Some(st) = stack {
+            let section = ladder::LadderSection::new(st);
+            let stack_j = section.stored_energy_j;
+            let total = stack_j + self.field_energy_j;
+            for c in &mut self.cautions {
+                if c.topic == "stored energy" {
+                    c.text = format!(
+                        "Stored energy at this voltage: about {total:.0} J ({stack_j:.0} J in the stage capacitors of the multiplier at load, {:.1} J in the electrostatic field of the terminal and column). Capacitors recover charge after discharge (dielectric absorption): keep them shorted when idle.",
+                        self.field_energy_j
+                    );
+                }
+            }
+            self.ladder = Some(section);
+        }
+        self
     }
 
     /// The report as pretty JSON.

@@ -1,0 +1,74 @@
+//! `holdoff ladder FILE`: the multiplier stack of a design, simulated, beside its closed forms.
+
+use anyhow::{Context, Result, bail};
+use clap::Args;
+use holdoff::ladder::SimControls;
+use holdoff::report::cautions::{CautionInputs, cautions};
+use holdoff::report::ladder::{LadderSection, render};
+use holdoff::report::write_atomic;
+use holdoff::solve::SolverParams;
+use holdoff::stack::analyze_stack;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+#[derive(Debug, Args)]
+pub struct LadderArgs {
+    /// The design file (TOML) with a [multiplier] table.
+    pub file: PathBuf,
+    /// Write the `ladder` section as JSON to FILE, or to standard output with `-`.
+    #[arg(long, value_name = "FILE")]
+    pub json: Option<String>,
+}
+
+pub fn run(args: &LadderArgs) -> Result<ExitCode> {
+    let text = std::fs::read_to_string(&args.file)
+        .with_context(|| format!("cannot read design file {}", args.file.display()))?;
+    let file = args.file.display().to_string();
+    let model = match holdoff::design::from_str(&text, &file) {
+        Ok(m) => m,
+        Err(e) => {
+            eprint!(
+                "{}",
+                holdoff::design::diagnostic::render_for_stderr(&e, &text)
+            );
+            return Ok(ExitCode::from(2));
+        }
+    };
+    let Some(stack) = analyze_stack(&model, &SolverParams::default(), &SimControls::default())?
+    else {
+        bail!("{file} has no [multiplier] table: nothing to simulate");
+    };
+    let section = LadderSection::new(&stack);
+    holdoff::report::finite::ensure_finite(&section)?;
+    if let Some(target) = &args.json {
+        let json = serde_json::to_string_pretty(&section)?;
+        if target == "-" {
+            println!("{json}");
+            return Ok(ExitCode::SUCCESS);
+        }
+        write_atomic(Path::new(target), json.as_bytes())
+            .with_context(|| format!("cannot write JSON {target}"))?;
+    }
+    println!("{}\n", model.title);
+    print!("{}", render(&section));
+    println!("\nCautions");
+    for c in cautions(&CautionInputs {
+        terminal_voltage_v: section.output_no_load_v,
+        stored_energy_j: Some((
+            section.stored_energy_j,
+            "stage capacitors of the multiplier at load",
+        )),
+        gas: model
+            .gas
+            .as_ref()
+            .map(|g| (g.species.clone(), g.pressure_pa)),
+        sf6: model.gas.as_ref().is_some_and(|g| {
+            g.components
+                .iter()
+                .any(|(s, f)| s.eq_ignore_ascii_case("SF6") && *f > 0.0)
+        }),
+    }) {
+        println!("- {}: {}", c.topic, c.text);
+    }
+    Ok(ExitCode::SUCCESS)
+}

@@ -1,0 +1,148 @@
+//! `holdoff ladder`, `holdoff size` and the coupling of the stack to the field check.
+
+use std::process::Command;
+
+fn holdoff() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_holdoff"))
+}
+
+fn json(args: &[&str]) -> serde_json::Value {
+    let out = holdoff().args(args).output().expect("runs");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).expect("valid JSON")
+}
+
+#[test]
+fn ladder_json_has_the_documented_keys() {
+    let v = json(&["ladder", "examples/demo_750kv.toml", "--json", "-"]);
+    for key in [
+        "topology",
+        "stages",
+        "output_no_load_v",
+        "output_mean_v",
+        "drop_v",
+        "ripple_pp_v",
+        "stored_energy_j",
+        "closed_form",
+        "nodes",
+    ] {
+        assert!(v.get(key).is_some(), "missing {key}");
+    }
+    let nodes = v["nodes"].as_array().expect("nodes");
+    assert_eq!(nodes.len(), 8);
+    for n in nodes {
+        for key in ["mean_v", "ripple_pp_v", "capacitor_max_v", "diode_piv_v"] {
+            assert!(n[key].as_f64().is_some_and(f64::is_finite), "{key}");
+        }
+    }
+    // Stage voltages climb to the output.
+    let top = nodes[7]["mean_v"].as_f64().unwrap();
+    assert!((top - v["output_mean_v"].as_f64().unwrap()).abs() < 1.0);
+}
+
+/// "auto" strays come from the capacitance matrix of the drawn stage rings, and strays lower
+/// the no-load output below 2nV₀ (Everhart & Lorrain, Rev. Sci. Instrum. 24, 221 (1953)).
+#[test]
+fn auto_strays_come_from_the_drawn_stack() {
+    let v = json(&["ladder", "examples/stack_300kv.toml", "--json", "-"]);
+    assert_eq!(v["strays"]["kind"], "field_solution");
+    let per_stage = v["strays"]["per_stage_f"].as_array().expect("strays");
+    assert_eq!(per_stage.len(), 6);
+    for c in per_stage {
+        let c = c.as_f64().unwrap();
+        assert!(c > 1e-12 && c < 1e-10, "stray {c}");
+    }
+    let ideal = v["closed_form"]["ideal_no_load_v"].as_f64().unwrap();
+    assert!(v["output_no_load_v"].as_f64().unwrap() < ideal);
+}
+
+/// Conductors with potential "stage:N" take the loaded stage voltage of the simulated stack.
+#[test]
+fn stage_potentials_follow_the_loaded_stack() {
+    let v = json(&[
+        "check",
+        "examples/stack_300kv.toml",
+        "--no-grid-study",
+        "--json",
+        "-",
+    ]);
+    let ladder = &v["ladder"];
+    let nodes = ladder["nodes"].as_array().expect("ladder nodes");
+    for k in 1..=5 {
+        let ring = v["conductors"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|c| c["name"] == format!("stage ring {k}"))
+            .expect("ring row");
+        let stage_v = nodes[k - 1]["mean_v"].as_f64().unwrap();
+        assert!((ring["potential_v"].as_f64().unwrap() - stage_v).abs() < 1e-6 * stage_v);
+    }
+}
+
+#[test]
+fn auto_strays_without_a_drawn_stack_are_refused() {
+    let dir = std::env::temp_dir().join(format!("holdoff-stack-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let text = std::fs::read_to_string("examples/demo_750kv.toml")
+        .unwrap()
+        .replace(
+            "stray_capacitance = \"4 pF\"",
+            "stray_capacitance = \"auto\"",
+        );
+    let path = dir.join("auto.toml");
+    std::fs::write(&path, text).unwrap();
+    let out = holdoff().arg("ladder").arg(&path).output().expect("runs");
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("stage:N"));
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn size_lists_designs_that_meet_the_limits() {
+    let v = json(&[
+        "size",
+        "--voltage",
+        "100 kV",
+        "--current",
+        "1 mA",
+        "--ripple",
+        "200 V",
+        "--drive-peak",
+        "25 kV",
+        "--frequency",
+        "40 kHz",
+        "--capacitors",
+        "2.2 nF,4.7 nF",
+        "--json",
+    ]);
+    let designs = v.as_array().expect("designs");
+    assert!(!designs.is_empty());
+    for d in designs {
+        assert!(d["output_at_load_v"].as_f64().unwrap() >= 100e3);
+        assert!(d["ripple_pp_v"].as_f64().unwrap() <= 200.0);
+    }
+}
+
+#[test]
+fn size_refuses_a_bare_number() {
+    let out = holdoff()
+        .args([
+            "size",
+            "--voltage",
+            "100",
+            "--current",
+            "1 mA",
+            "--ripple",
+            "1 kV",
+        ])
+        .args(["--drive-peak", "25 kV", "--frequency", "40 kHz"])
+        .output()
+        .expect("runs");
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--voltage"));
+}
