@@ -74,7 +74,9 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
     } else {
         Some(grid_study(&model, &fine, &params, None)?)
     };
-    let report = Report::new(&model, file, text, &fine, study);
+    let margins = holdoff::margin::evaluate(&model, &fine, study.as_ref())?;
+    let failed = margins.any_fail();
+    let report = Report::new(&model, file, text, &fine, study).with_margins(margins);
     if let Some(target) = &out.json {
         let json = report.to_json();
         if target == "-" {
@@ -87,5 +89,9 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
     if !json_to_stdout {
         print!("{}", table::render(&report));
     }
-    Ok(ExitCode::SUCCESS)
+    Ok(if failed {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    })
 }
