@@ -37,6 +37,7 @@ use serde::Serialize;
 use thiserror::Error;
 
 use crate::analysis::Analysis;
+use crate::breakdown::convert::BAR_CM_PA_M;
 use crate::breakdown::corona::{self, PeekGeometry};
 use crate::breakdown::gas::GasKind;
 use crate::breakdown::insulator::{self, JunctionClass, VacuumSurface};
@@ -59,6 +60,11 @@ pub const REVIEW_BAND: f64 = 1.1;
 /// Peek's surface factor used when `[checks] corona_surface_factor` is not set: 1, polished
 /// electrodes (Peek 1929 via REFERENCES.md §5 \[C\]); accelerator electrodes are polished.
 pub const DEFAULT_CORONA_SURFACE_FACTOR: f64 = corona::SURFACE_POLISHED;
+
+/// Density-reduced pressure from which N2 streamer integrals use the scaled-air model
+/// ([`EffectiveIonisation::n2_scaled_air`]) instead of the Townsend α fit, whose window
+/// (E/p ≥ 100 V/(cm·Torr)) is not reached at tank pressures: 0.1 bar (holdoff's choice).
+pub const N2_SCALED_AIR_FROM_PA: f64 = 1.0e4;
 
 #[derive(Debug, Error)]
 pub enum MarginError {
@@ -445,47 +451,47 @@ fn gas_rows(
         state.pressure_pa / 1e5
     );
 
-    // 1. Peak surface field against the limiting field.
-    let mut limit = if state.kind.is_sf6_based() || !reached {
-        let mut l = uniform::critical_field(gas, &ctx.options)?;
-        if !state.kind.is_sf6_based() {
-            l.name = format!("{} (field line reached no opposite surface)", l.name);
+    // 1. Peak surface field against the limiting field: SF6 and its mixtures, the critical
+    // field (the standard SF6 design check); other gases only with a user-set
+    // `gas_field_limit` (their surface checks are the streamer integral and, in air, Peek; the
+    // long-gap limit against a small-radius surface field would mislead).
+    let long_gap = reached
+        && !state.kind.is_sf6_based()
+        && state.reduced_pd(line.length_m) / BAR_CM_PA_M > uniform::SCHUMANN_PD_RANGE_BAR_CM.1;
+    let user_field = override_of(model, "gas_field_limit");
+    if state.kind.is_sf6_based() || user_field.is_some() {
+        let mut limit = uniform::critical_field(gas, &ctx.options)?;
+        let mut user_set = false;
+        if let Some(v) = user_field {
+            limit = user_limit(limit, "gas_field_limit", v)?;
+            user_set = true;
         }
-        l
-    } else {
-        uniform::uniform_breakdown(gas, line.length_m, &ctx.options)?.field
-    };
-    if !state.kind.is_sf6_based() && reached {
-        limit.name = format!(
-            "uniform-field breakdown field of the {:.1} mm field-line gap: {}",
-            line.length_m * 1e3,
-            limit.name
-        );
+        rows.push(row(
+            ctx,
+            RowSpec {
+                item: name.clone(),
+                medium: RowMedium::Gas,
+                peak: hot.e,
+                at: hot.at,
+                numerical_error: err,
+                user_set,
+                scaling: Scaling::Linear,
+                in_holdoff: true,
+                note: Some(format!("peak surface field in {gas_label}")),
+            },
+            &limit.derated(derating.clone()),
+        ));
     }
-    let mut user_set = false;
-    if let Some(v) = override_of(model, "gas_field_limit") {
-        limit = user_limit(limit, "gas_field_limit", v)?;
-        user_set = true;
-    }
-    let limit = limit.derated(derating.clone());
-    rows.push(row(
-        ctx,
-        RowSpec {
-            item: name.clone(),
-            medium: RowMedium::Gas,
-            peak: hot.e,
-            at: hot.at,
-            numerical_error: err,
-            user_set,
-            scaling: Scaling::Linear,
-            in_holdoff: true,
-            note: Some(format!("peak surface field in {gas_label}")),
-        },
-        &limit,
-    ));
 
     // 2. Streamer integral along the field line.
-    let model_ion = EffectiveIonisation::for_gas(gas, &ctx.options)?;
+    // N2 at tank pressures is in the streamer regime, below the window of its Townsend fit:
+    // the scaled-air model is used there (the stated alternative of the ionisation table).
+    let model_ion =
+        if state.kind == GasKind::N2 && state.reduced_pressure_pa >= N2_SCALED_AIR_FROM_PA {
+            EffectiveIonisation::n2_scaled_air()
+        } else {
+            EffectiveIonisation::for_gas(gas, &ctx.options)?
+        };
     let profile = line.profile();
     let streamer_limit = if !reached {
         unavailable(
@@ -529,15 +535,32 @@ fn gas_rows(
 
     // 3. Gap voltage against the uniform-field breakdown of the same gap.
     if reached && line.voltage_v > 0.0 {
-        let gap_limit = match uniform::uniform_breakdown(gas, line.length_m, &ctx.options) {
-            Ok(u) => u.voltage,
-            Err(e) => unavailable(
-                Criterion::Paschen,
-                "uniform-field gap breakdown",
+        let gap_limit = if long_gap {
+            let crit = uniform::critical_field(gas, &ctx.options)?;
+            Limit::new(
+                crit.criterion,
+                format!(
+                    "long-gap uniform-field limit ({} x field-line length; pd above the \
+                     Schumann range)",
+                    crit.name
+                ),
+                crit.source.clone(),
+                crit.mark,
                 LimitKind::Voltage,
-                e.to_string(),
-                "REFERENCES.md §1-3",
-            ),
+                crit.ideal * line.length_m,
+                crit.validity.clone(),
+            )
+        } else {
+            match uniform::uniform_breakdown(gas, line.length_m, &ctx.options) {
+                Ok(u) => u.voltage,
+                Err(e) => unavailable(
+                    Criterion::Paschen,
+                    "uniform-field gap breakdown",
+                    LimitKind::Voltage,
+                    e.to_string(),
+                    "REFERENCES.md §1-3",
+                ),
+            }
         };
         let mut note = format!(
             "voltage across the {:.1} mm field-line gap to {to}; the uniform-field value is an \
@@ -1086,4 +1109,63 @@ pub fn evaluate(
         field_lines: lines,
         notes,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn status_bands() {
+        assert_eq!(Status::of(1.49, 1.5), Status::Fail);
+        assert_eq!(Status::of(1.5, 1.5), Status::Review);
+        assert_eq!(Status::of(1.64, 1.5), Status::Review);
+        assert_eq!(Status::of(1.66, 1.5), Status::Pass);
+    }
+
+    fn sample(margin: Option<f64>, in_holdoff: bool) -> MarginRow {
+        MarginRow {
+            rank: 0,
+            item: format!("{margin:?}"),
+            medium: RowMedium::Gas,
+            criterion: Criterion::CriticalField,
+            criterion_name: String::new(),
+            source: String::new(),
+            mark: Mark::Derived,
+            kind: LimitKind::Field,
+            peak: 1.0,
+            limit: margin,
+            limit_ideal: margin.map(|m| 2.0 * m),
+            margin,
+            margin_ideal: margin.map(|m| 2.0 * m),
+            derating: Derating::none(),
+            status: margin.map_or(Status::OutsideValidity, |m| Status::of(m, 1.5)),
+            at_m: [0.0, 0.0],
+            numerical_error: None,
+            user_set: false,
+            validity: Validity::Valid,
+            scaling: Scaling::Linear,
+            in_holdoff,
+            note: None,
+        }
+    }
+
+    #[test]
+    fn ranking_puts_rows_without_a_number_last() {
+        let mut rows = vec![
+            sample(None, true),
+            sample(Some(3.0), true),
+            sample(Some(0.5), false),
+            sample(Some(2.0), true),
+        ];
+        rank(&mut rows);
+        let ms: Vec<Option<f64>> = rows.iter().map(|r| r.margin).collect();
+        assert_eq!(ms, vec![Some(0.5), Some(2.0), Some(3.0), None]);
+        assert_eq!(rows[3].rank, 4);
+        // The flag row (0.5) does not enter the hold-off; the ideal one uses the ideal margins.
+        let h = holdoff(&rows, 100.0, false).unwrap();
+        assert_eq!(h.voltage_v, 200.0);
+        assert_eq!(h.rank, 2);
+        assert_eq!(holdoff(&rows, 100.0, true).unwrap().voltage_v, 400.0);
+    }
 }

@@ -182,7 +182,10 @@ fn value_with_unit(kind: LimitKind, v: f64) -> String {
 
 fn margin_row_cells(r: &MarginRow) -> Vec<Cell> {
     let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
-    let mut criterion = criterion_label(r.criterion).to_string();
+    let mut criterion = match (r.criterion, r.kind) {
+        (Criterion::CriticalField, LimitKind::Voltage) => "long-gap limit (gap)".to_string(),
+        (c, _) => criterion_label(c).to_string(),
+    };
     if r.derating.factor != 1.0 {
         criterion.push_str(&format!(", derated x{}", r.derating.factor));
     }
