@@ -134,13 +134,13 @@ fn stored_energy(model: &Model, field_energy_j: f64) -> (f64, String) {
         Some(stack) => (
             stack + field_energy_j,
             format!(
-                "multiplier stack {:.1} J at no load (1/2 C V^2, stage capacitors at 2 Vm) plus                  {:.1} J electrostatic energy of the solved field",
+                "multiplier stack {:.1} J at no load (1/2 C V^2, stage capacitors at 2 Vm) plus {:.1} J electrostatic energy of the solved field",
                 stack, field_energy_j
             ),
         ),
         None => (
             field_energy_j,
-            "electrostatic energy of the solved field, 1/2 integral of eps E^2; no multiplier              is modelled"
+            "electrostatic energy of the solved field, 1/2 integral of eps E^2; no multiplier is modelled"
                 .to_string(),
         ),
     }
