@@ -80,7 +80,11 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
     } else {
         Some(grid_study(&model, &fine, &params, stage_v.as_deref())?)
     };
-    let report = Report::new(&model, file, text, &fine, study).with_ladder(stack.as_ref());
+    let margins = holdoff::margin::evaluate(&model, &fine, study.as_ref())?;
+    let failed = margins.any_fail();
+    let report = Report::new(&model, file, text, &fine, study)
+        .with_margins(margins)
+        .with_ladder(stack.as_ref());
     holdoff::report::finite::ensure_finite(&report)?;
     if let Some(target) = &out.json {
         let json = report.to_json();
@@ -94,5 +98,9 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
     if !json_to_stdout {
         print!("{}", table::render(&report));
     }
-    Ok(ExitCode::SUCCESS)
+    Ok(if failed {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    })
 }

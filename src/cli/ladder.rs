@@ -56,7 +56,7 @@ pub fn run(args: &LadderArgs) -> Result<ExitCode> {
         terminal_voltage_v: section.output_no_load_v,
         stored_energy_j: Some((
             section.stored_energy_j,
-            "stage capacitors of the multiplier at load",
+            "stage capacitors of the multiplier at load".to_string(),
         )),
         gas: model
             .gas

@@ -17,7 +17,7 @@ pub struct CautionInputs {
     /// Terminal voltage, V.
     pub terminal_voltage_v: f64,
     /// Stored energy, J, and what it covers.
-    pub stored_energy_j: Option<(f64, &'static str)>,
+    pub stored_energy_j: Option<(f64, String)>,
     /// Gas species and absolute pressure, Pa, when the tank is pressurised.
     pub gas: Option<(String, f64)>,
     /// Whether the gas contains SF6.
@@ -34,6 +34,29 @@ fn fmt_energy(j: f64) -> String {
     }
 }
 
+/// No-load stored energy of a Cockcroft–Walton stack, J: ½·C·V² over its capacitors, with
+/// every stage capacitor charged to 2·V_m except the first capacitor of each oscillating column,
+/// which holds V_m (REFERENCES.md §8, \[M\]; Kuffel et al. 2000, Ch. 2). A half-wave stack has
+/// one oscillating and one smoothing column of `stages` capacitors each; a symmetric stack has
+/// two oscillating columns and one smoothing column (the same rule applied to each column,
+/// \[D\]). `None` for an unknown topology or non-finite inputs.
+pub fn multiplier_stored_energy_j(m: &crate::model::Multiplier) -> Option<f64> {
+    let n = m.stages as f64;
+    let (c, vm) = (m.stage_capacitance_f, m.drive_peak_v);
+    if m.stages == 0 || !(c.is_finite() && c > 0.0 && vm.is_finite() && vm > 0.0) {
+        return None;
+    }
+    let full = 0.5 * c * (2.0 * vm).powi(2);
+    let first = 0.5 * c * vm * vm;
+    let oscillating = first + (n - 1.0) * full;
+    let smoothing = n * full;
+    match m.topology.as_str() {
+        "half-wave" => Some(smoothing + oscillating),
+        "symmetric" => Some(smoothing + 2.0 * oscillating),
+        _ => None,
+    }
+}
+
 /// The cautions, in the order they are printed.
 pub fn cautions(inp: &CautionInputs) -> Vec<Caution> {
     let mut out = Vec::new();
@@ -44,10 +67,10 @@ pub fn cautions(inp: &CautionInputs) -> Vec<Caution> {
             "The terminal runs at {kv:.0} kV. Contact with, or approach to, any part of the high-voltage structure while energised is lethal. Only authorised, trained persons may work on it, under the facility's high-voltage safety rules."
         ),
     });
-    let energy = match inp.stored_energy_j {
+    let energy = match &inp.stored_energy_j {
         Some((j, what)) => format!(
             "Stored energy at this voltage: {} ({what}). Capacitors recover charge after discharge (dielectric absorption): keep them shorted when idle.",
-            fmt_energy(j)
+            fmt_energy(*j)
         ),
         None => "Stored energy is not known for this run. Capacitors recover charge after discharge (dielectric absorption): keep them shorted when idle.".to_string(),
     };
@@ -87,4 +110,32 @@ pub fn cautions(inp: &CautionInputs) -> Vec<Caution> {
         text: "These results are a design aid computed from an idealised axisymmetric model; they are not a certification. Local electrical codes, pressure-vessel codes, radiation rules and the facility's licensed high-voltage safety practice take precedence.".into(),
     });
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn stack(topology: &str) -> crate::model::Multiplier {
+        crate::model::Multiplier {
+            topology: topology.into(),
+            stages: 8,
+            stage_capacitance_f: 6.8e-9,
+            drive_frequency_hz: 50e3,
+            drive_peak_v: 50e3,
+            load_current_a: 10.3e-3,
+            stray_capacitance_f: None,
+        }
+    }
+
+    #[test]
+    fn stack_energy_by_half_c_v_squared() {
+        // ½CV² per capacitor (REFERENCES.md §13; 1 nF at 1 MV = 500 J, row 40), with the
+        // charging rule of §8: half-wave 8 x 2Vm + (Vm + 7 x 2Vm) over 6.8 nF at Vm = 50 kV.
+        let half = 0.5 * 6.8e-9 * (8.0 * 1e10 + 2.5e9 + 7.0 * 1e10);
+        assert!((multiplier_stored_energy_j(&stack("half-wave")).unwrap() - half).abs() < 1e-9);
+        let sym = 0.5 * 6.8e-9 * (8.0 * 1e10 + 2.0 * (2.5e9 + 7.0 * 1e10));
+        assert!((multiplier_stored_energy_j(&stack("symmetric")).unwrap() - sym).abs() < 1e-9);
+        assert!(multiplier_stored_energy_j(&stack("other")).is_none());
+    }
 }

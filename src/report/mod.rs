@@ -10,6 +10,7 @@ pub mod ladder;
 pub mod table;
 
 use crate::analysis::Analysis;
+use crate::margin::{Holdoff, LineSummary, MarginRow, Margins, Status};
 use crate::model::Model;
 use crate::study::GridStudy;
 use cautions::{Caution, CautionInputs};
@@ -103,7 +104,50 @@ pub struct Report {
     pub field_energy_j: f64,
     /// The multiplier stack, when the design has one (DESIGN §6 `ladder`).
     pub ladder: Option<ladder::LadderSection>,
+    /// Ranked margin rows, worst first (DESIGN §6 `margins`); empty until margins are added.
+    pub margins: Vec<MarginRow>,
+    /// Hold-off voltage with the limits as used (gas rows derated where they are), V.
+    pub holdoff_voltage_v: Option<f64>,
+    /// The row that sets `holdoff_voltage_v`.
+    pub holdoff_limiting: Option<Holdoff>,
+    /// Hold-off voltage with every limit ideal (no derating), V.
+    pub holdoff_voltage_ideal_v: Option<f64>,
+    /// The row that sets `holdoff_voltage_ideal_v`.
+    pub holdoff_ideal_limiting: Option<Holdoff>,
+    /// How the hold-off voltage was found, and its assumptions.
+    pub holdoff_notes: Vec<String>,
+    /// The design factor the statuses are judged against.
+    pub design_factor: f64,
+    /// Worst status of the margin rows: "pass", "review" or "fail".
+    pub worst_status: Status,
+    /// The field lines traced from the hotspots.
+    pub field_lines: Vec<LineSummary>,
+    /// Checks that could not be made, and why.
+    pub margin_notes: Vec<String>,
     pub cautions: Vec<Caution>,
+}
+
+/// The stored energy the cautions quote, J, with what it covers: the multiplier stack's no-load
+/// energy plus the field energy when the multiplier is modelled, else the field energy alone.
+fn stored_energy(model: &Model, field_energy_j: f64) -> (f64, String) {
+    match model
+        .multiplier
+        .as_ref()
+        .and_then(cautions::multiplier_stored_energy_j)
+    {
+        Some(stack) => (
+            stack + field_energy_j,
+            format!(
+                "multiplier stack {:.1} J at no load (1/2 C V^2, stage capacitors at 2 Vm) plus {:.1} J electrostatic energy of the solved field",
+                stack, field_energy_j
+            ),
+        ),
+        None => (
+            field_energy_j,
+            "electrostatic energy of the solved field, 1/2 integral of eps E^2; no multiplier is modelled"
+                .to_string(),
+        ),
+    }
 }
 
 /// SHA-256 of the design text, hex.
@@ -155,10 +199,7 @@ impl Report {
         let gas = model.gas.as_ref();
         let cautions = cautions::cautions(&CautionInputs {
             terminal_voltage_v: model.terminal_voltage,
-            stored_energy_j: Some((
-                fine.energy_j,
-                "electrostatic energy of the solved field, 1/2 integral of eps E^2; the multiplier stack is not included",
-            )),
+            stored_energy_j: Some(stored_energy(model, fine.energy_j)),
             gas: gas.map(|g| (g.species.clone(), g.pressure_pa)),
             sf6: gas.is_some_and(|g| {
                 g.components
@@ -207,6 +248,16 @@ impl Report {
             grid_study: study,
             field_energy_j: fine.energy_j,
             ladder: None,
+            margins: Vec::new(),
+            holdoff_voltage_v: None,
+            holdoff_limiting: None,
+            holdoff_voltage_ideal_v: None,
+            holdoff_ideal_limiting: None,
+            holdoff_notes: Vec::new(),
+            design_factor: model.checks.design_factor,
+            worst_status: Status::Pass,
+            field_lines: Vec::new(),
+            margin_notes: Vec::new(),
             cautions,
         }
     }
@@ -227,6 +278,21 @@ impl Report {
             }
             self.ladder = Some(section);
         }
+        self
+    }
+
+    /// The same report with the margins of the run.
+    pub fn with_margins(mut self, m: Margins) -> Report {
+        self.worst_status = m.worst_status();
+        self.design_factor = m.design_factor;
+        self.holdoff_voltage_v = m.holdoff.as_ref().map(|h| h.voltage_v);
+        self.holdoff_voltage_ideal_v = m.holdoff_ideal.as_ref().map(|h| h.voltage_v);
+        self.holdoff_limiting = m.holdoff;
+        self.holdoff_ideal_limiting = m.holdoff_ideal;
+        self.holdoff_notes = m.holdoff_notes;
+        self.margins = m.rows;
+        self.field_lines = m.field_lines;
+        self.margin_notes = m.notes;
         self
     }
 

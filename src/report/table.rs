@@ -1,5 +1,8 @@
-//! The terminal rendering of a report: conductor peaks, probes, solver figures, cautions.
+//! The terminal rendering of a report: conductor peaks, probes, the ranked margins and the
+//! hold-off voltage, solver figures, cautions (always last).
 
+use crate::breakdown::{Criterion, LimitKind};
+use crate::margin::{MarginRow, Status};
 use crate::report::Report;
 use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
 use std::fmt::Write;
@@ -107,6 +110,8 @@ pub fn render(report: &Report) -> String {
         let _ = writeln!(out, "{p}");
     }
 
+    render_margins(report, &mut out);
+
     let s = &report.solver;
     let _ = writeln!(
         out,
@@ -144,6 +149,192 @@ pub fn render(report: &Report) -> String {
         let _ = writeln!(out, "- {}: {}", c.topic, c.text);
     }
     out
+}
+
+/// Rows shown in the terminal beyond the failing and review rows (all rows are in the JSON).
+pub const MARGIN_ROWS_SHOWN: usize = 30;
+
+fn criterion_label(c: Criterion) -> &'static str {
+    match c {
+        Criterion::Paschen => "Paschen (gap voltage)",
+        Criterion::SchumannAir => "Schumann fit (gap)",
+        Criterion::ScaledAir => "scaled-air fit (gap)",
+        Criterion::Sf6Streamer => "SF6 uniform-field fit (gap)",
+        Criterion::CriticalField => "limiting field",
+        Criterion::StreamerIntegral => "streamer integral",
+        Criterion::PeekCorona => "Peek corona onset",
+        Criterion::Cranberg => "Cranberg V·E",
+        Criterion::TotalVoltage => "total-voltage fit",
+        Criterion::CathodeSurfaceField => "cathode surface field",
+        Criterion::Kilpatrick => "Kilpatrick (RF)",
+        Criterion::VacuumSurfaceFlashover => "surface flashover (vacuum)",
+        Criterion::GasSurfaceFlashover => "surface flashover (gas)",
+    }
+}
+
+/// A peak or limit in the unit of its row: kV/mm for fields, kV for voltages.
+fn value_with_unit(kind: LimitKind, v: f64) -> String {
+    match kind {
+        LimitKind::Field => format!("{:.3} kV/mm", v / 1e6),
+        LimitKind::Voltage => format!("{:.1} kV", v / 1e3),
+    }
+}
+
+fn margin_row_cells(r: &MarginRow) -> Vec<Cell> {
+    let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
+    let mut criterion = match (r.criterion, r.kind) {
+        (Criterion::CriticalField, LimitKind::Voltage) => "long-gap limit (gap)".to_string(),
+        (c, _) => criterion_label(c).to_string(),
+    };
+    if r.derating.factor != 1.0 {
+        criterion.push_str(&format!(", derated x{}", r.derating.factor));
+    }
+    if r.user_set {
+        criterion.push_str(" [user-set]");
+    }
+    vec![
+        right(r.rank.to_string()),
+        Cell::new(&r.item),
+        Cell::new(r.medium.label()),
+        Cell::new(criterion),
+        right(value_with_unit(r.kind, r.peak)),
+        right(r.limit.map_or("-".into(), |l| value_with_unit(r.kind, l))),
+        right(r.margin.map_or("-".into(), |m| format!("{m:.2}"))),
+        right(r.margin_ideal.map_or("-".into(), |m| format!("{m:.2}"))),
+        Cell::new(r.status.label()),
+        right(format!("{}, {}", mm(r.at_m[0]), mm(r.at_m[1]))),
+        right(
+            r.numerical_error
+                .map_or("-".into(), |e| format!("±{:.1} %", 100.0 * e)),
+        ),
+    ]
+}
+
+/// The ranked margin table, the hold-off voltages and the rows outside validity.
+fn render_margins(report: &Report, out: &mut String) {
+    if report.margins.is_empty() {
+        for n in &report.margin_notes {
+            let _ = writeln!(out, "note: {n}");
+        }
+        return;
+    }
+    let mut t = Table::new();
+    t.load_style(UTF8_FULL_CONDENSED)
+        .set_content_arrangement(ContentArrangement::Dynamic);
+    t.set_header(vec![
+        "rank",
+        "item",
+        "medium",
+        "criterion",
+        "peak",
+        "limit",
+        "margin",
+        "ideal margin",
+        "status",
+        "at r, z mm",
+        "num. error",
+    ]);
+    let numbered: Vec<&MarginRow> = report
+        .margins
+        .iter()
+        .filter(|r| r.margin.is_some())
+        .collect();
+    let not_pass = numbered.iter().filter(|r| r.status != Status::Pass).count();
+    let shown = numbered.len().min(MARGIN_ROWS_SHOWN.max(not_pass));
+    for r in &numbered[..shown] {
+        t.add_row(margin_row_cells(r));
+    }
+    let _ = writeln!(
+        out,
+        "Margins (design factor {}; review below {:.2}), worst first",
+        report.design_factor,
+        crate::margin::REVIEW_BAND * report.design_factor
+    );
+    let _ = writeln!(out, "{t}");
+    if shown < numbered.len() {
+        let _ = writeln!(
+            out,
+            "{} more rows, all passing, in the JSON report (--json).",
+            numbered.len() - shown
+        );
+    }
+    let outside: Vec<&MarginRow> = report
+        .margins
+        .iter()
+        .filter(|r| r.margin.is_none())
+        .collect();
+    if !outside.is_empty() {
+        let _ = writeln!(
+            out,
+            "{} rows outside validity (no number given):",
+            outside.len()
+        );
+        let mut reasons: Vec<(String, Vec<usize>)> = Vec::new();
+        for r in &outside {
+            let reason = match &r.validity {
+                crate::breakdown::Validity::OutsideValidity { reason } => reason.clone(),
+                crate::breakdown::Validity::Valid => "no peak value".to_string(),
+            };
+            let key = format!("{}: {}", criterion_label(r.criterion), reason);
+            match reasons.iter_mut().find(|(k, _)| *k == key) {
+                Some((_, ranks)) => ranks.push(r.rank),
+                None => reasons.push((key, vec![r.rank])),
+            }
+        }
+        for (reason, ranks) in reasons.iter().take(12) {
+            let list: Vec<String> = ranks.iter().take(6).map(|k| k.to_string()).collect();
+            let more = if ranks.len() > 6 { ", ..." } else { "" };
+            let _ = writeln!(out, "- rank {}{more}: {reason}", list.join(", "));
+        }
+        if reasons.len() > 12 {
+            let _ = writeln!(
+                out,
+                "- {} further reasons in the JSON report",
+                reasons.len() - 12
+            );
+        }
+    }
+    let derated = report.margins.iter().find(|r| r.derating.factor != 1.0);
+    if let Some(r) = derated {
+        let _ = writeln!(out, "derating: {}", r.derating.basis);
+    }
+    match (&report.holdoff_limiting, &report.holdoff_ideal_limiting) {
+        (Some(h), hi) => {
+            let _ = writeln!(
+                out,
+                "\nHold-off voltage {} kV (limits as used), limiting: {} — {}",
+                kv(h.voltage_v),
+                h.item,
+                h.criterion_name
+            );
+            if let Some(hi) = hi {
+                let _ = writeln!(
+                    out,
+                    "Hold-off voltage {} kV (every limit ideal), limiting: {} — {}",
+                    kv(hi.voltage_v),
+                    hi.item,
+                    hi.criterion_name
+                );
+            }
+        }
+        (None, _) => {
+            let _ = writeln!(out, "\nNo hold-off voltage.");
+        }
+    }
+    for n in &report.holdoff_notes {
+        if n.starts_with("assumption") || n.starts_with("no ") {
+            let _ = writeln!(out, "{n}");
+        }
+    }
+    for n in &report.margin_notes {
+        let _ = writeln!(out, "note: {n}");
+    }
+    let worst = match report.worst_status {
+        Status::Fail => "at least one row FAILS the design factor",
+        Status::Review => "no row fails; some rows are within 10 % of the design factor (review)",
+        _ => "every row with a number passes the design factor",
+    };
+    let _ = writeln!(out, "Result: {worst}.\n");
 }
 
 /// Renders the expanded model (what was modelled) as a table.

@@ -1,0 +1,1171 @@
+//! Breakdown margins: one row per check, ranked worst first, and the hold-off voltage.
+//!
+//! Input: the model, the fine field analysis and (optionally) the grid study. Output:
+//! [`Margins`] — rows with item, medium, criterion, source, peak, limit, margin, status,
+//! location, numerical error, user-set flag and validity note; the hold-off voltage with the
+//! limits as used and with every limit ideal, each with its limiting row.
+//!
+//! Checks made:
+//!
+//! - every conductor surface in gas, at its hotspot (highest surface field): the peak surface
+//!   field against the limiting field of the gas (SF6 and mixtures: the critical field; air, N2,
+//!   CO2: the uniform-field breakdown field of a gap the length of the hotspot's field line);
+//!   the streamer (ionisation) integral along that field line; the voltage across the gap
+//!   against its uniform-field breakdown by the criterion valid at that pd (Paschen, Schumann or
+//!   the SF6 fit); and in air, Peek's corona onset at the local radius of curvature;
+//! - every conductor surface in vacuum, at its cathodic hotspot: the cathode surface field; the
+//!   gap voltage against the total-voltage fit; Cranberg's product of voltage and field;
+//! - every insulator surface, gas side and vacuum side: the peak tangential field against the
+//!   surface-flashover gradient; and every triple junction (conductor, insulator, gas or vacuum)
+//!   flagged with its field.
+//!
+//! **Margin** is always the factor by which the terminal voltage may be raised before the
+//! criterion is reached: limit ÷ peak for fields and for gap voltages (criteria linear in the
+//! field); the voltage form √(C/(V·E)) for Cranberg's V·E criterion (quadratic in the field, so
+//! its limit is given as the gap voltage at which V·E = C); and the inception factor found by
+//! bisection for the streamer integral (not linear in the field). Every margin therefore halves
+//! when the terminal voltage doubles, and the **hold-off voltage** is the terminal voltage times
+//! the smallest margin of the rows that enter it. Gas rows are derated for stressed area (SF6:
+//! [`Derating::sf6_large_area`], common practice; any gas: `[checks] area_derating`); the ideal
+//! hold-off uses every limit without derating.
+//!
+//! **Status** against `[checks] design_factor` f: fail below f, review from f to 1.1·f
+//! ([`REVIEW_BAND`]), pass above; a row whose criterion is outside its range of validity has no
+//! number and the status "outside validity".
+
+use serde::Serialize;
+use thiserror::Error;
+
+use crate::analysis::Analysis;
+use crate::breakdown::convert::BAR_CM_PA_M;
+use crate::breakdown::corona::{self, PeekGeometry};
+use crate::breakdown::gas::GasKind;
+use crate::breakdown::insulator::{self, JunctionClass, VacuumSurface};
+use crate::breakdown::ionisation::EffectiveIonisation;
+use crate::breakdown::vacuum::{self, CathodeClass, TotalVoltageFit};
+use crate::breakdown::{
+    BreakdownError, Criterion, Derating, GasOptions, GasState, Limit, LimitKind, Mark, Validity,
+    streamer, uniform,
+};
+use crate::field::{FieldMap, InsulatorSample, Medium, SurfaceSample};
+use crate::fieldline::{self, FieldLine, LineEnd, TraceParams};
+use crate::geometry::{Point, Shape};
+use crate::mesh::TANK;
+use crate::model::{Gas, Model, PotentialSpec};
+use crate::study::GridStudy;
+
+/// A row within this factor above the design factor is "review" (10 %).
+pub const REVIEW_BAND: f64 = 1.1;
+
+/// Peek's surface factor used when `[checks] corona_surface_factor` is not set: 1, polished
+/// electrodes (Peek 1929 via REFERENCES.md §5 \[C\]); accelerator electrodes are polished.
+pub const DEFAULT_CORONA_SURFACE_FACTOR: f64 = corona::SURFACE_POLISHED;
+
+/// Density-reduced pressure from which N2 streamer integrals use the scaled-air model
+/// ([`EffectiveIonisation::n2_scaled_air`]) instead of the Townsend α fit, whose window
+/// (E/p ≥ 100 V/(cm·Torr)) is not reached at tank pressures: 0.1 bar (holdoff's choice).
+pub const N2_SCALED_AIR_FROM_PA: f64 = 1.0e4;
+
+#[derive(Debug, Error)]
+pub enum MarginError {
+    #[error("breakdown criteria: {0}")]
+    Breakdown(#[from] BreakdownError),
+    #[error("[checks] {key} = {value}: {reason}")]
+    Override {
+        key: &'static str,
+        value: f64,
+        reason: String,
+    },
+}
+
+/// Pass, review or fail against the design factor, or no number.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Status {
+    Fail,
+    Review,
+    Pass,
+    /// The criterion is outside its range of validity: the row gives the reason, not a number.
+    OutsideValidity,
+}
+
+impl Status {
+    pub fn label(self) -> &'static str {
+        match self {
+            Status::Pass => "pass",
+            Status::Review => "review",
+            Status::Fail => "FAIL",
+            Status::OutsideValidity => "outside validity",
+        }
+    }
+
+    /// The status of `margin` against `design_factor`.
+    pub fn of(margin: f64, design_factor: f64) -> Status {
+        if margin < design_factor {
+            Status::Fail
+        } else if margin < REVIEW_BAND * design_factor {
+            Status::Review
+        } else {
+            Status::Pass
+        }
+    }
+}
+
+/// The medium (or surface type) a row checks.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RowMedium {
+    Gas,
+    Vacuum,
+    InsulatorGasSide,
+    InsulatorVacuumSide,
+    TripleJunctionGas,
+    TripleJunctionVacuum,
+}
+
+impl RowMedium {
+    pub fn label(self) -> &'static str {
+        match self {
+            RowMedium::Gas => "gas",
+            RowMedium::Vacuum => "vacuum",
+            RowMedium::InsulatorGasSide => "insulator, gas side",
+            RowMedium::InsulatorVacuumSide => "insulator, vacuum side",
+            RowMedium::TripleJunctionGas => "triple junction, gas",
+            RowMedium::TripleJunctionVacuum => "triple junction, vacuum",
+        }
+    }
+}
+
+/// How the margin of a row follows the terminal voltage (all three are exact: margin ∝ 1/V).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Scaling {
+    /// Criterion linear in the field: margin = limit ÷ peak.
+    Linear,
+    /// Cranberg's V·E, quadratic in the field: margin = √(C/(V·E)), closed form.
+    SquareRoot,
+    /// Streamer integral: the inception factor, found by bisection.
+    Bisection,
+}
+
+/// One check.
+#[derive(Debug, Clone, Serialize)]
+pub struct MarginRow {
+    /// 1 = worst.
+    pub rank: usize,
+    pub item: String,
+    pub medium: RowMedium,
+    pub criterion: Criterion,
+    /// The criterion as named in the output, with its constants.
+    pub criterion_name: String,
+    pub source: String,
+    pub mark: Mark,
+    /// The unit of `peak` and `limit`: `field_v_per_m` or `voltage_v`.
+    pub kind: LimitKind,
+    /// The computed value at the design terminal voltage.
+    pub peak: f64,
+    /// The limit as used (derated where the row is derated); `None` outside validity.
+    pub limit: Option<f64>,
+    /// The ideal (undrated) limit; `None` outside validity.
+    pub limit_ideal: Option<f64>,
+    /// Factor to the criterion at the limit as used; `None` outside validity.
+    pub margin: Option<f64>,
+    pub margin_ideal: Option<f64>,
+    /// The derating of the limit (factor 1 = ideal), with its basis.
+    pub derating: Derating,
+    pub status: Status,
+    pub at_m: [f64; 2],
+    /// Estimated relative numerical error of the peak (grid study), when known.
+    pub numerical_error: Option<f64>,
+    /// A `[checks]` override entered this row.
+    pub user_set: bool,
+    pub validity: Validity,
+    pub scaling: Scaling,
+    /// Whether the row enters the hold-off voltage.
+    pub in_holdoff: bool,
+    /// Further notes: field-line end, assumptions, junction advice.
+    pub note: Option<String>,
+}
+
+/// The hold-off voltage and the row that sets it.
+#[derive(Debug, Clone, Serialize)]
+pub struct Holdoff {
+    pub voltage_v: f64,
+    pub item: String,
+    pub criterion: Criterion,
+    pub criterion_name: String,
+    pub rank: usize,
+}
+
+/// A field line traced for the margins, summarised for the report.
+#[derive(Debug, Clone, Serialize)]
+pub struct LineSummary {
+    pub from: String,
+    pub to: String,
+    pub medium: Medium,
+    pub start_m: [f64; 2],
+    pub end_m: [f64; 2],
+    pub length_m: f64,
+    pub voltage_v: f64,
+    pub samples: usize,
+}
+
+/// All margins of a run.
+#[derive(Debug, Clone, Serialize)]
+pub struct Margins {
+    pub design_factor: f64,
+    pub terminal_voltage_v: f64,
+    pub rows: Vec<MarginRow>,
+    /// Hold-off voltage with the limits as used (derated where gas rows are derated).
+    pub holdoff: Option<Holdoff>,
+    /// Hold-off voltage with every limit ideal.
+    pub holdoff_ideal: Option<Holdoff>,
+    /// How the hold-off voltage was found, and its assumptions.
+    pub holdoff_notes: Vec<String>,
+    pub field_lines: Vec<LineSummary>,
+    /// Checks that could not be made, and why.
+    pub notes: Vec<String>,
+}
+
+impl Margins {
+    /// The worst status of the rows with a number (`Pass` when there are none).
+    pub fn worst_status(&self) -> Status {
+        self.rows
+            .iter()
+            .map(|r| r.status)
+            .filter(|s| *s != Status::OutsideValidity)
+            .min()
+            .unwrap_or(Status::Pass)
+    }
+
+    /// True when any row fails the design factor.
+    pub fn any_fail(&self) -> bool {
+        self.worst_status() == Status::Fail
+    }
+}
+
+fn override_of(model: &Model, key: &str) -> Option<f64> {
+    model
+        .checks
+        .overrides
+        .iter()
+        .find(|(k, _)| k == key)
+        .map(|(_, v)| *v)
+}
+
+/// Names a fixed surface.
+fn name_of(model: &Model, id: u32) -> String {
+    if id == TANK {
+        "tank".to_string()
+    } else {
+        model
+            .conductors
+            .get(id as usize)
+            .map_or_else(|| format!("conductor {id}"), |c| c.name.clone())
+    }
+}
+
+fn end_name(model: &Model, end: LineEnd) -> String {
+    match end {
+        LineEnd::Conductor { index } => name_of(model, index as u32),
+        LineEnd::Tank => "tank".to_string(),
+        LineEnd::Dielectric { index } => format!(
+            "insulator '{}'",
+            model
+                .dielectrics
+                .get(index)
+                .map_or("?", |d| d.name.as_str())
+        ),
+        LineEnd::MediumBoundary => "the edge of the vacuum region".to_string(),
+        LineEnd::Stalled => "no opposite surface".to_string(),
+    }
+}
+
+/// What every row builder needs.
+struct Ctx<'a> {
+    model: &'a Model,
+    design_factor: f64,
+    gas: Option<(Gas, GasState)>,
+    options: GasOptions,
+    study: Option<&'a GridStudy>,
+}
+
+impl Ctx<'_> {
+    fn relative_error(&self, conductor: u32) -> Option<f64> {
+        self.study?
+            .peaks
+            .iter()
+            .find(|p| p.conductor as u32 == conductor)
+            .map(|p| p.relative_error)
+    }
+}
+
+/// Options of a row being built.
+struct RowSpec {
+    item: String,
+    medium: RowMedium,
+    peak: f64,
+    at: Point,
+    numerical_error: Option<f64>,
+    user_set: bool,
+    scaling: Scaling,
+    in_holdoff: bool,
+    note: Option<String>,
+}
+
+fn row(ctx: &Ctx, spec: RowSpec, limit: &Limit) -> MarginRow {
+    let valid = limit.validity.is_valid() && spec.peak.is_finite() && spec.peak > 0.0;
+    let user_set =
+        spec.user_set || limit.mark == Mark::UserSet || limit.derating.mark == Some(Mark::UserSet);
+    let (lim, lim_ideal, margin, margin_ideal, status) = if valid {
+        let m = limit.value / spec.peak;
+        (
+            Some(limit.value),
+            Some(limit.ideal),
+            Some(m),
+            Some(limit.ideal / spec.peak),
+            Status::of(m, ctx.design_factor),
+        )
+    } else {
+        (None, None, None, None, Status::OutsideValidity)
+    };
+    MarginRow {
+        rank: 0,
+        item: spec.item,
+        medium: spec.medium,
+        criterion: limit.criterion,
+        criterion_name: limit.name.clone(),
+        source: limit.source.clone(),
+        mark: limit.mark,
+        kind: limit.kind,
+        peak: spec.peak,
+        limit: lim,
+        limit_ideal: lim_ideal,
+        margin,
+        margin_ideal,
+        derating: limit.derating.clone(),
+        status,
+        at_m: [spec.at.r, spec.at.z],
+        numerical_error: spec.numerical_error,
+        user_set,
+        validity: limit.validity.clone(),
+        scaling: spec.scaling,
+        in_holdoff: spec.in_holdoff,
+        note: spec.note,
+    }
+}
+
+/// A row for a criterion that could not be evaluated: outside validity with the reason.
+fn unavailable(
+    criterion: Criterion,
+    name: &str,
+    kind: LimitKind,
+    reason: String,
+    source: &str,
+) -> Limit {
+    Limit::new(
+        criterion,
+        name,
+        source,
+        Mark::Derived,
+        kind,
+        f64::NAN,
+        Validity::OutsideValidity { reason },
+    )
+}
+
+fn gas_derating(ctx: &Ctx, state: &GasState) -> Result<Derating, MarginError> {
+    if let Some(f) = override_of(ctx.model, "area_derating") {
+        return Derating::user(f, "[checks] area_derating").map_err(|e| MarginError::Override {
+            key: "area_derating",
+            value: f,
+            reason: e.to_string(),
+        });
+    }
+    if state.kind.is_sf6_based() {
+        Ok(Derating::sf6_large_area())
+    } else {
+        Ok(Derating {
+            factor: 1.0,
+            basis: format!(
+                "ideal: the gas table has no area derating for {}; set [checks] area_derating \
+                 to derate",
+                state.kind.label()
+            ),
+            mark: None,
+        })
+    }
+}
+
+fn user_limit(limit: Limit, key: &'static str, value: f64) -> Result<Limit, MarginError> {
+    limit
+        .with_user_value(value)
+        .map_err(|e| MarginError::Override {
+            key,
+            value,
+            reason: e.to_string(),
+        })
+}
+
+/// In-plane radius of curvature of `shape` at the surface point `p`, from the Laplacian of its
+/// signed distance (= 1/R for a distance function); `None` on a flat face or a sharp edge.
+fn local_radius(shape: &Shape, p: Point) -> Option<f64> {
+    let rc = shape.min_radius_of_curvature();
+    if rc.is_nan() || rc <= 0.0 {
+        return None;
+    }
+    let h = 1e-3 * rc;
+    let f = |r: f64, z: f64| shape.sdf(Point::new(r, z));
+    let lap = (f(p.r + h, p.z) + f(p.r - h, p.z) + f(p.r, p.z + h) + f(p.r, p.z - h)
+        - 4.0 * f(p.r, p.z))
+        / (h * h);
+    let scale = shape.scale().max(rc);
+    if !(lap.is_finite() && lap * scale > 1e-2) {
+        return None;
+    }
+    Some(1.0 / lap)
+}
+
+/// The gas rows of one conductor hotspot.
+fn gas_rows(
+    ctx: &Ctx,
+    fm: &FieldMap,
+    hot: &SurfaceSample,
+    lines: &mut Vec<LineSummary>,
+    rows: &mut Vec<MarginRow>,
+) -> Result<(), MarginError> {
+    let Some((gas, state)) = &ctx.gas else {
+        return Ok(());
+    };
+    let model = ctx.model;
+    let name = name_of(model, hot.conductor);
+    let derating = gas_derating(ctx, state)?;
+    let line = fieldline::trace(fm, hot, &TraceParams::default());
+    let reached = !matches!(line.end, LineEnd::Stalled) && line.length_m > 0.0;
+    let to = end_name(model, line.end);
+    lines.push(summary(model, &line, hot, &to));
+    let err = ctx.relative_error(hot.conductor);
+    let gas_label = format!(
+        "{} at {:.3} bar",
+        state.kind.label(),
+        state.pressure_pa / 1e5
+    );
+
+    // 1. Peak surface field against the limiting field: SF6 and its mixtures, the critical
+    // field (the standard SF6 design check); other gases only with a user-set
+    // `gas_field_limit` (their surface checks are the streamer integral and, in air, Peek; the
+    // long-gap limit against a small-radius surface field would mislead).
+    let long_gap = reached
+        && !state.kind.is_sf6_based()
+        && state.reduced_pd(line.length_m) / BAR_CM_PA_M > uniform::SCHUMANN_PD_RANGE_BAR_CM.1;
+    let user_field = override_of(model, "gas_field_limit");
+    if state.kind.is_sf6_based() || user_field.is_some() {
+        let mut limit = uniform::critical_field(gas, &ctx.options)?;
+        let mut user_set = false;
+        if let Some(v) = user_field {
+            limit = user_limit(limit, "gas_field_limit", v)?;
+            user_set = true;
+        }
+        rows.push(row(
+            ctx,
+            RowSpec {
+                item: name.clone(),
+                medium: RowMedium::Gas,
+                peak: hot.e,
+                at: hot.at,
+                numerical_error: err,
+                user_set,
+                scaling: Scaling::Linear,
+                in_holdoff: true,
+                note: Some(format!("peak surface field in {gas_label}")),
+            },
+            &limit.derated(derating.clone()),
+        ));
+    }
+
+    // 2. Streamer integral along the field line.
+    // N2 at tank pressures is in the streamer regime, below the window of its Townsend fit:
+    // the scaled-air model is used there (the stated alternative of the ionisation table).
+    let model_ion =
+        if state.kind == GasKind::N2 && state.reduced_pressure_pa >= N2_SCALED_AIR_FROM_PA {
+            EffectiveIonisation::n2_scaled_air()
+        } else {
+            EffectiveIonisation::for_gas(gas, &ctx.options)?
+        };
+    let profile = line.profile();
+    let streamer_limit = if !reached {
+        unavailable(
+            Criterion::StreamerIntegral,
+            "streamer inception (ionisation integral)",
+            LimitKind::Field,
+            format!("the field line from the hotspot reached {to}"),
+            &model_ion.source,
+        )
+    } else {
+        match streamer::inception(&profile, gas, &model_ion) {
+            Ok(inc) => inc.field_limit(),
+            Err(e) => unavailable(
+                Criterion::StreamerIntegral,
+                "streamer inception (ionisation integral)",
+                LimitKind::Field,
+                e.to_string(),
+                &model_ion.source,
+            ),
+        }
+    };
+    rows.push(row(
+        ctx,
+        RowSpec {
+            item: name.clone(),
+            medium: RowMedium::Gas,
+            peak: hot.e,
+            at: hot.at,
+            numerical_error: err,
+            user_set: false,
+            scaling: Scaling::Bisection,
+            in_holdoff: true,
+            note: Some(format!(
+                "integral along the {:.1} mm field line to {to}; the limit is the surface field \
+                 at inception",
+                line.length_m * 1e3
+            )),
+        },
+        &streamer_limit.derated(derating.clone()),
+    ));
+
+    // 3. Gap voltage against the uniform-field breakdown of the same gap.
+    if reached && line.voltage_v > 0.0 {
+        let gap_limit = if long_gap {
+            let crit = uniform::critical_field(gas, &ctx.options)?;
+            Limit::new(
+                crit.criterion,
+                format!(
+                    "long-gap uniform-field limit ({} x field-line length; pd above the \
+                     Schumann range)",
+                    crit.name
+                ),
+                crit.source.clone(),
+                crit.mark,
+                LimitKind::Voltage,
+                crit.ideal * line.length_m,
+                crit.validity.clone(),
+            )
+        } else {
+            match uniform::uniform_breakdown(gas, line.length_m, &ctx.options) {
+                Ok(u) => u.voltage,
+                Err(e) => unavailable(
+                    Criterion::Paschen,
+                    "uniform-field gap breakdown",
+                    LimitKind::Voltage,
+                    e.to_string(),
+                    "REFERENCES.md §1-3",
+                ),
+            }
+        };
+        let mut note = format!(
+            "voltage across the {:.1} mm field-line gap to {to}; the uniform-field value is an \
+             upper bound for a non-uniform gap (the streamer row covers that)",
+            line.length_m * 1e3
+        );
+        if matches!(line.end, LineEnd::Dielectric { .. }) {
+            note.push_str("; the line ends on an insulator surface, not an electrode");
+        }
+        rows.push(row(
+            ctx,
+            RowSpec {
+                item: format!("gap {name} → {to}"),
+                medium: RowMedium::Gas,
+                peak: line.voltage_v,
+                at: hot.at,
+                numerical_error: None,
+                user_set: false,
+                scaling: Scaling::Linear,
+                in_holdoff: true,
+                note: Some(note),
+            },
+            &gap_limit.derated(derating.clone()),
+        ));
+    }
+
+    // 4. Corona onset in air (Peek) at the local radius of curvature.
+    if state.kind == GasKind::Air && hot.conductor != TANK {
+        let shape = &model.conductors[hot.conductor as usize].shape;
+        let (m, m_user) = match override_of(model, "corona_surface_factor") {
+            Some(v) => (v, true),
+            None => (DEFAULT_CORONA_SURFACE_FACTOR, false),
+        };
+        let geometry = match shape {
+            Shape::Sphere { .. } => PeekGeometry::Sphere,
+            _ => PeekGeometry::Coaxial,
+        };
+        let peek = match local_radius(shape, hot.at) {
+            Some(radius) => {
+                let mut l = corona::onset_field_in_gas(geometry, radius, gas, m).map_err(|e| {
+                    MarginError::Override {
+                        key: "corona_surface_factor",
+                        value: m,
+                        reason: e.to_string(),
+                    }
+                })?;
+                l.name = format!("{} at local radius {:.2} mm", l.name, radius * 1e3);
+                if m_user {
+                    l.source = format!("{}; surface factor m = {m}, user-set", l.source);
+                }
+                l
+            }
+            None => unavailable(
+                Criterion::PeekCorona,
+                "Peek corona onset",
+                LimitKind::Field,
+                "the hotspot is on a flat face or a sharp edge: Peek's law needs a finite \
+                 conductor radius"
+                    .to_string(),
+                "Peek (1929), REFERENCES.md §5",
+            ),
+        };
+        let note = match geometry {
+            PeekGeometry::Sphere => "Peek's sphere form",
+            _ => "Peek's coaxial (cylinder) form at the in-plane radius of the hotspot",
+        };
+        rows.push(row(
+            ctx,
+            RowSpec {
+                item: name,
+                medium: RowMedium::Gas,
+                peak: hot.e,
+                at: hot.at,
+                numerical_error: err,
+                user_set: m_user,
+                scaling: Scaling::Linear,
+                in_holdoff: true,
+                note: Some(note.to_string()),
+            },
+            &peek,
+        ));
+    }
+    Ok(())
+}
+
+fn summary(model: &Model, line: &FieldLine, from: &SurfaceSample, to: &str) -> LineSummary {
+    let end = line.samples.last().map_or(from.at, |s| s.at);
+    LineSummary {
+        from: name_of(model, from.conductor),
+        to: to.to_string(),
+        medium: line.medium,
+        start_m: [from.at.r, from.at.z],
+        end_m: [end.r, end.z],
+        length_m: line.length_m,
+        voltage_v: line.voltage_v,
+        samples: line.samples.len(),
+    }
+}
+
+/// The vacuum rows of one cathodic hotspot.
+fn vacuum_rows(
+    ctx: &Ctx,
+    fm: &FieldMap,
+    hot: &SurfaceSample,
+    lines: &mut Vec<LineSummary>,
+    rows: &mut Vec<MarginRow>,
+) -> Result<(), MarginError> {
+    let model = ctx.model;
+    let name = name_of(model, hot.conductor);
+    let err = ctx.relative_error(hot.conductor);
+    let (c, c_user) = match override_of(model, "cranberg_constant") {
+        Some(v) => (v, true),
+        None => (vacuum::CRANBERG_C_DEFAULT, false),
+    };
+    let bad_c = |e: BreakdownError| MarginError::Override {
+        key: "cranberg_constant",
+        value: c,
+        reason: e.to_string(),
+    };
+
+    // 1. Cathode surface field.
+    let mut limit = vacuum::cathode_surface_field_limit(CathodeClass::LargeArea);
+    let mut user_set = false;
+    if let Some(v) = override_of(model, "vacuum_field_limit") {
+        limit = user_limit(limit, "vacuum_field_limit", v)?;
+        user_set = true;
+    }
+    rows.push(row(
+        ctx,
+        RowSpec {
+            item: format!("{name} (cathode)"),
+            medium: RowMedium::Vacuum,
+            peak: hot.e,
+            at: hot.at,
+            numerical_error: err,
+            user_set,
+            scaling: Scaling::Linear,
+            in_holdoff: true,
+            note: Some("peak cathodic surface field in vacuum".to_string()),
+        },
+        &limit,
+    ));
+
+    let line = fieldline::trace(fm, hot, &TraceParams::default());
+    let to = end_name(model, line.end);
+    lines.push(summary(model, &line, hot, &to));
+    let reached = matches!(line.end, LineEnd::Conductor { .. } | LineEnd::Tank)
+        && line.length_m > 0.0
+        && line.voltage_v > 0.0;
+    let gap_item = format!("vacuum gap {name} → {to}");
+
+    // 2. Total-voltage effect: gap voltage against V = k d^alpha (Cranberg's case by default).
+    let fit = TotalVoltageFit::cranberg(c).map_err(bad_c)?;
+    let tv = if reached {
+        fit.voltage(line.length_m).map_err(bad_c)?
+    } else {
+        unavailable(
+            Criterion::TotalVoltage,
+            "total-voltage fit",
+            LimitKind::Voltage,
+            format!("the field line from the cathode reached {to}, not an electrode"),
+            &fit.source,
+        )
+    };
+    let gap_note = format!(
+        "voltage across the {:.1} mm vacuum field-line gap to {to}",
+        line.length_m * 1e3
+    );
+    rows.push(row(
+        ctx,
+        RowSpec {
+            item: gap_item.clone(),
+            medium: RowMedium::Vacuum,
+            peak: line.voltage_v,
+            at: hot.at,
+            numerical_error: None,
+            user_set: c_user,
+            scaling: Scaling::Linear,
+            in_holdoff: true,
+            note: Some(gap_note.clone()),
+        },
+        &tv,
+    ));
+
+    // 3. Cranberg's V·E = C, in voltage form.
+    let cr = if reached {
+        let scale = (c / (line.voltage_v * hot.e)).sqrt();
+        let v_lim = scale * line.voltage_v;
+        let f = vacuum::cranberg_field_limit(v_lim, c).map_err(bad_c)?;
+        let gap = vacuum::cranberg_gap_voltage(line.length_m, c).map_err(bad_c)?;
+        let mut l = Limit::new(
+            Criterion::Cranberg,
+            format!(
+                "Cranberg V x E = C (C = {c:.2e} V^2/m): gap voltage at which V x E_cathode \
+                 reaches C"
+            ),
+            f.source.clone(),
+            f.mark,
+            LimitKind::Voltage,
+            v_lim,
+            f.validity.clone(),
+        );
+        // Only the gap-length range of the supporting data is added (the voltage range is
+        // checked at the limit itself).
+        if let Validity::OutsideValidity { reason } = gap.validity
+            && reason.starts_with("gap")
+        {
+            l.validity = l.validity.and(Validity::OutsideValidity { reason });
+        }
+        l
+    } else {
+        unavailable(
+            Criterion::Cranberg,
+            "Cranberg V x E criterion",
+            LimitKind::Voltage,
+            format!("the field line from the cathode reached {to}, not an electrode"),
+            "Cranberg, J. Appl. Phys. 23, 518 (1952)",
+        )
+    };
+    rows.push(row(
+        ctx,
+        RowSpec {
+            item: gap_item,
+            medium: RowMedium::Vacuum,
+            peak: line.voltage_v,
+            at: hot.at,
+            numerical_error: err,
+            user_set: c_user,
+            scaling: Scaling::SquareRoot,
+            in_holdoff: true,
+            note: Some(format!(
+                "{gap_note}; cathode field {:.3} MV/m; margin sqrt(C/(V E))",
+                hot.e / 1e6
+            )),
+        },
+        &cr,
+    ));
+    Ok(())
+}
+
+/// The surface-flashover limit of an insulator side.
+fn surface_limit(
+    ctx: &Ctx,
+    side: Medium,
+    length_m: f64,
+) -> Result<Option<(Limit, bool)>, MarginError> {
+    match side {
+        Medium::Vacuum => {
+            let l = insulator::vacuum_surface_limit(VacuumSurface::Plain);
+            Ok(Some(
+                match override_of(ctx.model, "insulator_vacuum_limit") {
+                    Some(v) => (user_limit(l, "insulator_vacuum_limit", v)?, true),
+                    None => (l, false),
+                },
+            ))
+        }
+        Medium::Gas => {
+            let Some((gas, _)) = &ctx.gas else {
+                return Ok(None);
+            };
+            let fraction = override_of(ctx.model, "insulator_gas_fraction");
+            let l = insulator::gas_surface_limit(gas, length_m, fraction, &ctx.options).map_err(
+                |e| match fraction {
+                    Some(f) => MarginError::Override {
+                        key: "insulator_gas_fraction",
+                        value: f,
+                        reason: e.to_string(),
+                    },
+                    None => MarginError::Breakdown(e),
+                },
+            )?;
+            Ok(Some((l, fraction.is_some())))
+        }
+        Medium::Dielectric { .. } => Ok(None),
+    }
+}
+
+/// Insulator surface rows (tangential field) and triple-junction rows of one dielectric.
+fn insulator_rows(
+    ctx: &Ctx,
+    fm: &FieldMap,
+    index: usize,
+    samples: &[SurfaceSample],
+    rows: &mut Vec<MarginRow>,
+) -> Result<(), MarginError> {
+    let model = ctx.model;
+    let diel = &model.dielectrics[index];
+    let b = diel.shape.bbox();
+    let tank = model.tank.bbox();
+    // The flashover path: the insulator's longer extent inside the tank (conservative for the
+    // gas limit, which falls with length).
+    let length = (b.z_max.min(tank.z_max) - b.z_min.max(tank.z_min))
+        .max(b.r_max.min(tank.r_max) - b.r_min.max(tank.r_min))
+        .max(fm.mesh.cell);
+    let surface: Vec<InsulatorSample> = fm.insulator_samples(index);
+    for side in [Medium::Gas, Medium::Vacuum] {
+        let Some(peak) = surface
+            .iter()
+            .filter(|s| s.side == side)
+            .max_by(|a, b| a.e_tangential.total_cmp(&b.e_tangential))
+        else {
+            continue;
+        };
+        let Some((limit, user_set)) = surface_limit(ctx, side, length)? else {
+            continue;
+        };
+        let medium = if side == Medium::Vacuum {
+            RowMedium::InsulatorVacuumSide
+        } else {
+            RowMedium::InsulatorGasSide
+        };
+        rows.push(row(
+            ctx,
+            RowSpec {
+                item: diel.name.clone(),
+                medium,
+                peak: peak.e_tangential,
+                at: peak.at,
+                numerical_error: None,
+                user_set,
+                scaling: Scaling::Linear,
+                in_holdoff: true,
+                note: Some(format!(
+                    "peak tangential field along the surface ({:.0} mm flashover length)",
+                    length * 1e3
+                )),
+            },
+            &limit,
+        ));
+    }
+
+    // Triple junctions: conductor surface samples in gas or vacuum within 1.5 cells of this
+    // insulator; per conductor and side the highest field.
+    let reach = 1.5 * fm.mesh.cell;
+    let mut best: Vec<(u32, Medium, SurfaceSample)> = Vec::new();
+    for s in samples {
+        if s.conductor == TANK || !matches!(s.medium, Medium::Gas | Medium::Vacuum) {
+            continue;
+        }
+        if diel.shape.sdf(s.at).abs() > reach {
+            continue;
+        }
+        match best
+            .iter_mut()
+            .find(|(c, m, _)| *c == s.conductor && *m == s.medium)
+        {
+            Some(entry) if entry.2.e < s.e => entry.2 = *s,
+            Some(_) => {}
+            None => best.push((s.conductor, s.medium, *s)),
+        }
+    }
+    for (conductor, side, s) in best {
+        let Some((limit, user_set)) = surface_limit(ctx, side, length)? else {
+            continue;
+        };
+        let err = ctx
+            .relative_error(conductor)
+            .filter(|_| is_conductor_peak(samples, &s));
+        let flag = insulator::classify_triple_junction(s.e, limit.value, err, s.e_normal < 0.0)?;
+        let mut limit = limit;
+        if flag.class == JunctionClass::Unresolved {
+            limit.validity = limit.validity.and(Validity::OutsideValidity {
+                reason: flag.note.clone(),
+            });
+        }
+        let medium = if side == Medium::Vacuum {
+            RowMedium::TripleJunctionVacuum
+        } else {
+            RowMedium::TripleJunctionGas
+        };
+        rows.push(row(
+            ctx,
+            RowSpec {
+                item: format!("{} / {}", name_of(model, conductor), diel.name),
+                medium,
+                peak: s.e,
+                at: s.at,
+                numerical_error: err,
+                user_set,
+                scaling: Scaling::Linear,
+                in_holdoff: false,
+                note: Some(format!(
+                    "field at the triple junction {:.3} MV/m: {} (a flag, not in the hold-off \
+                     voltage: the field there depends on the contact geometry and the grid)",
+                    s.e / 1e6,
+                    flag.note
+                )),
+            },
+            &limit,
+        ));
+    }
+    Ok(())
+}
+
+fn is_conductor_peak(samples: &[SurfaceSample], s: &SurfaceSample) -> bool {
+    samples
+        .iter()
+        .filter(|o| o.conductor == s.conductor)
+        .all(|o| o.e <= s.e)
+}
+
+/// The highest-field sample of each conductor in `medium` (cathodic only, when asked).
+fn hotspots(model: &Model, samples: &[SurfaceSample], gas: bool) -> Vec<SurfaceSample> {
+    let mut best: Vec<Option<SurfaceSample>> = vec![None; model.conductors.len()];
+    for s in samples {
+        if s.conductor == TANK || !(s.e.is_finite() && s.e > 0.0) {
+            continue;
+        }
+        let wanted = if gas {
+            s.medium == Medium::Gas
+        } else {
+            s.medium == Medium::Vacuum && s.e_normal < 0.0
+        };
+        if !wanted {
+            continue;
+        }
+        let slot = &mut best[s.conductor as usize];
+        if slot.is_none_or(|b| s.e > b.e) {
+            *slot = Some(*s);
+        }
+    }
+    best.into_iter().flatten().collect()
+}
+
+/// Ranks rows worst first (rows with a margin by margin, then the rows outside validity) and
+/// numbers them.
+pub fn rank(rows: &mut [MarginRow]) {
+    rows.sort_by(|a, b| match (a.margin, b.margin) {
+        (Some(x), Some(y)) => x.total_cmp(&y),
+        (Some(_), None) => std::cmp::Ordering::Less,
+        (None, Some(_)) => std::cmp::Ordering::Greater,
+        (None, None) => std::cmp::Ordering::Equal,
+    });
+    for (k, r) in rows.iter_mut().enumerate() {
+        r.rank = k + 1;
+    }
+}
+
+/// The hold-off voltage: the terminal voltage times the smallest margin (as used, or ideal) of
+/// the rows that enter it.
+pub fn holdoff(rows: &[MarginRow], terminal_voltage_v: f64, ideal: bool) -> Option<Holdoff> {
+    rows.iter()
+        .filter(|r| r.in_holdoff)
+        .filter_map(|r| {
+            let m = if ideal { r.margin_ideal } else { r.margin }?;
+            Some((m, r))
+        })
+        .min_by(|a, b| a.0.total_cmp(&b.0))
+        .map(|(m, r)| Holdoff {
+            voltage_v: m * terminal_voltage_v,
+            item: r.item.clone(),
+            criterion: r.criterion,
+            criterion_name: r.criterion_name.clone(),
+            rank: r.rank,
+        })
+}
+
+/// Evaluates every check of the model on its fine analysis.
+pub fn evaluate(
+    model: &Model,
+    fine: &Analysis,
+    study: Option<&GridStudy>,
+) -> Result<Margins, MarginError> {
+    let fm = FieldMap::new(&fine.mesh, model, &fine.solution.phi, &fine.potentials);
+    let gas = match &model.gas {
+        Some(g) => Some((g.clone(), GasState::resolve(g)?)),
+        None => None,
+    };
+    let ctx = Ctx {
+        model,
+        design_factor: model.checks.design_factor,
+        gas,
+        options: GasOptions::default(),
+        study,
+    };
+    let mut rows = Vec::new();
+    let mut lines = Vec::new();
+    let mut notes = Vec::new();
+    let gas_hot = hotspots(model, &fine.samples, true);
+    if ctx.gas.is_none() && !gas_hot.is_empty() {
+        notes.push(
+            "the design has no [gas] table: conductor surfaces outside vacuum regions and \
+             dielectrics were not checked against gas criteria"
+                .to_string(),
+        );
+    } else {
+        for hot in &gas_hot {
+            gas_rows(&ctx, &fm, hot, &mut lines, &mut rows)?;
+        }
+    }
+    for hot in hotspots(model, &fine.samples, false) {
+        vacuum_rows(&ctx, &fm, &hot, &mut lines, &mut rows)?;
+    }
+    for index in 0..model.dielectrics.len() {
+        insulator_rows(&ctx, &fm, index, &fine.samples, &mut rows)?;
+    }
+    rank(&mut rows);
+
+    let v = model.terminal_voltage;
+    let mut holdoff_notes = vec![
+        "the field scales with the terminal voltage, so each row's margin is the factor to its \
+         criterion (limit/peak; sqrt(C/(V E)) for Cranberg; the inception factor by bisection \
+         for the streamer integral); the hold-off voltage is the terminal voltage times the \
+         smallest margin of the rows that enter it"
+            .to_string(),
+        "rows outside validity and triple-junction flags do not enter the hold-off voltage"
+            .to_string(),
+    ];
+    let fixed: Vec<&str> = model
+        .conductors
+        .iter()
+        .filter(|c| match c.potential {
+            PotentialSpec::Absolute { volts } => volts != 0.0,
+            PotentialSpec::Stage { .. } => true,
+            _ => false,
+        })
+        .map(|c| c.name.as_str())
+        .collect();
+    if !fixed.is_empty() {
+        holdoff_notes.push(format!(
+            "assumption: {} conductor(s) at fixed potentials (absolute volts or multiplier \
+             stages: {}) are scaled with the terminal voltage as well",
+            fixed.len(),
+            fixed.join(", ")
+        ));
+    }
+    let (h, hi) = if v > 0.0 && v.is_finite() {
+        (holdoff(&rows, v, false), holdoff(&rows, v, true))
+    } else {
+        holdoff_notes.push(format!(
+            "no hold-off voltage: the terminal voltage is {v} V; the scaling needs a positive \
+             terminal voltage"
+        ));
+        (None, None)
+    };
+    if h.is_none() && v > 0.0 {
+        holdoff_notes.push("no row with a number enters the hold-off voltage".to_string());
+    }
+    Ok(Margins {
+        design_factor: model.checks.design_factor,
+        terminal_voltage_v: v,
+        rows,
+        holdoff: h,
+        holdoff_ideal: hi,
+        holdoff_notes,
+        field_lines: lines,
+        notes,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn status_bands() {
+        assert_eq!(Status::of(1.49, 1.5), Status::Fail);
+        assert_eq!(Status::of(1.5, 1.5), Status::Review);
+        assert_eq!(Status::of(1.64, 1.5), Status::Review);
+        assert_eq!(Status::of(1.66, 1.5), Status::Pass);
+    }
+
+    fn sample(margin: Option<f64>, in_holdoff: bool) -> MarginRow {
+        MarginRow {
+            rank: 0,
+            item: format!("{margin:?}"),
+            medium: RowMedium::Gas,
+            criterion: Criterion::CriticalField,
+            criterion_name: String::new(),
+            source: String::new(),
+            mark: Mark::Derived,
+            kind: LimitKind::Field,
+            peak: 1.0,
+            limit: margin,
+            limit_ideal: margin.map(|m| 2.0 * m),
+            margin,
+            margin_ideal: margin.map(|m| 2.0 * m),
+            derating: Derating::none(),
+            status: margin.map_or(Status::OutsideValidity, |m| Status::of(m, 1.5)),
+            at_m: [0.0, 0.0],
+            numerical_error: None,
+            user_set: false,
+            validity: Validity::Valid,
+            scaling: Scaling::Linear,
+            in_holdoff,
+            note: None,
+        }
+    }
+
+    #[test]
+    fn ranking_puts_rows_without_a_number_last() {
+        let mut rows = vec![
+            sample(None, true),
+            sample(Some(3.0), true),
+            sample(Some(0.5), false),
+            sample(Some(2.0), true),
+        ];
+        rank(&mut rows);
+        let ms: Vec<Option<f64>> = rows.iter().map(|r| r.margin).collect();
+        assert_eq!(ms, vec![Some(0.5), Some(2.0), Some(3.0), None]);
+        assert_eq!(rows[3].rank, 4);
+        // The flag row (0.5) does not enter the hold-off; the ideal one uses the ideal margins.
+        let h = holdoff(&rows, 100.0, false).unwrap();
+        assert_eq!(h.voltage_v, 200.0);
+        assert_eq!(h.rank, 2);
+        assert_eq!(holdoff(&rows, 100.0, true).unwrap().voltage_v, 400.0);
+    }
+}
