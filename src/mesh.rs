@@ -458,6 +458,8 @@ pub struct Mesh {
     pub eps_z_link: Vec<f64>,
     /// Relative permittivity at each node (for field evaluation and plots).
     pub eps_node: Vec<f64>,
+    /// ln(r[i+1]/r[i]) for every radial link off the axis (0 for the link from the axis).
+    pub r_log: Vec<f64>,
     /// Number of conductors in the model.
     pub n_conductors: usize,
     /// Spacing controls used.
@@ -519,6 +521,10 @@ impl Mesh {
             ));
         };
         let nodes = r.len() * z.len();
+        let r_log =
+            r.x.windows(2)
+                .map(|w| if w[0] > 0.0 { (w[1] / w[0]).ln() } else { 0.0 })
+                .collect();
         let mut mesh = Mesh {
             fixed: vec![FREE; nodes],
             cuts: vec![[None; 4]; nodes],
@@ -526,6 +532,7 @@ impl Mesh {
             eps_z_link: vec![1.0; nodes],
             eps_node: vec![1.0; nodes],
             n_conductors: model.conductors.len(),
+            r_log,
             cell: spec.cell,
             r,
             z,

@@ -641,38 +641,46 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -
         .filter(|(s, _, _)| !f.st[*s as usize].is_empty())
         .map(|&(s, di, dj)| (s as usize, di as i64, dj as i64))
         .collect();
-    for j in 0..f.nz {
-        for i in 0..f.nr {
-            let p = f.p(i, j);
-            if f.mask[p] == 0.0 {
-                continue;
-            }
-            let (pri, nri) = pr[i];
-            let (pzj, nzj) = pz[j];
-            for &(slot, di, dj) in &slots {
-                let a = f.st[slot][p] as f64;
-                if a == 0.0 {
+    // Fine rows whose z-parents include each coarse row; every coarse row of the product is
+    // then gathered independently, in parallel.
+    let mut rows_of: Vec<Vec<(usize, f64)>> = vec![Vec::new(); cnz];
+    for (j, (pzj, nzj)) in pz.iter().enumerate() {
+        for &(cjf, wjf) in &pzj[..*nzj] {
+            rows_of[cjf].push((j, wjf));
+        }
+    }
+    let live_ref = &live;
+    let gather = |cjf: usize, acc_row: &mut [[f64; 9]]| {
+        for &(j, wjf) in &rows_of[cjf] {
+            for i in 0..f.nr {
+                let p = f.p(i, j);
+                if f.mask[p] == 0.0 {
                     continue;
                 }
-                // Neighbours outside the grid have zero coefficients, so (gi, gj) is inside.
-                let (gi, gj) = ((i as i64 + di) as usize, (j as i64 + dj) as usize);
-                if f.mask[f.p(gi, gj)] == 0.0 {
-                    continue;
-                }
-                let (prg, nrg) = pr[gi];
-                let (pzg, nzg) = pz[gj];
-                for &(cjf, wjf) in &pzj[..nzj] {
+                let (pri, nri) = pr[i];
+                for &(slot, di, dj) in &slots {
+                    let a = f.st[slot][p] as f64;
+                    if a == 0.0 {
+                        continue;
+                    }
+                    // Neighbours outside the grid have zero coefficients, so (gi, gj) is
+                    // inside.
+                    let (gi, gj) = ((i as i64 + di) as usize, (j as i64 + dj) as usize);
+                    if f.mask[f.p(gi, gj)] == 0.0 {
+                        continue;
+                    }
+                    let (prg, nrg) = pr[gi];
+                    let (pzg, nzg) = pz[gj];
                     for &(cif, wif) in &pri[..nri] {
-                        let row_k = cjf * cnr + cif;
-                        if !live[row_k] {
+                        if !live_ref[cjf * cnr + cif] {
                             continue;
                         }
                         let wa = wif * wjf * a;
-                        let row = &mut acc[row_k];
+                        let row = &mut acc_row[cif];
                         for &(cjg, wjg) in &pzg[..nzg] {
                             let oj = cjg + 1 - cjf;
                             for &(cig, wig) in &prg[..nrg] {
-                                if !live[cjg * cnr + cig] {
+                                if !live_ref[cjg * cnr + cig] {
                                     continue;
                                 }
                                 let oi = cig + 1 - cif;
@@ -682,6 +690,15 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -
                     }
                 }
             }
+        }
+    };
+    if f.nr * f.nz >= PARALLEL_NODES {
+        acc.par_chunks_mut(cnr)
+            .enumerate()
+            .for_each(|(cjf, acc_row)| gather(cjf, acc_row));
+    } else {
+        for (cjf, acc_row) in acc.chunks_mut(cnr).enumerate() {
+            gather(cjf, acc_row);
         }
     }
     remove_singular(&mut acc, &mut live, cnr, cnz, &slot_table);

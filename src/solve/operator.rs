@@ -107,11 +107,20 @@ pub fn node_coeffs(mesh: &Mesh, k: usize, scheme: Scheme) -> NodeCoeffs {
             mid * dz / l
         }
     };
+    // Whole links take ln(r₂/r₁) from the table kept with the axis.
     if h[0] > 0.0 {
-        c[0] = eps[0] * shell(ri, ri + len[0], re, len[0]);
+        c[0] = if theta[0] == 1.0 && ri > 0.0 {
+            eps[0] * dz / mesh.r_log[i]
+        } else {
+            eps[0] * shell(ri, ri + len[0], re, len[0])
+        };
     }
     if h[1] > 0.0 {
-        c[1] = eps[1] * shell(ri - len[1], ri, rw, len[1]);
+        c[1] = if theta[1] == 1.0 && r[i - 1] > 0.0 {
+            eps[1] * dz / mesh.r_log[i - 1]
+        } else {
+            eps[1] * shell(ri - len[1], ri, rw, len[1])
+        };
     }
     for d in 2..4 {
         if h[d] > 0.0 {
