@@ -40,6 +40,9 @@
 //! assert!((peak - 2.0e6).abs() / 2.0e6 < 1e-3);
 //! ```
 
+// No unwrap or expect in library code: user data must end in errors, never in a panic.
+#![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used))]
+
 pub mod analysis;
 pub mod benchmark;
 pub mod breakdown;

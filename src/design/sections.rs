@@ -165,6 +165,16 @@ pub(crate) fn read_gas(rd: &mut Reader, g: &Spanned<RawGas>) -> Option<Gas> {
         |x| x > 0.0,
         "must be greater than zero (pressures are absolute)",
     );
+    // Outside these bounds no gas criterion of holdoff is applied (common practice for
+    // insulating gases in accelerator tanks; the fits themselves are narrower, and each row
+    // states its own validity).
+    let p = rd.check(
+        p,
+        raw.pressure.as_ref(),
+        "gas.pressure",
+        |x| (GAS_PRESSURE_PA.0..=GAS_PRESSURE_PA.1).contains(&x),
+        "is outside 1 mbar to 100 bar absolute, where holdoff's gas criteria are applied",
+    );
     let t = rd.req_quantity(&raw.temperature, &at, "temperature", Dimension::Temperature);
     let t = rd.check(
         t,
@@ -172,6 +182,13 @@ pub(crate) fn read_gas(rd: &mut Reader, g: &Spanned<RawGas>) -> Option<Gas> {
         "gas.temperature",
         |x| x > 0.0,
         "is at or below absolute zero",
+    );
+    let t = rd.check(
+        t,
+        raw.temperature.as_ref(),
+        "gas.temperature",
+        |x| (GAS_TEMPERATURE_K.0..=GAS_TEMPERATURE_K.1).contains(&x),
+        "is outside -100 degC to 200 degC, where holdoff's gas criteria are applied",
     );
     let (species, components) = species?;
     Some(Gas {
@@ -181,6 +198,11 @@ pub(crate) fn read_gas(rd: &mut Reader, g: &Spanned<RawGas>) -> Option<Gas> {
         temperature_k: t?,
     })
 }
+
+/// Gas pressures accepted, Pa (1 mbar to 100 bar absolute).
+pub const GAS_PRESSURE_PA: (f64, f64) = (1e2, 1e7);
+/// Gas temperatures accepted, K (−100 °C to 200 °C).
+pub const GAS_TEMPERATURE_K: (f64, f64) = (173.15, 473.15);
 
 /// A mixture `{ SF6 = 0.5, N2 = 0.5 }` (mole fractions, numbers or percentages) summing to 1.
 pub(crate) fn read_mixture(
