@@ -44,6 +44,15 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
     }
 }
 
+/// (r̂₀, v) with the shadow vector held in single precision.
+fn dot_shadow(a: &[f32], b: &[f64]) -> f64 {
+    if a.len() >= PARALLEL_LEN {
+        a.par_iter().zip(b).map(|(&x, y)| x as f64 * y).sum()
+    } else {
+        a.iter().zip(b).map(|(&x, y)| x as f64 * y).sum()
+    }
+}
+
 /// y += a·x and z += b·w in one pass.
 fn axpy2(y: &mut [f64], a: f64, x: &[f64], z: &mut [f64], b: f64, w: &[f64]) {
     if y.len() >= PARALLEL_LEN {
@@ -166,7 +175,8 @@ pub fn bicgstab(
     if let Some(info) = converged_at(rn, bnorm, 0, params) {
         return info;
     }
-    let r0 = r.clone();
+    // The shadow residual only has to stay fixed; single precision halves its memory.
+    let r0: Vec<f32> = r.iter().map(|&v| v as f32).collect();
     let mut p = vec![0.0; n];
     let mut v = vec![0.0; n];
     let mut hat = vec![0.0; n];
@@ -181,7 +191,7 @@ pub fn bicgstab(
         })
     };
     for it in 1..=params.max_iterations {
-        let rho_new = dot(&r0, &r);
+        let rho_new = dot_shadow(&r0, &r);
         if rho_new == 0.0 || !rho_new.is_finite() {
             break;
         }
@@ -193,7 +203,7 @@ pub fn bicgstab(
             .for_each(|(pk, (rk, vk))| *pk = rk + beta * (*pk - omega * vk));
         mg.apply(&p, &mut hat);
         op.apply(&hat, &mut v);
-        let r0v = dot(&r0, &v);
+        let r0v = dot_shadow(&r0, &v);
         if r0v == 0.0 || !r0v.is_finite() {
             break;
         }

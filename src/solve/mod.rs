@@ -127,13 +127,14 @@ impl Solver {
             });
         }
         let n = b.len();
-        // Right-hand side, solution and the Krylov work vectors.
-        let vectors = match self.params.scheme {
-            Scheme::Symmetric => 6,
-            Scheme::ShortleyWeller => 8,
+        // Right-hand side, solution and the Krylov work vectors (BiCGStab's shadow residual
+        // in single precision).
+        let vector_bytes = match self.params.scheme {
+            Scheme::Symmetric => 6 * 8,
+            Scheme::ShortleyWeller => 7 * 8 + 4,
         };
         let memory_bytes =
-            self.op.matrix.nnz() * 12 + (n + 1) * 4 + self.mg.bytes() + vectors * 8 * n;
+            self.op.matrix.nnz() * 12 + (n + 1) * 4 + self.mg.bytes() + vector_bytes * n;
         let unknowns = self
             .op
             .fixed

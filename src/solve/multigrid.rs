@@ -66,15 +66,14 @@ struct Level {
     /// `nine` is false.
     st: [Vec<f32>; 9],
     /// 1 on nodes that take corrections, 0 on fixed ones; padded.
-    mask: Vec<f32>,
+    mask: Vec<u8>,
     map: Option<(AxisMap, AxisMap)>,
     x: Vec<f32>,
     b: Vec<f32>,
     /// Scratch: line right-hand sides during relaxation, the residual after it.
     dp: Vec<f32>,
-    /// Reciprocal Thomas pivots of the r-lines and of the z-lines, computed once; the upper
-    /// factors are the east (north) coefficients times these.
-    r_inv: Vec<f32>,
+    /// Reciprocal Thomas pivots of the z-lines, computed once (the upper factors are the north
+    /// coefficients times these); r-line pivots are formed during each solve.
     z_inv: Vec<f32>,
 }
 
@@ -147,30 +146,19 @@ impl Level {
             pw,
             nine,
             st,
-            mask: full(),
+            mask: vec![0u8; np],
             map: None,
             x: full(),
             b: full(),
             dp: full(),
-            r_inv: full(),
             z_inv: full(),
         }
     }
 
-    /// Factors every r-line and z-line tridiagonal block once.
+    /// Factors every z-line tridiagonal block once.
     fn factor(&mut self) {
         let (nr, nz, pw) = (self.nr, self.nz, self.pw);
-        let [c, w, e, s, n, ..] = &self.st;
-        for j in 0..nz {
-            let base = (j + 1) * pw + 1;
-            let mut up_prev = 0.0f32;
-            for p in base..base + nr {
-                let m = c[p] - w[p] * up_prev;
-                let inv = 1.0 / m;
-                self.r_inv[p] = inv;
-                up_prev = e[p] * inv;
-            }
-        }
+        let [c, _, _, s, n, ..] = &self.st;
         for i in 0..nr {
             let mut up_prev = 0.0f32;
             for j in 0..nz {
@@ -191,7 +179,7 @@ impl Level {
     fn bytes(&self) -> usize {
         let np = self.pw * (self.nz + 2);
         let slots = if self.nine { 9 } else { 5 };
-        np * 4 * (slots + 6)
+        np * 4 * (slots + 4) + np
     }
 
     /// Exact solves on every r-line of one colour (j ≡ colour mod 2); the lines of one colour
@@ -200,7 +188,6 @@ impl Level {
         let (nr, pw, nz, nine) = (self.nr, self.pw, self.nz, self.nine);
         let st = &self.st;
         let b = &self.b;
-        let inv = &self.r_inv;
         let x = Shared(self.x.as_mut_ptr());
         let dp = Shared(self.dp.as_mut_ptr());
         let line = |j: usize| {
@@ -217,7 +204,7 @@ impl Level {
                     std::slice::from_raw_parts_mut(dp.get().add(base), nr),
                 )
             };
-            relax_one_r_line(st, b, inv, base, nr, nine, xd, xu, xrow, out);
+            relax_one_r_line(st, b, base, nr, nine, xd, xu, xrow, out);
         };
         let lines = (colour..nz).step_by(2);
         if nr * nz >= PARALLEL_NODES {
@@ -374,11 +361,7 @@ impl Multigrid {
                 };
                 l.st[slot as usize][p] = val[q] as f32;
             }
-            l.mask[p] = if op.fixed[k] == crate::mesh::FREE {
-                1.0
-            } else {
-                0.0
-            };
+            l.mask[p] = u8::from(op.fixed[k] == crate::mesh::FREE);
         }
         l.factor();
         l
@@ -541,7 +524,7 @@ fn restrict(f: &Level, c: &mut Level) {
         let base = (j + 1) * f.pw + 1;
         for i in 0..f.nr {
             let p = base + i;
-            let rv = f.dp[p] * f.mask[p];
+            let rv = if f.mask[p] != 0 { f.dp[p] } else { 0.0 };
             if rv == 0.0 {
                 continue;
             }
@@ -554,7 +537,9 @@ fn restrict(f: &Level, c: &mut Level) {
         }
     }
     for (v, m) in c.b.iter_mut().zip(&c.mask) {
-        *v *= m;
+        if *m == 0 {
+            *v = 0.0;
+        }
     }
 }
 
@@ -573,7 +558,9 @@ fn prolong_add(f: &mut Level, c: &Level) {
             let q = (cj + 1) * cpw + ci + 1;
             let v = wj0 * (wi0 * c.x[q] + wi1 * c.x[q + 1])
                 + wj1 * (wi0 * c.x[q + cpw] + wi1 * c.x[q + cpw + 1]);
-            f.x[p] += f.mask[p] * v;
+            if f.mask[p] != 0 {
+                f.x[p] += v;
+            }
         }
     }
 }
@@ -604,8 +591,8 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -
                 p + pw + 1,
             ]
             .iter()
-            .any(|&q| f.mask[q] != 0.0);
-            live[jj * cnr + ii] = f.mask[p] != 0.0 || free_nb;
+            .any(|&q| f.mask[q] != 0);
+            live[jj * cnr + ii] = f.mask[p] != 0 || free_nb;
         }
     }
     let mut acc = vec![[0.0f64; 9]; cn];
@@ -654,7 +641,7 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -
         for &(j, wjf) in &rows_of[cjf] {
             for i in 0..f.nr {
                 let p = f.p(i, j);
-                if f.mask[p] == 0.0 {
+                if f.mask[p] == 0 {
                     continue;
                 }
                 let (pri, nri) = pr[i];
@@ -666,7 +653,7 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -
                     // Neighbours outside the grid have zero coefficients, so (gi, gj) is
                     // inside.
                     let (gi, gj) = ((i as i64 + di) as usize, (j as i64 + dj) as usize);
-                    if f.mask[f.p(gi, gj)] == 0.0 {
+                    if f.mask[f.p(gi, gj)] == 0 {
                         continue;
                     }
                     let (prg, nrg) = pr[gi];
@@ -709,12 +696,12 @@ fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -
             let p = c.p(i, j);
             if !live[k] || acc[k][Slot::C as usize] == 0.0 {
                 c.st[Slot::C as usize][p] = 1.0;
-                c.mask[p] = 0.0;
+                c.mask[p] = 0;
             } else {
                 for (s, v) in acc[k].iter().enumerate() {
                     c.st[s][p] = *v as f32;
                 }
-                c.mask[p] = 1.0;
+                c.mask[p] = 1;
             }
         }
     }
@@ -819,13 +806,14 @@ impl Shared {
     }
 }
 
-/// One r-line: right-hand side from the rows below and above, then the Thomas solve with
-/// the stored pivots. `xd` and `xu` are the padded rows below and above (one ghost each side).
+/// One r-line: right-hand side from the rows below and above, then the Thomas solve. The
+/// line's own row of `x` is not part of its right-hand side, so it holds the upper factors of
+/// the elimination until the back substitution overwrites them with the solution.
+/// `xd` and `xu` are the padded rows below and above (one ghost each side).
 #[allow(clippy::too_many_arguments)]
 fn relax_one_r_line(
     st: &[Vec<f32>; 9],
     b: &[f32],
-    inv: &[f32],
     base: usize,
     nr: usize,
     nine: bool,
@@ -834,7 +822,7 @@ fn relax_one_r_line(
     xrow: &mut [f32],
     out: &mut [f32],
 ) {
-    let [_, w, e, s, n, sw, se, nw, ne] = st;
+    let [c, w, e, s, n, sw, se, nw, ne] = st;
     let row = base..base + nr;
     let (ss, nn, bb) = (&s[row.clone()], &n[row.clone()], &b[row.clone()]);
     let (xdc, xuc) = (&xd[1..nr + 1], &xu[1..nr + 1]);
@@ -854,16 +842,19 @@ fn relax_one_r_line(
             out[k] -= a[k] * xdl[k] + b2[k] * xdr[k] + c2[k] * xul[k] + d[k] * xur[k];
         }
     }
-    let (ww, iv, ee) = (&w[row.clone()], &inv[row.clone()], &e[row]);
-    let mut prev = 0.0f32;
+    let (cc, ww, ee) = (&c[row.clone()], &w[row.clone()], &e[row]);
+    let (mut prev, mut up) = (0.0f32, 0.0f32);
     for k in 0..nr {
-        let v = (out[k] - ww[k] * prev) * iv[k];
+        let inv = 1.0 / (cc[k] - ww[k] * up);
+        up = ee[k] * inv;
+        xrow[k] = up;
+        let v = (out[k] - ww[k] * prev) * inv;
         out[k] = v;
         prev = v;
     }
     let mut next = 0.0f32;
     for k in (0..nr).rev() {
-        let v = out[k] - ee[k] * iv[k] * next;
+        let v = out[k] - xrow[k] * next;
         xrow[k] = v;
         next = v;
     }
