@@ -78,7 +78,9 @@ impl Solver {
         let t0 = Instant::now();
         let op = Operator::assemble(mesh, params.scheme);
         let t1 = Instant::now();
-        let mg = Multigrid::build(&op, &mesh.r.x, &mesh.z.x, params.multigrid);
+        let mut mg_params = params.multigrid;
+        mg_params.symmetric = params.scheme == Scheme::Symmetric;
+        let mg = Multigrid::build(&op, &mesh.r.x, &mesh.z.x, mg_params);
         let t2 = Instant::now();
         Solver {
             op,

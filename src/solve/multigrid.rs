@@ -84,6 +84,10 @@ pub struct MgParams {
     pub sweeps: usize,
     /// Coarsen until a level has at most this many nodes.
     pub coarsest_nodes: usize,
+    /// Make the V-cycle a symmetric operator (post-smoothing the adjoint of pre-smoothing), as
+    /// conjugate gradients need; otherwise r-lines smooth before and z-lines after the coarse
+    /// correction, half the work for a non-symmetric Krylov method.
+    pub symmetric: bool,
 }
 
 impl Default for MgParams {
@@ -91,6 +95,7 @@ impl Default for MgParams {
         Self {
             sweeps: 1,
             coarsest_nodes: 400,
+            symmetric: true,
         }
     }
 }
@@ -452,18 +457,22 @@ impl Multigrid {
         }
     }
 
-    fn smooth_pre(l: &mut Level) {
+    fn smooth_pre(l: &mut Level, symmetric: bool) {
         l.relax_r_lines(0);
         l.relax_r_lines(1);
-        l.relax_z_lines(0);
-        l.relax_z_lines(1);
+        if symmetric {
+            l.relax_z_lines(0);
+            l.relax_z_lines(1);
+        }
     }
 
-    fn smooth_post(l: &mut Level) {
+    fn smooth_post(l: &mut Level, symmetric: bool) {
         l.relax_z_lines(1);
         l.relax_z_lines(0);
-        l.relax_r_lines(1);
-        l.relax_r_lines(0);
+        if symmetric {
+            l.relax_r_lines(1);
+            l.relax_r_lines(0);
+        }
     }
 
     fn cycle(&mut self, li: usize) {
@@ -492,7 +501,7 @@ impl Multigrid {
             let l = &mut self.levels[li];
             l.x.iter_mut().for_each(|v| *v = 0.0);
             for _ in 0..self.params.sweeps {
-                Self::smooth_pre(l);
+                Self::smooth_pre(l, self.params.symmetric);
             }
             l.residual();
         }
@@ -506,7 +515,7 @@ impl Multigrid {
             let f = &mut fine[li];
             prolong_add(f, &rest[0]);
             for _ in 0..self.params.sweeps {
-                Self::smooth_post(f);
+                Self::smooth_post(f, self.params.symmetric);
             }
         }
     }
