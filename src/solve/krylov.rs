@@ -98,6 +98,23 @@ fn converged_at(
     })
 }
 
+/// ‖b‖, the initial residual and its norm; `Err` with the result when the initial guess
+/// already meets the tolerance.
+fn start(
+    op: &Operator,
+    b: &[f64],
+    x: &[f64],
+    params: &KrylovParams,
+) -> Result<(f64, Vec<f64>, f64), KrylovInfo> {
+    let bnorm = norm(b).max(f64::MIN_POSITIVE);
+    let mut r = vec![0.0; b.len()];
+    let rn = residual(op, x, b, &mut r);
+    match converged_at(rn, bnorm, 0, params) {
+        Some(info) => Err(info),
+        None => Ok((bnorm, r, rn)),
+    }
+}
+
 /// Preconditioned conjugate gradients from the initial guess in `x`.
 pub fn pcg(
     op: &Operator,
@@ -107,12 +124,10 @@ pub fn pcg(
     params: &KrylovParams,
 ) -> KrylovInfo {
     let n = b.len();
-    let bnorm = norm(b).max(f64::MIN_POSITIVE);
-    let mut r = vec![0.0; n];
-    let mut rn = residual(op, x, b, &mut r);
-    if let Some(info) = converged_at(rn, bnorm, 0, params) {
-        return info;
-    }
+    let (bnorm, mut r, mut rn) = match start(op, b, x, params) {
+        Ok(s) => s,
+        Err(done) => return done,
+    };
     let mut z = vec![0.0; n];
     mg.apply(&r, &mut z);
     let mut p = z.clone();
@@ -160,7 +175,8 @@ pub fn pcg(
 }
 
 /// Right-preconditioned BiCGStab from the initial guess in `x`, with the intermediate
-/// residual and the two preconditioned directions kept in place (six work vectors).
+/// residual and the two preconditioned directions kept in place (five double-precision work
+/// vectors and a single-precision shadow residual).
 pub fn bicgstab(
     op: &Operator,
     mg: &mut Multigrid,
@@ -169,12 +185,10 @@ pub fn bicgstab(
     params: &KrylovParams,
 ) -> KrylovInfo {
     let n = b.len();
-    let bnorm = norm(b).max(f64::MIN_POSITIVE);
-    let mut r = vec![0.0; n];
-    let mut rn = residual(op, x, b, &mut r);
-    if let Some(info) = converged_at(rn, bnorm, 0, params) {
-        return info;
-    }
+    let (bnorm, mut r, mut rn) = match start(op, b, x, params) {
+        Ok(s) => s,
+        Err(done) => return done,
+    };
     // The shadow residual only has to stay fixed; single precision halves its memory.
     let r0: Vec<f32> = r.iter().map(|&v| v as f32).collect();
     let mut p = vec![0.0; n];
