@@ -2,10 +2,8 @@
 
 use anyhow::{Context, Result};
 use clap::Args;
-use holdoff::analysis::analyze;
 use holdoff::report::{Report, table, write_atomic};
 use holdoff::solve::SolverParams;
-use holdoff::study::grid_study;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -71,20 +69,11 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
         write!(target, "{}", table::render_listing(&listing))?;
     }
     let params = SolverParams::default();
-    // The stack first: "stage:N" potentials take its loaded stage voltages.
-    let stack = holdoff::stack::analyze_stack(&model, &params, &Default::default())?;
-    let stage_v = stack.as_ref().map(|s| s.stage_voltages());
-    let fine = analyze(&model, &params, stage_v.as_deref())?;
-    let study = if out.no_grid_study {
-        None
-    } else {
-        Some(grid_study(&model, &fine, &params, stage_v.as_deref())?)
-    };
-    let margins = holdoff::margin::evaluate(&model, &fine, study.as_ref())?;
-    let failed = margins.any_fail();
-    let report = Report::new(&model, file, text, &fine, study)
-        .with_margins(margins)
-        .with_ladder(stack.as_ref());
+    let run = holdoff::review::review(&model, &params, !out.no_grid_study)?;
+    let failed = run.margins.any_fail();
+    let report = Report::new(&model, file, text, &run.fine, run.study)
+        .with_margins(run.margins)
+        .with_ladder(run.stack.as_ref());
     holdoff::report::finite::ensure_finite(&report)?;
     if let Some(target) = &out.json {
         let json = report.to_json();

@@ -2,6 +2,7 @@
 
 mod bench;
 mod check;
+mod compare;
 mod ladder;
 mod size;
 
@@ -22,6 +23,8 @@ pub enum Command {
     Check(check::CheckArgs),
     /// Run `check` on the built-in demo design (an invented 750 kV SF6 column).
     Demo(check::DemoArgs),
+    /// Compare the margins of two designs, the rows that got worse first.
+    Compare(compare::CompareArgs),
     /// Simulate the multiplier stack of a design file beside its closed forms.
     Ladder(ladder::LadderArgs),
     /// Search stage count and capacitance for a terminal voltage, load and ripple.
@@ -35,6 +38,7 @@ pub fn run() -> anyhow::Result<ExitCode> {
     match cli.command {
         Command::Check(a) => check::run_check(&a),
         Command::Demo(a) => check::run_demo(&a),
+        Command::Compare(a) => compare::run(&a),
         Command::Ladder(a) => ladder::run(&a),
         Command::Size(a) => size::run(&a),
         Command::Bench(a) => bench::run(&a),

@@ -1,0 +1,112 @@
+//! `holdoff compare A.toml B.toml`: the margins of two designs side by side, worse rows first.
+
+use anyhow::{Context, Result};
+use clap::Args;
+use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
+use holdoff::compare::compare;
+use holdoff::review::review;
+use holdoff::solve::SolverParams;
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+#[derive(Debug, Args)]
+pub struct CompareArgs {
+    /// The design before the change.
+    pub before: PathBuf,
+    /// The design after the change.
+    pub after: PathBuf,
+    /// Rows to list (all in JSON).
+    #[arg(long, default_value_t = 25)]
+    pub top: usize,
+    /// Write the comparison as JSON to standard output.
+    #[arg(long)]
+    pub json: bool,
+}
+
+fn load(path: &PathBuf) -> Result<Option<holdoff::model::Model>> {
+    let text = std::fs::read_to_string(path)
+        .with_context(|| format!("cannot read design file {}", path.display()))?;
+    match holdoff::design::from_str(&text, &path.display().to_string()) {
+        Ok(m) => Ok(Some(m)),
+        Err(e) => {
+            eprint!(
+                "{}",
+                holdoff::design::diagnostic::render_for_stderr(&e, &text)
+            );
+            Ok(None)
+        }
+    }
+}
+
+pub fn run(a: &CompareArgs) -> Result<ExitCode> {
+    let (Some(mb), Some(ma)) = (load(&a.before)?, load(&a.after)?) else {
+        return Ok(ExitCode::from(2));
+    };
+    let params = SolverParams::default();
+    let rb = review(&mb, &params, false)?;
+    let ra = review(&ma, &params, false)?;
+    let cmp = compare(&rb.margins, &ra.margins);
+    holdoff::report::finite::ensure_finite(&cmp)?;
+    let code = if cmp.any_crossed_below {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    };
+    if a.json {
+        println!("{}", serde_json::to_string_pretty(&cmp)?);
+        return Ok(code);
+    }
+    println!("before: {}  ({})", a.before.display(), mb.title);
+    println!("after:  {}  ({})\n", a.after.display(), ma.title);
+    let mut t = Table::new();
+    t.load_style(UTF8_FULL_CONDENSED)
+        .set_content_arrangement(ContentArrangement::Dynamic);
+    t.set_header(vec![
+        "item",
+        "criterion",
+        "margin before",
+        "margin after",
+        "change",
+        "status after",
+    ]);
+    let num = |v: Option<f64>| v.map_or("-".to_string(), |m| format!("{m:.2}"));
+    for r in cmp.rows.iter().take(a.top) {
+        let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
+        t.add_row(vec![
+            Cell::new(&r.item),
+            Cell::new(&r.criterion),
+            right(num(r.margin_before)),
+            right(num(r.margin_after)),
+            right(
+                r.change
+                    .map_or("-".into(), |c| format!("{:+.1} %", c * 100.0)),
+            ),
+            Cell::new(
+                r.status_after
+                    .map_or("removed".to_string(), |s| s.label().to_string())
+                    + if r.crossed_below {
+                        " (crossed below)"
+                    } else {
+                        ""
+                    },
+            ),
+        ]);
+    }
+    println!("{t}");
+    let kv = |v: Option<f64>| v.map_or("-".to_string(), |x| format!("{:.1} kV", x / 1e3));
+    println!(
+        "hold-off voltage (limits as used): {} before, {} after",
+        kv(cmp.holdoff_before_v),
+        kv(cmp.holdoff_after_v)
+    );
+    if cmp.any_crossed_below {
+        println!(
+            "At least one row now falls below the design factor {}.",
+            cmp.design_factor
+        );
+    }
+    println!(
+        "Caution: a comparison of models is a design aid, not a certification; the facility's licensed high-voltage practice and local codes take precedence."
+    );
+    Ok(code)
+}

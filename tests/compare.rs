@@ -1,0 +1,48 @@
+//! `holdoff compare`: a design against itself, and against a sharper terminal corner.
+
+use std::process::Command;
+
+fn holdoff() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_holdoff"))
+}
+
+fn compare(a: &str, b: &str) -> (Option<i32>, serde_json::Value) {
+    let out = holdoff()
+        .args(["compare", a, b, "--json"])
+        .output()
+        .expect("runs");
+    let v = serde_json::from_slice(&out.stdout)
+        .unwrap_or_else(|e| panic!("not JSON ({e}): {}", String::from_utf8_lossy(&out.stderr)));
+    (out.status.code(), v)
+}
+
+#[test]
+fn a_design_compared_with_itself_shows_no_change() {
+    let (code, v) = compare("examples/demo_750kv.toml", "examples/demo_750kv.toml");
+    assert_eq!(code, Some(0));
+    assert_eq!(v["any_crossed_below"], false);
+    for r in v["rows"].as_array().expect("rows") {
+        if let Some(c) = r["change"].as_f64() {
+            assert!(c.abs() < 1e-12, "{r}");
+        }
+    }
+}
+
+/// A smaller corner radius raises the surface field of the terminal (for a rounded edge the
+/// peak field grows as the radius shrinks; PRACTICE.md §1.3 hand estimates), so its margin
+/// falls, and that row ranks first.
+#[test]
+fn a_sharper_terminal_corner_lowers_the_terminal_margin() {
+    let dir = std::env::temp_dir().join(format!("holdoff-cmp-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let text = std::fs::read_to_string("examples/demo_750kv.toml").unwrap();
+    let sharper = text.replacen("corner_radius = \"80 mm\"", "corner_radius = \"50 mm\"", 1);
+    assert_ne!(text, sharper);
+    let path = dir.join("sharper.toml");
+    std::fs::write(&path, sharper).unwrap();
+    let (_, v) = compare("examples/demo_750kv.toml", path.to_str().unwrap());
+    let first = &v["rows"][0];
+    assert_eq!(first["item"], "terminal");
+    assert!(first["change"].as_f64().unwrap() < -0.05, "{first}");
+    let _ = std::fs::remove_dir_all(&dir);
+}
