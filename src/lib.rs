@@ -62,4 +62,5 @@ pub mod review;
 pub mod solve;
 pub mod stack;
 pub mod study;
+pub mod sweep;
 pub mod units;

@@ -5,6 +5,7 @@ mod check;
 mod compare;
 mod ladder;
 mod size;
+mod sweep;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -29,6 +30,8 @@ pub enum Command {
     Ladder(ladder::LadderArgs),
     /// Search stage count and capacitance for a terminal voltage, load and ripple.
     Size(Box<size::SizeArgs>),
+    /// Vary one design value over a range; optionally find the least value that passes.
+    Sweep(sweep::SweepArgs),
     /// Time the field solver on a standard problem at several sizes.
     Bench(bench::BenchArgs),
 }
@@ -41,6 +44,7 @@ pub fn run() -> anyhow::Result<ExitCode> {
         Command::Compare(a) => compare::run(&a),
         Command::Ladder(a) => ladder::run(&a),
         Command::Size(a) => size::run(&a),
+        Command::Sweep(a) => sweep::run(&a),
         Command::Bench(a) => bench::run(&a),
     }
 }

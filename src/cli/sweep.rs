@@ -1,0 +1,119 @@
+//! `holdoff sweep FILE --vary PATH --from X --to Y`: one design value over a range, the worst
+//! margins at each value, and optionally the least value that meets the design factor.
+
+use anyhow::{Context, Result};
+use clap::Args;
+use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
+use holdoff::sweep::{least_value, range, sweep};
+use serde::Serialize;
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+#[derive(Debug, Args)]
+pub struct SweepArgs {
+    /// The design file (TOML).
+    pub file: PathBuf,
+    /// The value to vary, by its path in the design file: gas.pressure, terminal.voltage,
+    /// conductor[terminal].corner_radius, column[1].minor_radius, ...
+    #[arg(long)]
+    pub vary: String,
+    /// First value, with its unit (e.g. "2 bar").
+    #[arg(long)]
+    pub from: String,
+    /// Last value, with its unit (e.g. "4 bar").
+    #[arg(long)]
+    pub to: String,
+    /// Number of values, ends included.
+    #[arg(long, default_value_t = 9)]
+    pub steps: usize,
+    /// Also find by bisection the least value in the range that meets the design factor.
+    #[arg(long)]
+    pub least: bool,
+    /// Write the sweep as JSON to standard output.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Serialize)]
+struct SweepOut<'a> {
+    parameter: &'a str,
+    points: Vec<holdoff::sweep::SweepPoint>,
+    least: Option<holdoff::sweep::LeastValue>,
+}
+
+pub fn run(a: &SweepArgs) -> Result<ExitCode> {
+    let text = std::fs::read_to_string(&a.file)
+        .with_context(|| format!("cannot read design file {}", a.file.display()))?;
+    let file = a.file.display().to_string();
+    if let Err(e) = holdoff::design::from_str(&text, &file) {
+        eprint!(
+            "{}",
+            holdoff::design::diagnostic::render_for_stderr(&e, &text)
+        );
+        return Ok(ExitCode::from(2));
+    }
+    let span = range(&a.from, &a.to)?;
+    let points = sweep(&text, &file, &a.vary, span, a.steps)?;
+    let least = if a.least {
+        least_value(&text, &file, &a.vary, span, 1e-3)?
+    } else {
+        None
+    };
+    let out = SweepOut {
+        parameter: &a.vary,
+        points,
+        least,
+    };
+    holdoff::report::finite::ensure_finite(&out)?;
+    if a.json {
+        println!("{}", serde_json::to_string_pretty(&out)?);
+        return Ok(ExitCode::SUCCESS);
+    }
+    let mut t = Table::new();
+    t.load_style(UTF8_FULL_CONDENSED)
+        .set_content_arrangement(ContentArrangement::Dynamic);
+    t.set_header(vec![
+        &a.vary as &str,
+        "worst margin",
+        "worst item",
+        "worst gas margin",
+        "hold-off kV",
+        "meets design factor",
+    ]);
+    let num = |v: Option<f64>| v.map_or("-".to_string(), |m| format!("{m:.3}"));
+    for p in &out.points {
+        let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
+        t.add_row(vec![
+            Cell::new(holdoff::units::format_si(p.value_si, span.2)),
+            right(num(p.worst_margin)),
+            Cell::new(p.worst_item.as_deref().unwrap_or("-")),
+            right(num(p.worst_gas_margin)),
+            right(
+                p.holdoff_voltage_v
+                    .map_or("-".into(), |v| format!("{:.1}", v / 1e3)),
+            ),
+            Cell::new(if p.meets_design_factor { "yes" } else { "no" }),
+        ]);
+    }
+    println!("{t}");
+    if a.least {
+        match &out.least {
+            Some(l) => println!(
+                "least {} meeting the design factor: {} (bracket {}, {} reviews); worst margin there {}",
+                a.vary,
+                holdoff::units::format_si(l.value_si, span.2),
+                holdoff::units::format_si(l.tolerance_si, span.2),
+                l.evaluations,
+                num(l.worst_margin)
+            ),
+            None => println!(
+                "no value of {} up to {} meets the design factor",
+                a.vary, a.to
+            ),
+        }
+    }
+    println!(
+        "Caution: the margins are a design aid for an idealised model, not a certification; local codes and the facility's licensed high-voltage practice take precedence."
+    );
+    Ok(ExitCode::SUCCESS)
+}

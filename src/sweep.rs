@@ -1,0 +1,280 @@
+//! Parameter sweeps: one design value varied over a range, the worst margins at each value,
+//! and the least value that meets the design factor found by bisection.
+//!
+//! Input: the design text, a parameter path into it and a range with units. Output: one
+//! `SweepPoint` per value (worst margin overall and in gas, hold-off voltage). A parameter is
+//! named by its path in the design file: `gas.pressure`, `terminal.voltage`,
+//! `conductor[terminal].corner_radius` (a table of an array chosen by its `name`, or by its
+//! 1-based position, `column[1].minor_radius`).
+
+use crate::design::{DesignError, from_str};
+use crate::margin::{Margins, RowMedium};
+use crate::review::{ReviewError, review};
+use crate::solve::SolverParams;
+use crate::units::{Dimension, UnitError, parse_quantity};
+use rayon::prelude::*;
+use serde::Serialize;
+use thiserror::Error;
+
+#[derive(Debug, Error)]
+pub enum SweepError {
+    #[error("the design file is not valid TOML: {0}")]
+    Toml(String),
+    #[error("no value at '{path}' in the design file: {why}")]
+    Path { path: String, why: String },
+    #[error("the range {from:?} to {to:?}: {why}")]
+    Range {
+        from: String,
+        to: String,
+        why: String,
+    },
+    #[error(transparent)]
+    Unit(#[from] UnitError),
+    #[error("the design with {path} = {value} is not valid:\n{error}")]
+    Design {
+        path: String,
+        value: String,
+        error: Box<DesignError>,
+    },
+    #[error(transparent)]
+    Review(#[from] ReviewError),
+}
+
+/// The result at one value of the parameter.
+#[derive(Debug, Clone, Serialize)]
+pub struct SweepPoint {
+    /// The value in SI units.
+    pub value_si: f64,
+    /// The value as written into the design.
+    pub value: String,
+    pub worst_margin: Option<f64>,
+    pub worst_item: Option<String>,
+    pub worst_gas_margin: Option<f64>,
+    pub holdoff_voltage_v: Option<f64>,
+    pub meets_design_factor: bool,
+}
+
+/// The least value that meets the design factor, by bisection.
+#[derive(Debug, Clone, Serialize)]
+pub struct LeastValue {
+    pub value_si: f64,
+    pub value: String,
+    pub worst_margin: Option<f64>,
+    /// Bracket width at the end, SI units.
+    pub tolerance_si: f64,
+    pub evaluations: usize,
+}
+
+/// The SI unit written into the design file for a dimension.
+fn si_unit(dim: Dimension) -> &'static str {
+    match dim {
+        Dimension::Length => "m",
+        Dimension::Voltage => "V",
+        Dimension::Field => "V/m",
+        Dimension::Pressure => "Pa",
+        Dimension::Temperature => "K",
+        Dimension::Capacitance => "F",
+        Dimension::Resistance => "Ohm",
+        Dimension::Current => "A",
+        Dimension::Frequency => "Hz",
+        Dimension::Energy => "J",
+        Dimension::Ratio => "%",
+    }
+}
+
+/// The value with its unit as the design file takes it.
+pub fn value_text(v: f64, dim: Dimension) -> String {
+    match dim {
+        Dimension::Ratio => format!("{} %", v * 100.0),
+        _ => format!("{v:e} {}", si_unit(dim)),
+    }
+}
+
+/// Writes `value` (a string with its unit) at `path` in the design text.
+pub fn set_value(text: &str, path: &str, value: &str) -> Result<String, SweepError> {
+    let mut doc: toml::Table = toml::from_str(text).map_err(|e| SweepError::Toml(e.to_string()))?;
+    let err = |why: String| SweepError::Path {
+        path: path.to_string(),
+        why,
+    };
+    let parts: Vec<&str> = path.split('.').collect();
+    let Some((leaf, tables)) = parts.split_last() else {
+        return Err(err("the path is empty".into()));
+    };
+    let mut cur: &mut toml::Table = &mut doc;
+    for seg in tables {
+        let (name, sel) = match seg.find('[') {
+            Some(k) if seg.ends_with(']') => (&seg[..k], Some(&seg[k + 1..seg.len() - 1])),
+            _ => (*seg, None),
+        };
+        let Some(v) = cur.get_mut(name) else {
+            return Err(err(format!("there is no table '{name}'")));
+        };
+        cur = match (v, sel) {
+            (toml::Value::Table(t), None) => t,
+            (toml::Value::Array(items), Some(sel)) => {
+                let index = match sel.parse::<usize>() {
+                    Ok(n) if n >= 1 && n <= items.len() => n - 1,
+                    Ok(n) => {
+                        return Err(err(format!(
+                            "'{name}' has {} entries; {n} is out of range (they count from 1)",
+                            items.len()
+                        )));
+                    }
+                    Err(_) => items
+                        .iter()
+                        .position(|t| t.get("name").and_then(|n| n.as_str()) == Some(sel))
+                        .ok_or_else(|| err(format!("no entry of '{name}' has name = \"{sel}\"")))?,
+                };
+                match items.get_mut(index) {
+                    Some(toml::Value::Table(t)) => t,
+                    _ => return Err(err(format!("entry {sel} of '{name}' is not a table"))),
+                }
+            }
+            (toml::Value::Array(_), None) => {
+                return Err(err(format!(
+                    "'{name}' is a list of tables: choose one, as {name}[NAME] or {name}[1]"
+                )));
+            }
+            _ => return Err(err(format!("'{name}' is not a table"))),
+        };
+    }
+    match cur.get_mut(*leaf) {
+        Some(v @ toml::Value::String(_)) => *v = toml::Value::String(value.to_string()),
+        Some(_) => {
+            return Err(err(format!(
+                "'{leaf}' is not a quantity with a unit, so it cannot be swept"
+            )));
+        }
+        None => {
+            return Err(err(format!(
+                "there is no key '{leaf}' (it must be set to be swept)"
+            )));
+        }
+    }
+    toml::to_string(&doc).map_err(|e| SweepError::Toml(e.to_string()))
+}
+
+fn summarise(m: &Margins, value_si: f64, value: String) -> SweepPoint {
+    let numeric = m.rows.iter().filter_map(|r| r.margin.map(|x| (x, r)));
+    let worst = numeric.clone().min_by(|a, b| a.0.total_cmp(&b.0));
+    let worst_gas = numeric
+        .filter(|(_, r)| r.medium == RowMedium::Gas)
+        .map(|(x, _)| x)
+        .min_by(f64::total_cmp);
+    SweepPoint {
+        value_si,
+        value,
+        worst_margin: worst.map(|w| w.0),
+        worst_item: worst.map(|w| w.1.item.clone()),
+        worst_gas_margin: worst_gas,
+        holdoff_voltage_v: m.holdoff.as_ref().map(|h| h.voltage_v),
+        meets_design_factor: !m.any_fail(),
+    }
+}
+
+/// Reviews the design with the parameter at `v` (SI).
+pub fn evaluate_at(
+    text: &str,
+    file: &str,
+    path: &str,
+    v: f64,
+    dim: Dimension,
+) -> Result<SweepPoint, SweepError> {
+    let value = value_text(v, dim);
+    let edited = set_value(text, path, &value)?;
+    let model = from_str(&edited, file).map_err(|e| SweepError::Design {
+        path: path.to_string(),
+        value: value.clone(),
+        error: Box::new(e),
+    })?;
+    let r = review(&model, &SolverParams::default(), false)?;
+    Ok(summarise(&r.margins, v, value))
+}
+
+/// The range from two quantities with units, of the same dimension.
+pub fn range(from: &str, to: &str) -> Result<(f64, f64, Dimension), SweepError> {
+    let (a, da) = parse_quantity(from)?;
+    let (b, db) = parse_quantity(to)?;
+    if da != db {
+        return Err(SweepError::Range {
+            from: from.into(),
+            to: to.into(),
+            why: format!("{} and {} cannot span one range", da.noun(), db.noun()),
+        });
+    }
+    if !(a.is_finite() && b.is_finite()) || a == b {
+        return Err(SweepError::Range {
+            from: from.into(),
+            to: to.into(),
+            why: "the two ends must be different finite values".into(),
+        });
+    }
+    Ok((a, b, da))
+}
+
+/// Evaluates `steps` evenly spaced values from `a` to `b`, in parallel.
+pub fn sweep(
+    text: &str,
+    file: &str,
+    path: &str,
+    (a, b, dim): (f64, f64, Dimension),
+    steps: usize,
+) -> Result<Vec<SweepPoint>, SweepError> {
+    let steps = steps.max(2);
+    (0..steps)
+        .into_par_iter()
+        .map(|k| {
+            let v = a + (b - a) * k as f64 / (steps - 1) as f64;
+            evaluate_at(text, file, path, v, dim)
+        })
+        .collect()
+}
+
+/// The least value in [a, b] at which every row meets the design factor, assuming the margins
+/// grow with the parameter (as they do with gas pressure); `None` when `b` itself does not.
+pub fn least_value(
+    text: &str,
+    file: &str,
+    path: &str,
+    (a, b, dim): (f64, f64, Dimension),
+    rel_tol: f64,
+) -> Result<Option<LeastValue>, SweepError> {
+    let (mut lo, mut hi) = (a.min(b), a.max(b));
+    let mut evaluations = 0;
+    let top = evaluate_at(text, file, path, hi, dim)?;
+    evaluations += 1;
+    if !top.meets_design_factor {
+        return Ok(None);
+    }
+    let bottom = evaluate_at(text, file, path, lo, dim)?;
+    evaluations += 1;
+    if bottom.meets_design_factor {
+        return Ok(Some(LeastValue {
+            value_si: lo,
+            value: bottom.value,
+            worst_margin: bottom.worst_margin,
+            tolerance_si: 0.0,
+            evaluations,
+        }));
+    }
+    let mut best = top;
+    while hi - lo > rel_tol * hi.abs() && evaluations < 60 {
+        let mid = 0.5 * (lo + hi);
+        let p = evaluate_at(text, file, path, mid, dim)?;
+        evaluations += 1;
+        if p.meets_design_factor {
+            hi = mid;
+            best = p;
+        } else {
+            lo = mid;
+        }
+    }
+    Ok(Some(LeastValue {
+        value_si: hi,
+        value: best.value,
+        worst_margin: best.worst_margin,
+        tolerance_si: hi - lo,
+        evaluations,
+    }))
+}

@@ -1,0 +1,55 @@
+//! `holdoff sweep`: gas-pressure sweeps of the demo column and the least safe pressure.
+
+use holdoff::sweep::{evaluate_at, least_value, range, set_value, sweep};
+
+fn demo() -> String {
+    std::fs::read_to_string("examples/demo_750kv.toml").expect("demo file")
+}
+
+/// On the right-hand branch of the Paschen curve (pd far above its minimum, as in any tank)
+/// gas strength grows with density (REFERENCES.md §1–§3), so the worst gas margin grows
+/// monotonically with pressure.
+#[test]
+fn worst_gas_margin_is_monotone_in_pressure() {
+    let text = demo();
+    let span = range("2 bar", "4 bar").expect("range");
+    let points = sweep(&text, "demo", "gas.pressure", span, 5).expect("sweep");
+    for w in points.windows(2) {
+        let (a, b) = (
+            w[0].worst_gas_margin.unwrap(),
+            w[1].worst_gas_margin.unwrap(),
+        );
+        assert!(b > a, "{a} then {b}");
+    }
+}
+
+/// The bisected least pressure meets the design factor; 5 % below it does not.
+#[test]
+fn least_pressure_meets_the_design_factor_and_five_percent_less_does_not() {
+    let text = demo();
+    let span = range("1 bar", "4 bar").expect("range");
+    let least = least_value(&text, "demo", "gas.pressure", span, 1e-3)
+        .expect("bisection")
+        .expect("some pressure in range meets the design factor");
+    let at = evaluate_at(&text, "demo", "gas.pressure", least.value_si, span.2).expect("review");
+    assert!(at.meets_design_factor);
+    let below =
+        evaluate_at(&text, "demo", "gas.pressure", 0.95 * least.value_si, span.2).expect("review");
+    assert!(!below.meets_design_factor);
+}
+
+#[test]
+fn parameter_paths_select_tables_and_say_what_is_wrong() {
+    let text = demo();
+    let edited = set_value(&text, "conductor[terminal].corner_radius", "0.05 m").expect("path");
+    assert!(edited.contains("0.05 m"));
+    let edited = set_value(&text, "column[1].minor_radius", "0.012 m").expect("path");
+    assert!(edited.contains("0.012 m"));
+    let err = set_value(&text, "conductor[nowhere].corner_radius", "1 m").unwrap_err();
+    assert!(err.to_string().contains("nowhere"));
+    let err = set_value(&text, "gas.presure", "1 bar").unwrap_err();
+    assert!(err.to_string().contains("presure"));
+    let err = set_value(&text, "conductor.corner_radius", "1 m").unwrap_err();
+    assert!(err.to_string().contains("conductor[NAME]"));
+    assert!(range("2 bar", "4 mm").is_err());
+}
