@@ -4,6 +4,7 @@ mod bench;
 mod check;
 mod compare;
 mod ladder;
+mod report;
 mod size;
 mod sweep;
 
@@ -26,6 +27,8 @@ pub enum Command {
     Demo(check::DemoArgs),
     /// Compare the margins of two designs, the rows that got worse first.
     Compare(compare::CompareArgs),
+    /// Write the pre-commissioning review note of a design (Markdown).
+    Report(report::ReportArgs),
     /// Simulate the multiplier stack of a design file beside its closed forms.
     Ladder(ladder::LadderArgs),
     /// Search stage count and capacitance for a terminal voltage, load and ripple.
@@ -42,6 +45,7 @@ pub fn run() -> anyhow::Result<ExitCode> {
         Command::Check(a) => check::run_check(&a),
         Command::Demo(a) => check::run_demo(&a),
         Command::Compare(a) => compare::run(&a),
+        Command::Report(a) => report::run(&a),
         Command::Ladder(a) => ladder::run(&a),
         Command::Size(a) => size::run(&a),
         Command::Sweep(a) => sweep::run(&a),

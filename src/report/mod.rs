@@ -7,6 +7,7 @@
 pub mod cautions;
 pub mod finite;
 pub mod ladder;
+pub mod markdown;
 pub mod table;
 
 use crate::analysis::Analysis;

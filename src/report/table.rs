@@ -173,7 +173,7 @@ fn criterion_label(c: Criterion) -> &'static str {
 }
 
 /// A peak or limit in the unit of its row: kV/mm for fields, kV for voltages.
-fn value_with_unit(kind: LimitKind, v: f64) -> String {
+pub(crate) fn value_with_unit(kind: LimitKind, v: f64) -> String {
     match kind {
         LimitKind::Field => format!("{:.3} kV/mm", v / 1e6),
         LimitKind::Voltage => format!("{:.1} kV", v / 1e3),

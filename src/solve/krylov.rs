@@ -36,9 +36,18 @@ pub struct KrylovInfo {
 /// Vectors at least this long are reduced and updated in parallel.
 const PARALLEL_LEN: usize = 60_000;
 
+/// Chunk length of the parallel reductions: partial sums over fixed chunks, added in order,
+/// so that a run gives the same bits every time whatever the thread scheduling.
+const REDUCE_CHUNK: usize = 16_384;
+
 fn dot(a: &[f64], b: &[f64]) -> f64 {
     if a.len() >= PARALLEL_LEN {
-        a.par_iter().zip(b).map(|(x, y)| x * y).sum()
+        let partial: Vec<f64> = a
+            .par_chunks(REDUCE_CHUNK)
+            .zip(b.par_chunks(REDUCE_CHUNK))
+            .map(|(x, y)| x.iter().zip(y).map(|(p, q)| p * q).sum::<f64>())
+            .collect();
+        partial.iter().sum()
     } else {
         a.iter().zip(b).map(|(x, y)| x * y).sum()
     }
@@ -47,7 +56,12 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
 /// (r̂₀, v) with the shadow vector held in single precision.
 fn dot_shadow(a: &[f32], b: &[f64]) -> f64 {
     if a.len() >= PARALLEL_LEN {
-        a.par_iter().zip(b).map(|(&x, y)| x as f64 * y).sum()
+        let partial: Vec<f64> = a
+            .par_chunks(REDUCE_CHUNK)
+            .zip(b.par_chunks(REDUCE_CHUNK))
+            .map(|(x, y)| x.iter().zip(y).map(|(&p, q)| p as f64 * q).sum::<f64>())
+            .collect();
+        partial.iter().sum()
     } else {
         a.iter().zip(b).map(|(&x, y)| x as f64 * y).sum()
     }

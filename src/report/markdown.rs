@@ -1,0 +1,254 @@
+//! The pre-commissioning review note as Markdown: scope, inputs, the modelled geometry,
+//! ranked margins with numerical error, hold-off voltage, the multiplier stack, assumptions,
+//! the source of every criterion used, cautions and blank sign-off fields.
+//!
+//! Input: a `Report` (the same numbers as `check --json`), the expansion listing and the design
+//! text. The note is reproducible: the same design file gives the same text.
+
+use crate::design::ListingRow;
+use crate::margin::Status;
+use crate::report::Report;
+use crate::report::table::value_with_unit;
+use std::collections::BTreeSet;
+use std::fmt::Write;
+
+fn kv(v: f64) -> String {
+    format!("{:.1} kV", v / 1e3)
+}
+
+fn cell(s: &str) -> String {
+    s.replace('|', "\\|")
+}
+
+/// Renders the note.
+pub fn render(report: &Report, listing: &[ListingRow], design_text: &str) -> String {
+    let mut o = String::new();
+    let d = &report.design;
+    let _ = writeln!(o, "# High-voltage review note: {}\n", cell(&d.title));
+    let _ = writeln!(
+        o,
+        "Prepared with {} {} from the design file `{}` (SHA-256 `{}`). This note is a design aid computed from an idealised axisymmetric model; it is not a certification. Local electrical codes, pressure-vessel codes, radiation rules and the facility's licensed high-voltage safety practice take precedence.\n",
+        report.tool.name, report.tool.version, d.file, d.sha256
+    );
+
+    let _ = writeln!(o, "## 1. Scope and ratings\n");
+    let _ = writeln!(
+        o,
+        "- Terminal voltage reviewed: {}",
+        kv(d.terminal_voltage_v)
+    );
+    let _ = writeln!(o, "- Design factor: {}", report.design_factor);
+    if let Some(l) = &report.ladder {
+        let _ = writeln!(
+            o,
+            "- Multiplier: {} cascade, {} stages, {} at load, ripple {:.1} V p-p",
+            l.topology,
+            l.stages,
+            kv(l.output_mean_v),
+            l.ripple_pp_v
+        );
+    }
+    let _ = writeln!(o);
+
+    let _ = writeln!(o, "## 2. What was modelled\n");
+    let _ = writeln!(
+        o,
+        "| primitive | kind | shape (mm) | potential | from | notes |"
+    );
+    let _ = writeln!(o, "|---|---|---|---|---|---|");
+    for r in listing {
+        let _ = writeln!(
+            o,
+            "| {} | {} | {} | {} | {} | {} |",
+            cell(&r.name),
+            r.kind,
+            cell(&r.shape),
+            cell(r.potential.as_deref().unwrap_or("-")),
+            cell(&r.origin),
+            cell(&r.notes.join("; "))
+        );
+    }
+    let _ = writeln!(o);
+
+    let _ = writeln!(o, "## 3. Field solution\n");
+    let m = &report.mesh;
+    let s = &report.solver;
+    let _ = writeln!(
+        o,
+        "- Mesh: {} × {} = {} nodes ({} unknowns), spacing {:.2}–{:.2} mm",
+        m.nr,
+        m.nz,
+        m.nodes,
+        m.unknowns,
+        m.min_spacing_m * 1e3,
+        m.max_spacing_m * 1e3
+    );
+    let _ = writeln!(
+        o,
+        "- Solver: {}, {} iterations, relative residual {:.2e}",
+        s.method, s.iterations, s.relative_residual
+    );
+    if let Some(gs) = &report.grid_study {
+        let _ = writeln!(
+            o,
+            "- Grid study: cells {:.2} / {:.2} / {:.2} mm; numerical errors by Richardson extrapolation with Roache's grid convergence index",
+            gs.cells_m[0] * 1e3,
+            gs.cells_m[1] * 1e3,
+            gs.cells_m[2] * 1e3
+        );
+    }
+    let _ = writeln!(
+        o,
+        "- Electrostatic field energy: {:.2} J\n",
+        report.field_energy_j
+    );
+    let _ = writeln!(
+        o,
+        "| conductor | potential | peak surface field | at r, z (mm) | numerical error |"
+    );
+    let _ = writeln!(o, "|---|---:|---:|---:|---:|");
+    let mut cond: Vec<_> = report.conductors.iter().collect();
+    cond.sort_by(|a, b| {
+        b.peak_surface_field_v_per_m
+            .total_cmp(&a.peak_surface_field_v_per_m)
+    });
+    for c in cond {
+        let _ = writeln!(
+            o,
+            "| {} | {} | {:.3} kV/mm | {:.1}, {:.1} | {} |",
+            cell(&c.name),
+            kv(c.potential_v),
+            c.peak_surface_field_v_per_m / 1e6,
+            c.at_m[0] * 1e3,
+            c.at_m[1] * 1e3,
+            c.numerical_error_v_per_m
+                .map_or("-".to_string(), |e| format!("±{:.4} kV/mm", e / 1e6))
+        );
+    }
+    let _ = writeln!(o);
+
+    let _ = writeln!(o, "## 4. Margins, worst first\n");
+    let _ = writeln!(
+        o,
+        "| rank | item | medium | criterion | peak | limit | margin | ideal margin | status | numerical error |"
+    );
+    let _ = writeln!(o, "|---:|---|---|---|---:|---:|---:|---:|---|---:|");
+    for r in &report.margins {
+        let _ = writeln!(
+            o,
+            "| {} | {} | {} | {}{} | {} | {} | {} | {} | {} | {} |",
+            r.rank,
+            cell(&r.item),
+            r.medium.label(),
+            cell(&r.criterion_name),
+            if r.user_set { " (user-set)" } else { "" },
+            value_with_unit(r.kind, r.peak),
+            r.limit
+                .map_or("outside validity".into(), |l| value_with_unit(r.kind, l)),
+            r.margin.map_or("-".into(), |m| format!("{m:.2}")),
+            r.margin_ideal.map_or("-".into(), |m| format!("{m:.2}")),
+            if r.status == Status::Fail {
+                "**FAIL**"
+            } else {
+                r.status.label()
+            },
+            r.numerical_error
+                .map_or("-".into(), |e| format!("±{:.1} %", e * 100.0))
+        );
+    }
+    let _ = writeln!(o);
+    let hv = |v: Option<f64>| v.map_or("not reached".to_string(), kv);
+    let _ = writeln!(
+        o,
+        "Hold-off voltage: {} with the limits as used ({}); {} with every limit ideal ({}).\n",
+        hv(report.holdoff_voltage_v),
+        report
+            .holdoff_limiting
+            .as_ref()
+            .map_or("-".into(), |h| format!("{}, {}", h.item, h.criterion_name)),
+        hv(report.holdoff_voltage_ideal_v),
+        report
+            .holdoff_ideal_limiting
+            .as_ref()
+            .map_or("-".into(), |h| format!("{}, {}", h.item, h.criterion_name)),
+    );
+    for n in report.holdoff_notes.iter().chain(&report.margin_notes) {
+        let _ = writeln!(o, "- {}", cell(n));
+    }
+    let _ = writeln!(o);
+
+    if let Some(l) = &report.ladder {
+        let _ = writeln!(o, "## 5. Multiplier stack\n");
+        let _ = writeln!(
+            o,
+            "No-load {} , at load {} (drop {}), ripple {:.1} V p-p, stored energy {:.1} J.\n",
+            kv(l.output_no_load_v),
+            kv(l.output_mean_v),
+            kv(l.drop_v),
+            l.ripple_pp_v,
+            l.stored_energy_j
+        );
+        let _ = writeln!(
+            o,
+            "| stage | mean | ripple V p-p | capacitor max | diode PIV | energy J |"
+        );
+        let _ = writeln!(o, "|---:|---:|---:|---:|---:|---:|");
+        for n in &l.nodes {
+            let _ = writeln!(
+                o,
+                "| {} | {} | {:.1} | {} | {} | {:.2} |",
+                n.stage,
+                kv(n.mean_v),
+                n.ripple_pp_v,
+                kv(n.capacitor_max_v),
+                kv(n.diode_piv_v),
+                n.stored_energy_j
+            );
+        }
+        let _ = writeln!(o);
+    }
+
+    let _ = writeln!(o, "## 6. Assumptions\n");
+    let _ = writeln!(
+        o,
+        "- The structure is modelled as axisymmetric: posts, chains, belts, pulleys, side-mounted stacks, manways and feedthroughs are equivalent bodies of revolution or absent; inclined or spiral tube electrodes are modelled flat."
+    );
+    let _ = writeln!(
+        o,
+        "- Gas and vacuum are taken at ε_r = 1; dielectric permittivities are the values listed in section 2."
+    );
+    let _ = writeln!(
+        o,
+        "- Breakdown limits are for clean electrodes; large stressed areas, roughness, particles, humidity and conditioning history lower the hold-off (see the derating in the criterion column).\n"
+    );
+
+    let _ = writeln!(o, "## 7. Sources of the criteria used\n");
+    let sources: BTreeSet<&str> = report.margins.iter().map(|r| r.source.as_str()).collect();
+    for src in sources {
+        let _ = writeln!(o, "- {}", cell(src));
+    }
+    let _ = writeln!(o);
+
+    let _ = writeln!(o, "## 8. Cautions\n");
+    for c in &report.cautions {
+        let _ = writeln!(o, "- **{}**: {}", c.topic, c.text);
+    }
+    let _ = writeln!(o);
+
+    let _ = writeln!(o, "## 9. Sign-off\n");
+    let _ = writeln!(o, "| role | name | signature | date |");
+    let _ = writeln!(o, "|---|---|---|---|");
+    for role in [
+        "Preparer (design or high-voltage engineer)",
+        "Independent technical reviewer",
+        "High-voltage / electrical-safety authority",
+        "Radiation safety officer",
+        "Pressure-systems competent person",
+        "Responsible manager",
+    ] {
+        let _ = writeln!(o, "| {role} | | | |");
+    }
+    let _ = writeln!(o, "\n## Appendix: design file\n");
+    let _ = writeln!(o, "```toml\n{}\n```", design_text.trim_end());
+    o
+}

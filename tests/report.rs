@@ -1,0 +1,73 @@
+//! `holdoff report`: the review note's sections, its numbers against `check --json`, and
+//! reproducibility.
+
+use std::process::Command;
+
+fn holdoff() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_holdoff"))
+}
+
+fn note(dir: &std::path::Path, name: &str) -> String {
+    let path = dir.join(name);
+    let out = holdoff()
+        .args(["report", "examples/demo_750kv.toml", "--out"])
+        .arg(&path)
+        .output()
+        .expect("runs");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    std::fs::read_to_string(&path).expect("note written")
+}
+
+#[test]
+fn note_has_its_sections_and_the_numbers_of_check() {
+    let dir = std::env::temp_dir().join(format!("holdoff-note-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let a = note(&dir, "a.md");
+    for section in [
+        "## 1. Scope and ratings",
+        "## 2. What was modelled",
+        "## 3. Field solution",
+        "## 4. Margins, worst first",
+        "## 5. Multiplier stack",
+        "## 6. Assumptions",
+        "## 7. Sources of the criteria used",
+        "## 8. Cautions",
+        "## 9. Sign-off",
+    ] {
+        assert!(a.contains(section), "missing {section}");
+    }
+    assert!(a.contains("not a certification"));
+    // The same numbers as check --json.
+    let out = holdoff()
+        .args(["check", "examples/demo_750kv.toml", "--json", "-"])
+        .output()
+        .expect("runs");
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
+    let holdoff_kv = v["holdoff_voltage_v"].as_f64().unwrap() / 1e3;
+    assert!(
+        a.contains(&format!("Hold-off voltage: {holdoff_kv:.1} kV")),
+        "hold-off"
+    );
+    assert!(a.contains(v["design"]["sha256"].as_str().unwrap()));
+    let first = &v["margins"][0];
+    assert!(a.contains(&format!("| 1 | {} |", first["item"].as_str().unwrap())));
+    assert!(a.contains(&format!("{:.2}", first["margin"].as_f64().unwrap())));
+    // Reproducible: the same design gives the same note.
+    let b = note(&dir, "b.md");
+    assert_eq!(a, b);
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn note_must_be_markdown() {
+    let out = holdoff()
+        .args(["report", "examples/demo_750kv.toml", "--out", "notes.docx"])
+        .output()
+        .expect("runs");
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains(".md"));
+}
