@@ -48,6 +48,7 @@ pub mod benchmark;
 pub mod breakdown;
 pub mod capacitance;
 pub mod design;
+pub mod faults;
 pub mod field;
 pub mod fieldline;
 pub mod geometry;

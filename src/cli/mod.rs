@@ -2,6 +2,7 @@
 
 mod bench;
 mod check;
+mod faults;
 mod ladder;
 mod size;
 
@@ -26,6 +27,8 @@ pub enum Command {
     Ladder(ladder::LadderArgs),
     /// Search stage count and capacitance for a terminal voltage, load and ripple.
     Size(Box<size::SizeArgs>),
+    /// Replay every grading-resistor failure, tolerance and the spark transient, ranked.
+    Faults(faults::FaultsArgs),
     /// Time the field solver on a standard problem at several sizes.
     Bench(bench::BenchArgs),
 }
@@ -37,6 +40,7 @@ pub fn run() -> anyhow::Result<ExitCode> {
         Command::Demo(a) => check::run_demo(&a),
         Command::Ladder(a) => ladder::run(&a),
         Command::Size(a) => size::run(&a),
+        Command::Faults(a) => faults::run(&a),
         Command::Bench(a) => bench::run(&a),
     }
 }
