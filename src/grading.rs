@@ -34,12 +34,26 @@ pub enum GradingError {
     },
     #[error("the potentials of '{conductor}' depend on each other in a loop")]
     Loop { conductor: String },
+    #[error(transparent)]
+    Network(#[from] NetworkError),
 }
 
 /// Resolves every conductor potential to volts. `stage_v[k]` is the loaded mean voltage of
 /// multiplier stage node k (index 0 = stage 1), when a ladder model is available.
+///
+/// The grading nodes of each column take the DC solution of its network as the design gives
+/// it (`Network::from_column`): equal shares for the uniform chains that design files describe.
+/// The column ends are resolved first (an end that is itself a grading node of another column
+/// takes that column's equal share).
 pub fn potentials(model: &Model, stage_v: Option<&[f64]>) -> Result<Vec<f64>, GradingError> {
-    potentials_inner(model, stage_v, None)
+    let ends = potentials_inner(model, stage_v, None)?;
+    let mut node_v = Vec::with_capacity(model.columns.len());
+    for (c, col) in model.columns.iter().enumerate() {
+        let end = |k: Option<usize>| k.and_then(|k| ends.get(k)).copied().unwrap_or(0.0);
+        let net = Network::from_column(model, c)?;
+        node_v.push(net.solve(end(col.from), end(col.to))?.node_v);
+    }
+    potentials_inner(model, stage_v, Some(&node_v))
 }
 
 /// Resolves every conductor potential to volts, with the grading nodes of each column taken
@@ -72,7 +86,7 @@ pub fn column_ends(
     stage_v: Option<&[f64]>,
     column: usize,
 ) -> Result<(f64, f64), GradingError> {
-    let v = potentials(model, stage_v)?;
+    let v = potentials_inner(model, stage_v, None)?;
     let Some(col) = model.columns.get(column) else {
         return Err(GradingError::NoSuchColumn {
             conductor: String::from("(column ends)"),
