@@ -293,6 +293,8 @@ pub struct MonteCarlo {
 /// Energies of a terminal-to-tank spark, J.
 #[derive(Debug, Clone, Serialize)]
 pub struct SparkEnergy {
+    /// The column sections shorted (empty for the machine as designed).
+    pub shorted_sections: Vec<Section>,
     /// Electrostatic energy of the electrodes before the spark, ½VᵀCV.
     pub stored_j: f64,
     /// Released in the fast collapse (stored minus what the floating column still holds).
@@ -311,17 +313,30 @@ pub struct FaultReplay {
     pub capacitance_matrix_f: Vec<Vec<f64>>,
     pub capacitance_asymmetry: f64,
     pub spark_energy: Option<SparkEnergy>,
+    /// The spark energy with the chosen column sections shorted, as during conditioning.
+    pub spark_energy_conditioning: Option<SparkEnergy>,
     pub networks: Vec<Network>,
     pub basis_memory_bytes: usize,
     pub notes: Vec<String>,
 }
 
+/// Consecutive gaps of a column shorted together, as during conditioning: gaps `first_gap` to
+/// `last_gap` (0-based, inclusive) of column `column`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct Section {
+    pub column: usize,
+    pub first_gap: usize,
+    pub last_gap: usize,
+}
+
 /// Settings of a replay.
-#[derive(Debug, Clone, Copy)]
+#[derive(Debug, Clone)]
 pub struct ReplayOptions {
     /// Monte Carlo draws of the resistor tolerance (0 = none).
     pub samples: usize,
     pub seed: u64,
+    /// Sections shorted for the conditioning spark energy (empty = none).
+    pub shorted_sections: Vec<Section>,
 }
 
 impl Default for ReplayOptions {
@@ -329,6 +344,7 @@ impl Default for ReplayOptions {
         Self {
             samples: 200,
             seed: 1,
+            shorted_sections: Vec::new(),
         }
     }
 }
@@ -717,13 +733,19 @@ pub fn replay(
     };
     let before = basis.electrode_potentials(&nominal_pot);
     let mut spark_energy = None;
+    let mut spark_energy_conditioning = None;
     match transient_potentials(model, &basis, &before) {
         Ok(after) => {
-            let stored = basis.energy_j(&before);
-            spark_energy = Some(SparkEnergy {
-                stored_j: stored,
-                released_fast_j: stored - basis.energy_j(&after),
-            });
+            spark_energy = Some(spark_energy_with(model, &basis, stage_v, &networks, &[])?);
+            if !options.shorted_sections.is_empty() {
+                spark_energy_conditioning = Some(spark_energy_with(
+                    model,
+                    &basis,
+                    stage_v,
+                    &networks,
+                    &options.shorted_sections,
+                )?);
+            }
             let conductor_v = basis.conductor_potentials(&after);
             let node_v = column_nodes(model, &conductor_v);
             let gap_v: Vec<Vec<f64>> = node_v
@@ -773,6 +795,7 @@ pub fn replay(
         capacitance_matrix_f: basis.capacitance.c_f.clone(),
         capacitance_asymmetry: basis.capacitance.asymmetry,
         spark_energy,
+        spark_energy_conditioning,
         networks,
         basis_memory_bytes: basis.memory_bytes(),
         notes,
@@ -860,4 +883,150 @@ pub fn column_nodes(model: &Model, conductor_v: &[f64]) -> Vec<Vec<f64>> {
             v
         })
         .collect()
+}
+
+/// The energy of a terminal-to-tank spark with the given sections shorted: the DC state with
+/// their resistors shorted (the resistive division, protective gaps idle: a gap that would
+/// fire at that voltage shows in the scenarios), then the fast collapse with the electrodes of
+/// each section tied together (one node; tied to the tank or the terminal when the section
+/// reaches an end).
+pub fn spark_energy_with(
+    model: &Model,
+    basis: &Basis,
+    stage_v: Option<&[f64]>,
+    networks: &[Network],
+    sections: &[Section],
+) -> Result<SparkEnergy, FaultError> {
+    let mut nets = networks.to_vec();
+    for n in &mut nets {
+        n.protective.clear();
+    }
+    for sec in sections {
+        let Some(n) = nets.get(sec.column) else {
+            return Err(FaultError::Transient(format!(
+                "shorted section names column {}, but the design has {} columns",
+                sec.column + 1,
+                nets.len()
+            )));
+        };
+        if sec.first_gap > sec.last_gap || sec.last_gap >= n.gaps() {
+            return Err(FaultError::Transient(format!(
+                "shorted section of column {}: gaps {} to {} are not within 1 to {}",
+                sec.column + 1,
+                sec.first_gap + 1,
+                sec.last_gap + 1,
+                n.gaps()
+            )));
+        }
+        let mut m = n.clone();
+        for g in sec.first_gap..=sec.last_gap {
+            for st in 0..m.strings() {
+                m = m.with_short(g, st)?;
+            }
+        }
+        nets[sec.column] = m;
+    }
+    let sols = solve_networks(model, stage_v, &nets)?;
+    let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
+    let pots = grading::potentials_with_nodes(model, stage_v, &node_v)?;
+    let before = basis.electrode_potentials(&pots);
+    let stored = basis.energy_j(&before);
+
+    // Groups of electrodes tied by the sections; `ground` marks groups tied to the tank.
+    let ne = basis.electrodes.len();
+    let mut parent: Vec<usize> = (0..=ne).collect(); // index ne = the tank
+    fn find(p: &mut [usize], mut i: usize) -> usize {
+        while p[i] != i {
+            p[i] = p[p[i]];
+            i = p[i];
+        }
+        i
+    }
+    for sec in sections {
+        let col = &model.columns[sec.column];
+        let node_electrode = |k: usize| -> usize {
+            let cond = if k == 0 {
+                col.from
+            } else if k == col.electrodes.len() + 1 {
+                col.to
+            } else {
+                col.electrodes.get(k - 1).copied()
+            };
+            cond.and_then(|c| basis.conductor_electrode.get(c).copied().flatten())
+                .unwrap_or(ne)
+        };
+        let first = node_electrode(sec.first_gap);
+        for k in sec.first_gap + 1..=sec.last_gap + 1 {
+            let (a, b) = (
+                find(&mut parent, first),
+                find(&mut parent, node_electrode(k)),
+            );
+            if a != b {
+                // Keep the tank as the root of its group.
+                if a == ne {
+                    parent[b] = a;
+                } else {
+                    parent[a] = b;
+                }
+            }
+        }
+    }
+    let roots: Vec<usize> = (0..ne).map(|i| find(&mut parent, i)).collect();
+    let tank_root = find(&mut parent, ne);
+    let mut groups: Vec<usize> = Vec::new();
+    let mut group_of = vec![None; ne];
+    for i in 0..ne {
+        if roots[i] == tank_root {
+            continue;
+        }
+        let g = match groups.iter().position(|&r| r == roots[i]) {
+            Some(g) => g,
+            None => {
+                groups.push(roots[i]);
+                groups.len() - 1
+            }
+        };
+        group_of[i] = Some(g);
+    }
+    let ng = groups.len();
+    let mut c = vec![vec![0.0; ng]; ng];
+    let mut v_before = vec![0.0; ng];
+    let mut floating = vec![true; ng];
+    let mut sparked = vec![false; ng];
+    for i in 0..ne {
+        let Some(gi) = group_of[i] else { continue };
+        v_before[gi] = before[i];
+        let spec = basis.electrodes[i]
+            .conductors
+            .first()
+            .map(|&k| &model.conductors[k].potential);
+        match spec {
+            Some(PotentialSpec::Grading { .. }) => {}
+            Some(PotentialSpec::Terminal { .. }) => {
+                floating[gi] = false;
+                sparked[gi] = true;
+            }
+            _ => floating[gi] = false,
+        }
+        for (j, gj) in group_of.iter().enumerate() {
+            if let Some(gj) = *gj {
+                c[gi][gj] += basis.capacitance.c_f[i][j];
+            }
+        }
+    }
+    if !sparked.iter().any(|s| *s) {
+        return Err(FaultError::Transient(
+            "no conductor is tied to the terminal (or the terminal is shorted to the tank)"
+                .to_string(),
+        ));
+    }
+    let after_held: Vec<f64> = (0..ng)
+        .map(|g| if sparked[g] { 0.0 } else { v_before[g] })
+        .collect();
+    let after = fast_step(&c, &floating, &v_before, &after_held)?;
+    Ok(SparkEnergy {
+        shorted_sections: sections.to_vec(),
+        stored_j: stored,
+        released_fast_j: stored - quadratic(&c, &after),
+    })
 }

@@ -181,7 +181,7 @@ pub const SHORT_FRACTION: f64 = 1e-9;
 const FLOOR_FRACTION: f64 = 1e-15;
 
 /// A fired protective gap holds its firing voltage through a branch whose conductance is this
-/// multiple of the largest resistor-string conductance (the clamp holds to about 1e-6).
+/// multiple of the median gap conductance (the clamp holds to about 1e-6).
 const CLAMP_FACTOR: f64 = 1e6;
 
 /// Default half-width of the firing band of a protective gap, as a fraction of its nominal
@@ -476,7 +476,11 @@ impl Network {
             });
         }
         let g_floor = g_max * FLOOR_FRACTION;
-        let g_clamp = g_max * CLAMP_FACTOR;
+        // The clamp is stiff against the typical gap (the median), not against a shorted one.
+        let mut sorted: Vec<f64> = g_gap.iter().copied().filter(|g| *g > 0.0).collect();
+        sorted.sort_by(f64::total_cmp);
+        let g_typical = sorted.get(sorted.len() / 2).copied().unwrap_or(g_max);
+        let g_clamp = g_typical * CLAMP_FACTOR;
         // Per protective gap: None = idle, Some(sign) = clamped at sign·firing.
         let mut active: Vec<Option<f64>> = vec![None; self.protective.len()];
         let max_iter = 4 * self.protective.len() + 8;

@@ -144,6 +144,7 @@ fn replay_is_repeatable_and_complete() {
     let options = ReplayOptions {
         samples: 8,
         seed: 42,
+        ..Default::default()
     };
     let a = replay(&m, &mesh, &params, None, &options, &|_| {}).expect("replay");
     let b = replay(&m, &mesh, &params, None, &options, &|_| {}).expect("replay");
@@ -193,6 +194,7 @@ fn replay_is_repeatable_and_complete() {
         &ReplayOptions {
             samples: 8,
             seed: 43,
+            ..Default::default()
         },
         &|_| {},
     )
@@ -202,4 +204,42 @@ fn replay_is_repeatable_and_complete() {
         serde_json::to_string(mc).expect("json"),
         serde_json::to_string(mc_c).expect("json")
     );
+}
+
+/// Conditioning: with gaps 1–4 of the small column shorted, every column electrode is tied to
+/// the earthed end and only the terminal is charged, so the stored energy is ½·C_tt·V² with
+/// C_tt the terminal's diagonal Maxwell coefficient (energy of a capacitor, W = ½CV²), and the
+/// whole of it is released when the terminal falls to 0.
+#[test]
+fn conditioning_spark_energy_with_shorted_sections() {
+    let m = small();
+    let mesh = Mesh::build(&m).expect("mesh");
+    let params = SolverParams::default();
+    let options = ReplayOptions {
+        samples: 0,
+        seed: 1,
+        shorted_sections: vec![holdoff::faults::Section {
+            column: 0,
+            first_gap: 0,
+            last_gap: 3,
+        }],
+    };
+    let r = replay(&m, &mesh, &params, None, &options, &|_| {}).expect("replay");
+    let t = r
+        .electrodes
+        .iter()
+        .position(|e| e == "terminal")
+        .expect("terminal electrode");
+    let c_tt = r.capacitance_matrix_f[t][t];
+    let v: f64 = 200e3;
+    let e = r.spark_energy_conditioning.as_ref().expect("conditioning");
+    let expected = 0.5 * c_tt * v * v;
+    assert!(
+        (e.stored_j - expected).abs() / expected < 1e-6,
+        "{} vs {expected}",
+        e.stored_j
+    );
+    assert!((e.released_fast_j - e.stored_j).abs() / e.stored_j < 1e-6);
+    let full = r.spark_energy.as_ref().expect("spark");
+    assert!(full.released_fast_j > 0.0 && full.released_fast_j <= full.stored_j);
 }

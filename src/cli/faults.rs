@@ -3,7 +3,7 @@
 
 use anyhow::{Context, Result};
 use clap::Args;
-use holdoff::faults::{ReplayOptions, replay, scenario_count};
+use holdoff::faults::{ReplayOptions, Section, replay, scenario_count};
 use holdoff::mesh::Mesh;
 use holdoff::report::faults::{FaultSection, render};
 use holdoff::report::{sha256_hex, write_atomic};
@@ -25,6 +25,10 @@ pub struct FaultsArgs {
     /// Seed of the Monte Carlo draws.
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
+    /// Short gaps FIRST to LAST (1-based, inclusive) of column COLUMN for the conditioning
+    /// spark energy, as COLUMN:FIRST-LAST; repeatable.
+    #[arg(long = "short-section", value_name = "COLUMN:FIRST-LAST", value_parser = parse_section)]
+    pub short_sections: Vec<Section>,
     /// How many of the worst scenarios to show in detail.
     #[arg(long, value_name = "N", default_value_t = 3)]
     pub details: usize,
@@ -51,6 +55,7 @@ pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
     let options = ReplayOptions {
         samples: args.samples,
         seed: args.seed,
+        shorted_sections: args.short_sections.clone(),
     };
     let total = scenario_count(&model, args.samples);
     let show = std::io::stderr().is_terminal();
@@ -100,4 +105,28 @@ pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
     }
     print!("{}", render(&section, args.details));
     Ok(ExitCode::SUCCESS)
+}
+
+/// Parses COLUMN:FIRST-LAST (1-based) into a 0-based section.
+fn parse_section(text: &str) -> std::result::Result<Section, String> {
+    let bad = || {
+        format!(
+            "--short-section {text:?}: expected COLUMN:FIRST-LAST with 1-based whole numbers, \
+             FIRST <= LAST, e.g. 1:3-5"
+        )
+    };
+    let (c, range) = text.split_once(':').ok_or_else(bad)?;
+    let (a, b) = range.split_once('-').ok_or_else(bad)?;
+    let num = |s: &str| s.trim().parse::<usize>().ok().filter(|n| *n >= 1);
+    let (Some(c), Some(a), Some(b)) = (num(c), num(a), num(b)) else {
+        return Err(bad());
+    };
+    if a > b {
+        return Err(bad());
+    }
+    Ok(Section {
+        column: c - 1,
+        first_gap: a - 1,
+        last_gap: b - 1,
+    })
 }

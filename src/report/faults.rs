@@ -108,6 +108,28 @@ pub fn render(s: &FaultSection, details: usize) -> String {
         );
     }
 
+    if let Some(e) = &r.spark_energy_conditioning {
+        let list: Vec<String> = e
+            .shorted_sections
+            .iter()
+            .map(|s| {
+                format!(
+                    "column {} gaps {}–{}",
+                    s.column + 1,
+                    s.first_gap + 1,
+                    s.last_gap + 1
+                )
+            })
+            .collect();
+        let _ = writeln!(
+            out,
+            "Spark energy with {} shorted (conditioning): {:.2} J stored, {:.2} J released in \
+             the fast collapse",
+            list.join(", "),
+            e.stored_j,
+            e.released_fast_j
+        );
+    }
     let _ = writeln!(
         out,
         "\nWorst {} scenarios in detail",
