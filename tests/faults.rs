@@ -243,3 +243,69 @@ fn conditioning_spark_energy_with_shorted_sections() {
     let full = r.spark_energy.as_ref().expect("spark");
     assert!(full.released_fast_j > 0.0 && full.released_fast_j <= full.stored_j);
 }
+
+/// `holdoff faults FILE --json -` writes the scenarios with the documented keys and the
+/// capacitance matrix; a malformed `--short-section` is an error naming what is accepted.
+#[test]
+fn faults_command_writes_json() {
+    let dir = std::env::temp_dir().join(format!("holdoff-faults-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let file = dir.join("small.toml");
+    std::fs::write(&file, SMALL).expect("write design");
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+        .args([
+            "faults",
+            file.to_str().expect("path"),
+            "--json",
+            "-",
+            "--samples",
+            "4",
+        ])
+        .output()
+        .expect("runs");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
+    let scenarios = v["scenarios"].as_array().expect("scenarios");
+    assert!(!scenarios.is_empty());
+    for s in scenarios {
+        for key in [
+            "name",
+            "kind",
+            "resistor",
+            "gap_voltages_v",
+            "worst_margin",
+            "worst_item",
+            "protective_gap_fired",
+        ] {
+            assert!(s.get(key).is_some(), "missing {key}");
+        }
+    }
+    let open = scenarios
+        .iter()
+        .find(|s| s["kind"] == "open")
+        .expect("open scenario");
+    assert!(open["resistor"]["index"].is_u64());
+    let c = v["capacitance_matrix_f"].as_array().expect("matrix");
+    assert_eq!(
+        c.len(),
+        v["electrodes"].as_array().expect("electrodes").len()
+    );
+
+    let bad = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+        .args([
+            "faults",
+            file.to_str().expect("path"),
+            "--short-section",
+            "1:5-2",
+        ])
+        .output()
+        .expect("runs");
+    assert!(!bad.status.success());
+    let err = String::from_utf8_lossy(&bad.stderr);
+    assert!(err.contains("COLUMN:FIRST-LAST"), "{err}");
+    let _ = std::fs::remove_dir_all(&dir);
+}
