@@ -95,7 +95,8 @@ pub fn render(s: &FaultSection, details: usize) -> String {
             opt(mc.worst_margin_min, 4),
             opt(mc.worst_margin_mean, 4),
             opt(mc.worst_margin_max, 4),
-            opt(mc.worst_margin_std, 5),
+            mc.worst_margin_std
+                .map_or_else(|| "-".to_string(), |x| format!("{x:.2e}")),
             mc.max_gap_v / 1e3
         );
     }
