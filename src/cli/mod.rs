@@ -3,6 +3,7 @@
 mod bench;
 mod check;
 mod compare;
+mod faults;
 mod ladder;
 mod report;
 mod size;
@@ -35,6 +36,8 @@ pub enum Command {
     Size(Box<size::SizeArgs>),
     /// Vary one design value over a range; optionally find the least value that passes.
     Sweep(sweep::SweepArgs),
+    /// Replay every grading-resistor failure, tolerance and the spark transient, ranked.
+    Faults(faults::FaultsArgs),
     /// Time the field solver on a standard problem at several sizes.
     Bench(bench::BenchArgs),
 }
@@ -49,6 +52,7 @@ pub fn run() -> anyhow::Result<ExitCode> {
         Command::Ladder(a) => ladder::run(&a),
         Command::Size(a) => size::run(&a),
         Command::Sweep(a) => sweep::run(&a),
+        Command::Faults(a) => faults::run(&a),
         Command::Bench(a) => bench::run(&a),
     }
 }

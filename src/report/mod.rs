@@ -5,6 +5,7 @@
 //! terminal table (`table`) or JSON (`json`). Rendering never computes physics.
 
 pub mod cautions;
+pub mod faults;
 pub mod finite;
 pub mod ladder;
 pub mod markdown;

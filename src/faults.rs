@@ -1,0 +1,1032 @@
+//! Fault replay of the grading network: every single-resistor failure, resistor tolerance,
+//! and the fast transient after a terminal-to-tank spark, each with its margins.
+//!
+//! Input: a model, its mesh and solver settings, and optional multiplier stage voltages.
+//! Output: one `ScenarioResult` per scenario (gap voltages, worst margin, protective gaps),
+//! ranked worst first, the capacitance matrix of the electrodes and the spark energies.
+//!
+//! The field is linear in the electrode potentials, so it is solved once per electrode at unit
+//! potential (one operator and multigrid hierarchy, each solve warm-started from the previous
+//! one) and any scenario's field is the weighted sum φ = Σ_e V_e φ_e. The same unit solves give
+//! the Maxwell capacitance matrix by Gauss's law on each electrode, from which the transient
+//! follows: just after the terminal collapses, the column electrodes float (the resistors act
+//! on a time scale of R·C, milliseconds, against nanoseconds for the spark), so their charges
+//! are conserved: C_FF ΔV_F + C_FH ΔV_H = 0.
+
+use crate::analysis::Analysis;
+use crate::capacitance::{CapacitanceMatrix, Electrode, conductor_charges, electrodes};
+use crate::field::FieldMap;
+use crate::grading::{self, GradingError, Network, NetworkError, NetworkSolution};
+use crate::margin::{self, MarginError};
+use crate::mesh::Mesh;
+use crate::model::{Model, PotentialSpec};
+use crate::solve::{Solution, SolveError, SolveInfo, Solver, SolverParams};
+use rayon::prelude::*;
+use serde::Serialize;
+use thiserror::Error;
+
+#[derive(Debug, Error)]
+pub enum FaultError {
+    #[error(transparent)]
+    Grading(#[from] GradingError),
+    #[error(transparent)]
+    Network(#[from] NetworkError),
+    #[error(transparent)]
+    Solve(#[from] SolveError),
+    #[error(transparent)]
+    Margin(#[from] MarginError),
+    #[error("the design has no [[column]]: there is no grading network to replay faults on")]
+    NoColumns,
+    #[error("the fast transient cannot be formed: {0}")]
+    Transient(String),
+}
+
+/// The unit-potential solutions of the electrodes, with their capacitance matrix.
+pub struct Basis {
+    pub electrodes: Vec<Electrode>,
+    /// Electrode of each conductor (None for earthed conductors).
+    pub conductor_electrode: Vec<Option<usize>>,
+    /// Unit solution of each electrode on the mesh nodes.
+    phi: Vec<Vec<f64>>,
+    pub capacitance: CapacitanceMatrix,
+    /// Figures of the last unit solve (for the analyses formed from the basis).
+    pub info: SolveInfo,
+}
+
+impl Basis {
+    /// One unit solve per electrode on `mesh`, reusing one operator and hierarchy.
+    pub fn build(model: &Model, mesh: &Mesh, params: &SolverParams) -> Result<Basis, FaultError> {
+        let groups = electrodes(model);
+        let n = groups.len();
+        let mut conductor_electrode = vec![None; model.conductors.len()];
+        for (e, g) in groups.iter().enumerate() {
+            for &k in &g.conductors {
+                conductor_electrode[k] = Some(e);
+            }
+        }
+        let mut solver = Solver::new(mesh, *params);
+        let mut c_f = vec![vec![0.0; n]; n];
+        let mut phi: Vec<Vec<f64>> = Vec::with_capacity(n);
+        let mut iterations = 0;
+        let mut info = None;
+        for (j, g) in groups.iter().enumerate() {
+            let mut pots = vec![0.0; model.conductors.len()];
+            for &k in &g.conductors {
+                pots[k] = 1.0;
+            }
+            let sol = solver.solve(&pots, phi.last().map(|p| p.as_slice()))?;
+            iterations += sol.info.iterations;
+            let q = conductor_charges(mesh, &sol.phi, &pots);
+            for (i, gi) in groups.iter().enumerate() {
+                c_f[i][j] = gi.conductors.iter().map(|&k| q[k]).sum();
+            }
+            info = Some(sol.info);
+            phi.push(sol.phi);
+        }
+        let Some(info) = info else {
+            return Err(FaultError::Transient(
+                "the design has no conductor off earth potential".to_string(),
+            ));
+        };
+        let scale = (0..n).map(|i| c_f[i][i].abs()).fold(0.0, f64::max);
+        let mut asymmetry: f64 = 0.0;
+        for (i, row) in c_f.iter().enumerate() {
+            for (j, &cij) in row.iter().enumerate().take(i) {
+                asymmetry = asymmetry.max((cij - c_f[j][i]).abs());
+            }
+        }
+        Ok(Basis {
+            electrodes: groups.clone(),
+            conductor_electrode,
+            phi,
+            capacitance: CapacitanceMatrix {
+                electrodes: groups,
+                c_f,
+                asymmetry: if scale > 0.0 { asymmetry / scale } else { 0.0 },
+                iterations,
+            },
+            info,
+        })
+    }
+
+    /// Electrode potentials from conductor potentials (the first conductor of each electrode).
+    pub fn electrode_potentials(&self, potentials: &[f64]) -> Vec<f64> {
+        self.electrodes
+            .iter()
+            .map(|e| {
+                e.conductors
+                    .first()
+                    .and_then(|&k| potentials.get(k))
+                    .copied()
+                    .unwrap_or(0.0)
+            })
+            .collect()
+    }
+
+    /// Conductor potentials from electrode potentials (earthed conductors at 0).
+    pub fn conductor_potentials(&self, electrode_v: &[f64]) -> Vec<f64> {
+        self.conductor_electrode
+            .iter()
+            .map(|e| e.and_then(|e| electrode_v.get(e)).copied().unwrap_or(0.0))
+            .collect()
+    }
+
+    /// The field of the given electrode potentials: φ = Σ_e V_e φ_e.
+    pub fn field(&self, electrode_v: &[f64]) -> Vec<f64> {
+        let n = self.phi.first().map_or(0, |p| p.len());
+        let mut out = vec![0.0; n];
+        for (p, &w) in self.phi.iter().zip(electrode_v) {
+            if w == 0.0 {
+                continue;
+            }
+            out.iter_mut().zip(p).for_each(|(o, x)| *o += w * x);
+        }
+        out
+    }
+
+    /// Electrostatic energy of the electrodes at the given potentials, ½ VᵀCV, J.
+    pub fn energy_j(&self, electrode_v: &[f64]) -> f64 {
+        quadratic(&self.capacitance.c_f, electrode_v)
+    }
+
+    /// Bytes held by the unit solutions.
+    pub fn memory_bytes(&self) -> usize {
+        self.phi.iter().map(|p| p.len() * 8).sum()
+    }
+}
+
+fn quadratic(c: &[Vec<f64>], v: &[f64]) -> f64 {
+    let mut e = 0.0;
+    for (row, vi) in c.iter().zip(v) {
+        for (cij, vj) in row.iter().zip(v) {
+            e += vi * cij * vj;
+        }
+    }
+    0.5 * e
+}
+
+/// Potentials of the electrodes just after some of them are stepped, with the others
+/// floating: `floating[e]` marks the electrodes whose charge is conserved; the held ones go to
+/// `after_held[e]`. From Q = C V: C_FF ΔV_F = −C_FH ΔV_H.
+pub fn fast_step(
+    c_f: &[Vec<f64>],
+    floating: &[bool],
+    before: &[f64],
+    after_held: &[f64],
+) -> Result<Vec<f64>, FaultError> {
+    let n = c_f.len();
+    if floating.len() != n || before.len() != n || after_held.len() != n {
+        return Err(FaultError::Transient(format!(
+            "{} electrodes in the capacitance matrix, but {} / {} / {} entries given",
+            n,
+            floating.len(),
+            before.len(),
+            after_held.len()
+        )));
+    }
+    let f: Vec<usize> = (0..n).filter(|&i| floating[i]).collect();
+    let mut after: Vec<f64> = (0..n)
+        .map(|i| {
+            if floating[i] {
+                before[i]
+            } else {
+                after_held[i]
+            }
+        })
+        .collect();
+    if f.is_empty() {
+        return Ok(after);
+    }
+    let m = f.len();
+    let a = nalgebra::DMatrix::from_fn(m, m, |i, j| c_f[f[i]][f[j]]);
+    let b = nalgebra::DVector::from_fn(m, |i, _| {
+        -(0..n)
+            .filter(|&h| !floating[h])
+            .map(|h| c_f[f[i]][h] * (after_held[h] - before[h]))
+            .sum::<f64>()
+    });
+    let dv = a.lu().solve(&b).ok_or_else(|| {
+        FaultError::Transient("the floating part of the capacitance matrix is singular".into())
+    })?;
+    for (i, &e) in f.iter().enumerate() {
+        after[e] = before[e] + dv[i];
+    }
+    Ok(after)
+}
+
+/// What a scenario changes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Kind {
+    Nominal,
+    Open,
+    Short,
+    Tolerance,
+    Transient,
+}
+
+/// A resistor of a column: gap g (between nodes g and g + 1) of string s.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct ResistorRef {
+    /// Running index over all resistors of all columns (column-major, gap, then string).
+    pub index: usize,
+    pub column: usize,
+    pub gap: usize,
+    pub string: usize,
+}
+
+/// A protective gap that fired (or may fire, within its band) in a scenario.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FiredGap {
+    pub column: usize,
+    pub from_node: usize,
+    pub to_node: usize,
+    pub voltage_v: f64,
+    pub firing_v: f64,
+}
+
+/// The result of one scenario.
+#[derive(Debug, Clone, Serialize)]
+pub struct ScenarioResult {
+    /// 1 = worst.
+    pub rank: usize,
+    pub name: String,
+    pub kind: Kind,
+    pub resistor: Option<ResistorRef>,
+    /// Gap voltages per column, V (node g + 1 minus node g).
+    pub gap_voltages_v: Vec<Vec<f64>>,
+    /// Smallest margin of the field checks (`margin::evaluate`), when any row has a number.
+    pub worst_margin: Option<f64>,
+    pub worst_item: Option<String>,
+    /// Criterion of the worst row.
+    pub worst_criterion: Option<String>,
+    /// Worst margin relative to the nominal one, minus 1 (−0.05 = 5 % less margin).
+    pub change_from_nominal: Option<f64>,
+    /// True when any protective gap fired (or reached the bottom of its firing band).
+    pub protective_gap_fired: bool,
+    pub fired_gaps: Vec<FiredGap>,
+    /// Largest |gap voltage| over all columns, V, and the largest ratio to the nominal DC
+    /// voltage of the same gap.
+    pub max_gap_v: f64,
+    pub max_gap_ratio_to_nominal: f64,
+    /// Smallest (bottom-of-band firing voltage)/|span voltage| over the protective gaps.
+    pub protective_gap_margin: Option<f64>,
+}
+
+/// Spread of the worst margin over the Monte Carlo draws.
+#[derive(Debug, Clone, Serialize)]
+pub struct MonteCarlo {
+    pub draws: usize,
+    pub seed: u64,
+    /// How each resistor was drawn.
+    pub distribution: String,
+    pub worst_margin_min: Option<f64>,
+    pub worst_margin_mean: Option<f64>,
+    pub worst_margin_max: Option<f64>,
+    /// Standard deviation of the worst margin over the draws.
+    pub worst_margin_std: Option<f64>,
+    /// Draw (0-based) with the smallest worst margin.
+    pub worst_draw: Option<usize>,
+    pub max_gap_v: f64,
+}
+
+/// Energies of a terminal-to-tank spark, J.
+#[derive(Debug, Clone, Serialize)]
+pub struct SparkEnergy {
+    /// The column sections shorted (empty for the machine as designed).
+    pub shorted_sections: Vec<Section>,
+    /// Electrostatic energy of the electrodes before the spark, ½VᵀCV.
+    pub stored_j: f64,
+    /// Released in the fast collapse (stored minus what the floating column still holds).
+    pub released_fast_j: f64,
+}
+
+/// What the fault replay computes.
+#[derive(Debug, Clone, Serialize)]
+pub struct FaultReplay {
+    pub terminal_voltage_v: f64,
+    pub nominal_worst_margin: Option<f64>,
+    /// Ranked worst first.
+    pub scenarios: Vec<ScenarioResult>,
+    pub monte_carlo: Option<MonteCarlo>,
+    pub electrodes: Vec<String>,
+    pub capacitance_matrix_f: Vec<Vec<f64>>,
+    pub capacitance_asymmetry: f64,
+    pub spark_energy: Option<SparkEnergy>,
+    /// The spark energy with the chosen column sections shorted, as during conditioning.
+    pub spark_energy_conditioning: Option<SparkEnergy>,
+    pub networks: Vec<Network>,
+    pub basis_memory_bytes: usize,
+    pub notes: Vec<String>,
+}
+
+/// Consecutive gaps of a column shorted together, as during conditioning: gaps `first_gap` to
+/// `last_gap` (0-based, inclusive) of column `column`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct Section {
+    pub column: usize,
+    pub first_gap: usize,
+    pub last_gap: usize,
+}
+
+/// Settings of a replay.
+#[derive(Debug, Clone)]
+pub struct ReplayOptions {
+    /// Monte Carlo draws of the resistor tolerance (0 = none).
+    pub samples: usize,
+    pub seed: u64,
+    /// Sections shorted for the conditioning spark energy (empty = none).
+    pub shorted_sections: Vec<Section>,
+}
+
+impl Default for ReplayOptions {
+    fn default() -> Self {
+        Self {
+            samples: 200,
+            seed: 1,
+            shorted_sections: Vec::new(),
+        }
+    }
+}
+
+/// SplitMix64 (Steele, Lea and Flood 2014): a small, seedable, portable generator, so that a
+/// seed gives the same draws on every platform.
+struct SplitMix64(u64);
+
+impl SplitMix64 {
+    fn next_u64(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+    /// Uniform in [0, 1).
+    fn next_f64(&mut self) -> f64 {
+        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
+    }
+}
+
+/// One scenario to evaluate: either modified networks (DC) or electrode potentials (transient).
+struct Case {
+    name: String,
+    kind: Kind,
+    resistor: Option<ResistorRef>,
+    networks: Vec<Network>,
+}
+
+/// Per-column DC solution of a set of networks.
+fn solve_networks(
+    model: &Model,
+    stage_v: Option<&[f64]>,
+    networks: &[Network],
+) -> Result<Vec<NetworkSolution>, FaultError> {
+    networks
+        .iter()
+        .map(|n| {
+            let (v0, v1) = grading::column_ends(model, stage_v, n.column)?;
+            Ok(n.solve(v0, v1)?)
+        })
+        .collect()
+}
+
+/// Fired protective gaps of node potentials per column.
+fn fired_gaps(networks: &[Network], node_v: &[Vec<f64>]) -> (Vec<FiredGap>, Option<f64>) {
+    let mut fired = Vec::new();
+    let mut margin: Option<f64> = None;
+    for (n, v) in networks.iter().zip(node_v) {
+        for p in &n.protective {
+            let (Some(a), Some(b)) = (v.get(p.from_node), v.get(p.to_node)) else {
+                continue;
+            };
+            let dv = (b - a).abs();
+            if dv > 0.0 {
+                let m = p.firing_low_v() / dv;
+                margin = Some(margin.map_or(m, |x: f64| x.min(m)));
+            }
+            // A clamped gap holds 1e-6 below its firing voltage at most.
+            if dv >= p.firing_low_v() * (1.0 - 1e-6) {
+                fired.push(FiredGap {
+                    column: n.column,
+                    from_node: p.from_node,
+                    to_node: p.to_node,
+                    voltage_v: b - a,
+                    firing_v: p.firing_v,
+                });
+            }
+        }
+    }
+    (fired, margin)
+}
+
+/// Worst margin, its item and its criterion.
+type Worst = (Option<f64>, Option<String>, Option<String>);
+
+/// The field checks of one set of conductor potentials, formed from the basis.
+fn field_margins(
+    model: &Model,
+    basis: &Basis,
+    work: &mut Analysis,
+    potentials: Vec<f64>,
+) -> Result<Worst, FaultError> {
+    let ev = basis.electrode_potentials(&potentials);
+    let phi = basis.field(&ev);
+    {
+        let fm = FieldMap::new(&work.mesh, model, &phi, &potentials);
+        let samples = fm.surface_samples();
+        work.peaks = fm.conductor_peaks(&samples);
+        work.samples = samples;
+        work.probes = model
+            .probes
+            .iter()
+            .map(|p| crate::analysis::ProbeResult {
+                name: p.name.clone(),
+                field: fm.at(p.at),
+            })
+            .collect();
+    }
+    work.energy_j = basis.energy_j(&ev);
+    work.potentials = potentials;
+    work.solution.phi = phi;
+    let m = margin::evaluate(model, work, None)?;
+    let worst = m
+        .rows
+        .iter()
+        .filter_map(|r| r.margin.map(|x| (x, r)))
+        .min_by(|a, b| a.0.total_cmp(&b.0));
+    Ok(match worst {
+        Some((x, r)) => (
+            Some(x),
+            Some(r.item.clone()),
+            Some(r.criterion_name.clone()),
+        ),
+        None => (None, None, None),
+    })
+}
+
+fn max_abs(v: &[Vec<f64>]) -> f64 {
+    v.iter().flatten().fold(0.0, |m, x| m.max(x.abs()))
+}
+
+fn max_ratio(v: &[Vec<f64>], nominal: &[Vec<f64>]) -> f64 {
+    let mut r: f64 = 0.0;
+    for (a, b) in v.iter().zip(nominal) {
+        for (x, y) in a.iter().zip(b) {
+            if y.abs() > 0.0 {
+                r = r.max(x.abs() / y.abs());
+            }
+        }
+    }
+    r
+}
+
+/// Replays every scenario of the model's grading networks. `progress` is called once per
+/// finished scenario (from worker threads).
+pub fn replay(
+    model: &Model,
+    mesh: &Mesh,
+    params: &SolverParams,
+    stage_v: Option<&[f64]>,
+    options: &ReplayOptions,
+    progress: &(dyn Fn(usize) + Sync),
+) -> Result<FaultReplay, FaultError> {
+    if model.columns.is_empty() {
+        return Err(FaultError::NoColumns);
+    }
+    let mut notes = Vec::new();
+    let networks: Vec<Network> = (0..model.columns.len())
+        .map(|c| Network::from_column(model, c))
+        .collect::<Result<_, _>>()?;
+    for n in &networks {
+        if n.relative {
+            notes.push(format!(
+                "column '{}' gives no resistor value: equal resistors stand in, so the division \
+                 is right but no currents are reported",
+                n.name
+            ));
+        }
+        if !n.protective.is_empty() {
+            notes.push(format!(
+                "column '{}': protective gaps clamp at their firing voltage; a gap counts as \
+                 fired from the bottom of its ±{:.0} % band (common practice, no source)",
+                n.name,
+                100.0 * n.protective[0].band
+            ));
+        }
+    }
+    notes.push(
+        "no insulator leakage and no resistor voltage rating are modelled: the design file \
+         gives neither"
+            .to_string(),
+    );
+    let basis = Basis::build(model, mesh, params)?;
+    progress(0);
+
+    // The scenarios.
+    let mut cases = vec![Case {
+        name: "nominal".to_string(),
+        kind: Kind::Nominal,
+        resistor: None,
+        networks: networks.clone(),
+    }];
+    let mut index = 0;
+    for (c, n) in networks.iter().enumerate() {
+        for g in 0..n.gaps() {
+            for s in 0..n.strings() {
+                let r = ResistorRef {
+                    index,
+                    column: c,
+                    gap: g,
+                    string: s,
+                };
+                index += 1;
+                let label = if n.strings() > 1 {
+                    format!("{} gap {} string {}", n.name, g + 1, s + 1)
+                } else {
+                    format!("{} gap {}", n.name, g + 1)
+                };
+                let mut open = networks.clone();
+                open[c] = n.with_open(g, s)?;
+                cases.push(Case {
+                    name: format!("open: {label}"),
+                    kind: Kind::Open,
+                    resistor: Some(r),
+                    networks: open,
+                });
+                let mut short = networks.clone();
+                short[c] = n.with_short(g, s)?;
+                cases.push(Case {
+                    name: format!("short: {label}"),
+                    kind: Kind::Short,
+                    resistor: Some(r),
+                    networks: short,
+                });
+            }
+        }
+    }
+    // Tolerance worst case for each gap: its resistors high, the rest of its column low.
+    for (c, n) in networks.iter().enumerate() {
+        let tol = model.columns[c].tolerance.unwrap_or(0.0);
+        if tol <= 0.0 {
+            continue;
+        }
+        for g in 0..n.gaps() {
+            let factors: Vec<Vec<f64>> = (0..n.gaps())
+                .map(|k| vec![if k == g { 1.0 + tol } else { 1.0 - tol }; n.strings()])
+                .collect();
+            let mut t = networks.clone();
+            t[c] = n.scaled(&factors)?;
+            cases.push(Case {
+                name: format!("tolerance worst case: {} gap {} high", n.name, g + 1),
+                kind: Kind::Tolerance,
+                resistor: None,
+                networks: t,
+            });
+        }
+    }
+    let n_fixed = cases.len();
+    // Monte Carlo draws, uniform within ±tolerance, drawn in order from the seed.
+    let mut rng = SplitMix64(options.seed);
+    let any_tol = model
+        .columns
+        .iter()
+        .any(|c| c.tolerance.unwrap_or(0.0) > 0.0);
+    let draws = if any_tol { options.samples } else { 0 };
+    if options.samples > 0 && !any_tol {
+        notes.push("no column gives a resistor tolerance: no Monte Carlo draws".to_string());
+    }
+    for d in 0..draws {
+        let mut t = networks.clone();
+        for (c, n) in networks.iter().enumerate() {
+            let tol = model.columns[c].tolerance.unwrap_or(0.0);
+            let factors: Vec<Vec<f64>> = (0..n.gaps())
+                .map(|_| {
+                    (0..n.strings())
+                        .map(|_| 1.0 + tol * (2.0 * rng.next_f64() - 1.0))
+                        .collect()
+                })
+                .collect();
+            t[c] = n.scaled(&factors)?;
+        }
+        cases.push(Case {
+            name: format!("tolerance draw {}", d + 1),
+            kind: Kind::Tolerance,
+            resistor: None,
+            networks: t,
+        });
+    }
+
+    // A work analysis per worker thread, formed from the basis.
+    let template = Analysis {
+        mesh: mesh.clone(),
+        potentials: Vec::new(),
+        solution: Solution {
+            phi: Vec::new(),
+            info: basis.info.clone(),
+        },
+        samples: Vec::new(),
+        peaks: Vec::new(),
+        probes: Vec::new(),
+        energy_j: 0.0,
+    };
+    let done = std::sync::atomic::AtomicUsize::new(0);
+    let tick = || {
+        let k = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
+        progress(k);
+    };
+    type Raw = (Vec<Vec<f64>>, Vec<FiredGap>, Option<f64>, Worst);
+    let raw: Vec<Raw> = cases
+        .par_iter()
+        .map_init(
+            || Analysis {
+                mesh: template.mesh.clone(),
+                potentials: Vec::new(),
+                solution: template.solution.clone(),
+                samples: Vec::new(),
+                peaks: Vec::new(),
+                probes: Vec::new(),
+                energy_j: 0.0,
+            },
+            |work, case| -> Result<Raw, FaultError> {
+                let sols = solve_networks(model, stage_v, &case.networks)?;
+                let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
+                let gap_v: Vec<Vec<f64>> = sols.iter().map(|s| s.gap_v.clone()).collect();
+                let potentials = grading::potentials_with_nodes(model, stage_v, &node_v)?;
+                let (fired, gm) = fired_gaps(&case.networks, &node_v);
+                let fm = field_margins(model, &basis, work, potentials)?;
+                tick();
+                Ok((gap_v, fired, gm, fm))
+            },
+        )
+        .collect::<Result<_, _>>()?;
+
+    let nominal_gaps = raw[0].0.clone();
+    let nominal_worst = raw[0].3.0;
+    let mut results: Vec<ScenarioResult> = cases
+        .iter()
+        .zip(raw)
+        .map(|(case, (gap_v, fired, gm, (wm, wi, wc)))| ScenarioResult {
+            rank: 0,
+            name: case.name.clone(),
+            kind: case.kind,
+            resistor: case.resistor,
+            max_gap_v: max_abs(&gap_v),
+            max_gap_ratio_to_nominal: max_ratio(&gap_v, &nominal_gaps),
+            gap_voltages_v: gap_v,
+            worst_margin: wm,
+            worst_item: wi,
+            worst_criterion: wc,
+            change_from_nominal: match (wm, nominal_worst) {
+                (Some(a), Some(b)) if b != 0.0 => Some(a / b - 1.0),
+                _ => None,
+            },
+            protective_gap_fired: !fired.is_empty(),
+            fired_gaps: fired,
+            protective_gap_margin: gm,
+        })
+        .collect();
+
+    // Monte Carlo: summarise the draws and keep the worst one as a scenario.
+    let mc_results: Vec<ScenarioResult> = results.split_off(n_fixed);
+    let monte_carlo = if draws > 0 {
+        let m: Vec<f64> = mc_results.iter().filter_map(|r| r.worst_margin).collect();
+        let mean = (!m.is_empty()).then(|| m.iter().sum::<f64>() / m.len() as f64);
+        let std = mean.map(|mu| {
+            (m.iter().map(|x| (x - mu).powi(2)).sum::<f64>() / m.len().max(1) as f64).sqrt()
+        });
+        let worst_draw = mc_results
+            .iter()
+            .enumerate()
+            .filter_map(|(k, r)| r.worst_margin.map(|x| (k, x)))
+            .min_by(|a, b| a.1.total_cmp(&b.1))
+            .map(|(k, _)| k);
+        if let Some(k) = worst_draw {
+            let mut w = mc_results[k].clone();
+            w.name = format!(
+                "tolerance Monte Carlo: worst of {draws} draws (draw {})",
+                k + 1
+            );
+            results.push(w);
+        }
+        Some(MonteCarlo {
+            draws,
+            seed: options.seed,
+            distribution: "each resistor uniform within ±tolerance, independent \
+                           (common practice, no source)"
+                .to_string(),
+            worst_margin_min: m.iter().copied().reduce(f64::min),
+            worst_margin_mean: mean,
+            worst_margin_max: m.iter().copied().reduce(f64::max),
+            worst_margin_std: std,
+            worst_draw,
+            max_gap_v: mc_results.iter().fold(0.0, |a, r| a.max(r.max_gap_v)),
+        })
+    } else {
+        None
+    };
+
+    // The fast transient after a terminal-to-tank spark.
+    let nominal_pot = {
+        let sols = solve_networks(model, stage_v, &networks)?;
+        let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
+        grading::potentials_with_nodes(model, stage_v, &node_v)?
+    };
+    let before = basis.electrode_potentials(&nominal_pot);
+    let mut spark_energy = None;
+    let mut spark_energy_conditioning = None;
+    match transient_potentials(model, &basis, &before) {
+        Ok(after) => {
+            spark_energy = Some(spark_energy_with(model, &basis, stage_v, &networks, &[])?);
+            if !options.shorted_sections.is_empty() {
+                spark_energy_conditioning = Some(spark_energy_with(
+                    model,
+                    &basis,
+                    stage_v,
+                    &networks,
+                    &options.shorted_sections,
+                )?);
+            }
+            let conductor_v = basis.conductor_potentials(&after);
+            let node_v = column_nodes(model, &conductor_v);
+            let gap_v: Vec<Vec<f64>> = node_v
+                .iter()
+                .map(|v| v.windows(2).map(|w| w[1] - w[0]).collect())
+                .collect();
+            let (fired, gm) = fired_gaps(&networks, &node_v);
+            let mut work = template;
+            let (wm, wi, wc) = field_margins(model, &basis, &mut work, conductor_v)?;
+            results.push(ScenarioResult {
+                rank: 0,
+                name: "transient: terminal-to-tank spark, just after".to_string(),
+                kind: Kind::Transient,
+                resistor: None,
+                max_gap_v: max_abs(&gap_v),
+                max_gap_ratio_to_nominal: max_ratio(&gap_v, &nominal_gaps),
+                gap_voltages_v: gap_v,
+                worst_margin: wm,
+                worst_item: wi,
+                worst_criterion: wc,
+                change_from_nominal: match (wm, nominal_worst) {
+                    (Some(a), Some(b)) if b != 0.0 => Some(a / b - 1.0),
+                    _ => None,
+                },
+                protective_gap_fired: !fired.is_empty(),
+                fired_gaps: fired,
+                protective_gap_margin: gm,
+            });
+            notes.push(
+                "transient: potentials just after the terminal collapses, column electrodes \
+                 floating with their charges conserved, before any protective gap or resistor \
+                 acts; field criteria are the DC ones"
+                    .to_string(),
+            );
+        }
+        Err(e) => notes.push(format!("no transient: {e}")),
+    }
+    progress(done.load(std::sync::atomic::Ordering::Relaxed) + 1);
+
+    rank(&mut results);
+    Ok(FaultReplay {
+        terminal_voltage_v: model.terminal_voltage,
+        nominal_worst_margin: nominal_worst,
+        scenarios: results,
+        monte_carlo,
+        electrodes: basis.electrodes.iter().map(|e| e.name.clone()).collect(),
+        capacitance_matrix_f: basis.capacitance.c_f.clone(),
+        capacitance_asymmetry: basis.capacitance.asymmetry,
+        spark_energy,
+        spark_energy_conditioning,
+        networks,
+        basis_memory_bytes: basis.memory_bytes(),
+        notes,
+    })
+}
+
+/// Number of scenarios `replay` evaluates through the field (for a progress bar): nominal,
+/// open and short per resistor, tolerance worst case per gap, the draws.
+pub fn scenario_count(model: &Model, samples: usize) -> usize {
+    let mut n = 1;
+    let mut any_tol = false;
+    for c in &model.columns {
+        let gaps = c.electrodes.len() + 1;
+        n += 2 * gaps * c.strings.max(1);
+        if c.tolerance.unwrap_or(0.0) > 0.0 {
+            n += gaps;
+            any_tol = true;
+        }
+    }
+    if any_tol {
+        n += samples;
+    }
+    n + 1
+}
+
+/// Sorts worst margin first (no number last, in their order) and numbers the ranks.
+fn rank(results: &mut [ScenarioResult]) {
+    results.sort_by(|a, b| match (a.worst_margin, b.worst_margin) {
+        (Some(x), Some(y)) => x.total_cmp(&y),
+        (Some(_), None) => std::cmp::Ordering::Less,
+        (None, Some(_)) => std::cmp::Ordering::Greater,
+        (None, None) => std::cmp::Ordering::Equal,
+    });
+    for (k, r) in results.iter_mut().enumerate() {
+        r.rank = k + 1;
+    }
+}
+
+/// Electrode potentials just after a terminal-to-tank spark: electrodes tied to the terminal
+/// (any fraction of it) go to 0; grading-node electrodes float; the rest hold.
+pub fn transient_potentials(
+    model: &Model,
+    basis: &Basis,
+    before: &[f64],
+) -> Result<Vec<f64>, FaultError> {
+    let spec = |e: &Electrode| {
+        e.conductors
+            .first()
+            .map(|&k| model.conductors[k].potential.clone())
+    };
+    let floating: Vec<bool> = basis
+        .electrodes
+        .iter()
+        .map(|e| matches!(spec(e), Some(PotentialSpec::Grading { .. })))
+        .collect();
+    let sparked: Vec<bool> = basis
+        .electrodes
+        .iter()
+        .map(|e| matches!(spec(e), Some(PotentialSpec::Terminal { .. })))
+        .collect();
+    if !sparked.iter().any(|s| *s) {
+        return Err(FaultError::Transient(
+            "no conductor is tied to the terminal".to_string(),
+        ));
+    }
+    let after_held: Vec<f64> = before
+        .iter()
+        .zip(&sparked)
+        .map(|(v, s)| if *s { 0.0 } else { *v })
+        .collect();
+    fast_step(&basis.capacitance.c_f, &floating, before, &after_held)
+}
+
+/// Node potentials of every column from conductor potentials: node 0 the `from` end, the
+/// electrodes in order, the last node the `to` end (the tank when an end is missing).
+pub fn column_nodes(model: &Model, conductor_v: &[f64]) -> Vec<Vec<f64>> {
+    let at = |c: Option<usize>| c.and_then(|c| conductor_v.get(c)).copied().unwrap_or(0.0);
+    model
+        .columns
+        .iter()
+        .map(|col| {
+            let mut v = vec![at(col.from)];
+            v.extend(col.electrodes.iter().map(|&k| at(Some(k))));
+            v.push(at(col.to));
+            v
+        })
+        .collect()
+}
+
+/// The energy of a terminal-to-tank spark with the given sections shorted: the DC state with
+/// their resistors shorted (the resistive division, protective gaps idle: a gap that would
+/// fire at that voltage shows in the scenarios), then the fast collapse with the electrodes of
+/// each section tied together (one node; tied to the tank or the terminal when the section
+/// reaches an end).
+pub fn spark_energy_with(
+    model: &Model,
+    basis: &Basis,
+    stage_v: Option<&[f64]>,
+    networks: &[Network],
+    sections: &[Section],
+) -> Result<SparkEnergy, FaultError> {
+    let mut nets = networks.to_vec();
+    for n in &mut nets {
+        n.protective.clear();
+    }
+    for sec in sections {
+        let Some(n) = nets.get(sec.column) else {
+            return Err(FaultError::Transient(format!(
+                "shorted section names column {}, but the design has {} columns",
+                sec.column + 1,
+                nets.len()
+            )));
+        };
+        if sec.first_gap > sec.last_gap || sec.last_gap >= n.gaps() {
+            return Err(FaultError::Transient(format!(
+                "shorted section of column {}: gaps {} to {} are not within 1 to {}",
+                sec.column + 1,
+                sec.first_gap + 1,
+                sec.last_gap + 1,
+                n.gaps()
+            )));
+        }
+        let mut m = n.clone();
+        for g in sec.first_gap..=sec.last_gap {
+            for st in 0..m.strings() {
+                m = m.with_short(g, st)?;
+            }
+        }
+        nets[sec.column] = m;
+    }
+    let sols = solve_networks(model, stage_v, &nets)?;
+    let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
+    let pots = grading::potentials_with_nodes(model, stage_v, &node_v)?;
+    let before = basis.electrode_potentials(&pots);
+    let stored = basis.energy_j(&before);
+
+    // Groups of electrodes tied by the sections; `ground` marks groups tied to the tank.
+    let ne = basis.electrodes.len();
+    let mut parent: Vec<usize> = (0..=ne).collect(); // index ne = the tank
+    fn find(p: &mut [usize], mut i: usize) -> usize {
+        while p[i] != i {
+            p[i] = p[p[i]];
+            i = p[i];
+        }
+        i
+    }
+    for sec in sections {
+        let col = &model.columns[sec.column];
+        let node_electrode = |k: usize| -> usize {
+            let cond = if k == 0 {
+                col.from
+            } else if k == col.electrodes.len() + 1 {
+                col.to
+            } else {
+                col.electrodes.get(k - 1).copied()
+            };
+            cond.and_then(|c| basis.conductor_electrode.get(c).copied().flatten())
+                .unwrap_or(ne)
+        };
+        let first = node_electrode(sec.first_gap);
+        for k in sec.first_gap + 1..=sec.last_gap + 1 {
+            let (a, b) = (
+                find(&mut parent, first),
+                find(&mut parent, node_electrode(k)),
+            );
+            if a != b {
+                // Keep the tank as the root of its group.
+                if a == ne {
+                    parent[b] = a;
+                } else {
+                    parent[a] = b;
+                }
+            }
+        }
+    }
+    let roots: Vec<usize> = (0..ne).map(|i| find(&mut parent, i)).collect();
+    let tank_root = find(&mut parent, ne);
+    let mut groups: Vec<usize> = Vec::new();
+    let mut group_of = vec![None; ne];
+    for i in 0..ne {
+        if roots[i] == tank_root {
+            continue;
+        }
+        let g = match groups.iter().position(|&r| r == roots[i]) {
+            Some(g) => g,
+            None => {
+                groups.push(roots[i]);
+                groups.len() - 1
+            }
+        };
+        group_of[i] = Some(g);
+    }
+    let ng = groups.len();
+    let mut c = vec![vec![0.0; ng]; ng];
+    let mut v_before = vec![0.0; ng];
+    let mut floating = vec![true; ng];
+    let mut sparked = vec![false; ng];
+    for i in 0..ne {
+        let Some(gi) = group_of[i] else { continue };
+        v_before[gi] = before[i];
+        let spec = basis.electrodes[i]
+            .conductors
+            .first()
+            .map(|&k| &model.conductors[k].potential);
+        match spec {
+            Some(PotentialSpec::Grading { .. }) => {}
+            Some(PotentialSpec::Terminal { .. }) => {
+                floating[gi] = false;
+                sparked[gi] = true;
+            }
+            _ => floating[gi] = false,
+        }
+        for (j, gj) in group_of.iter().enumerate() {
+            if let Some(gj) = *gj {
+                c[gi][gj] += basis.capacitance.c_f[i][j];
+            }
+        }
+    }
+    if !sparked.iter().any(|s| *s) {
+        return Err(FaultError::Transient(
+            "no conductor is tied to the terminal (or the terminal is shorted to the tank)"
+                .to_string(),
+        ));
+    }
+    let after_held: Vec<f64> = (0..ng)
+        .map(|g| if sparked[g] { 0.0 } else { v_before[g] })
+        .collect();
+    let after = fast_step(&c, &floating, &v_before, &after_held)?;
+    Ok(SparkEnergy {
+        shorted_sections: sections.to_vec(),
+        stored_j: stored,
+        released_fast_j: stored - quadratic(&c, &after),
+    })
+}

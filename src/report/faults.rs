@@ -1,0 +1,196 @@
+//! The `faults` section: scenarios ranked by their worst margin, then the details of the
+//! worst few, the Monte Carlo spread, the transient and the spark energies.
+
+use crate::faults::{FaultReplay, Kind, ScenarioResult};
+use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
+use serde::Serialize;
+use std::fmt::Write;
+
+/// The `faults` section as written to JSON.
+#[derive(Debug, Clone, Serialize)]
+pub struct FaultSection {
+    pub title: String,
+    pub file: String,
+    pub sha256: String,
+    #[serde(flatten)]
+    pub replay: FaultReplay,
+    /// Wall-clock seconds of the replay (basis and every scenario).
+    pub seconds: f64,
+}
+
+fn kind_label(k: Kind) -> &'static str {
+    match k {
+        Kind::Nominal => "nominal",
+        Kind::Open => "open",
+        Kind::Short => "short",
+        Kind::Tolerance => "tolerance",
+        Kind::Transient => "transient",
+    }
+}
+
+fn opt(v: Option<f64>, digits: usize) -> String {
+    v.map_or_else(|| "-".to_string(), |x| format!("{x:.digits$}"))
+}
+
+fn pct(v: Option<f64>) -> String {
+    v.map_or_else(|| "-".to_string(), |x| format!("{:+.2} %", 100.0 * x))
+}
+
+/// Renders the section for a terminal; `details` worst scenarios get their gap voltages.
+pub fn render(s: &FaultSection, details: usize) -> String {
+    let r = &s.replay;
+    let mut out = String::new();
+    let _ = writeln!(out, "{}", s.title);
+    let _ = writeln!(
+        out,
+        "design {}  sha256 {}",
+        s.file,
+        &s.sha256[..16.min(s.sha256.len())]
+    );
+    let _ = writeln!(
+        out,
+        "terminal {:.2} kV, nominal worst margin {}\n",
+        r.terminal_voltage_v / 1e3,
+        opt(r.nominal_worst_margin, 3)
+    );
+    let mut t = Table::new();
+    t.load_style(UTF8_FULL_CONDENSED)
+        .set_content_arrangement(ContentArrangement::Dynamic);
+    t.set_header(vec![
+        "rank",
+        "scenario",
+        "kind",
+        "worst item",
+        "margin",
+        "vs nominal",
+        "max gap kV",
+        "protective gap",
+    ]);
+    for sc in &r.scenarios {
+        t.add_row(vec![
+            Cell::new(sc.rank).set_alignment(CellAlignment::Right),
+            Cell::new(&sc.name),
+            Cell::new(kind_label(sc.kind)),
+            Cell::new(sc.worst_item.as_deref().unwrap_or("-")),
+            Cell::new(opt(sc.worst_margin, 3)).set_alignment(CellAlignment::Right),
+            Cell::new(pct(sc.change_from_nominal)).set_alignment(CellAlignment::Right),
+            Cell::new(format!("{:.2}", sc.max_gap_v / 1e3)).set_alignment(CellAlignment::Right),
+            Cell::new(if sc.protective_gap_fired {
+                format!("fired ({})", sc.fired_gaps.len())
+            } else {
+                "-".to_string()
+            }),
+        ]);
+    }
+    let _ = writeln!(out, "{t}");
+
+    if let Some(mc) = &r.monte_carlo {
+        let _ = writeln!(
+            out,
+            "\nMonte Carlo: {} draws, seed {} ({}): worst margin min {}, mean {}, max {}, \
+             std {}; largest gap {:.2} kV",
+            mc.draws,
+            mc.seed,
+            mc.distribution,
+            opt(mc.worst_margin_min, 4),
+            opt(mc.worst_margin_mean, 4),
+            opt(mc.worst_margin_max, 4),
+            mc.worst_margin_std
+                .map_or_else(|| "-".to_string(), |x| format!("{x:.2e}")),
+            mc.max_gap_v / 1e3
+        );
+    }
+    if let Some(e) = &r.spark_energy {
+        let _ = writeln!(
+            out,
+            "Spark energy: {:.2} J stored in the electrode capacitances, {:.2} J released in \
+             the fast collapse of the terminal",
+            e.stored_j, e.released_fast_j
+        );
+    }
+
+    if let Some(e) = &r.spark_energy_conditioning {
+        let list: Vec<String> = e
+            .shorted_sections
+            .iter()
+            .map(|s| {
+                format!(
+                    "column {} gaps {}–{}",
+                    s.column + 1,
+                    s.first_gap + 1,
+                    s.last_gap + 1
+                )
+            })
+            .collect();
+        let _ = writeln!(
+            out,
+            "Spark energy with {} shorted (conditioning): {:.2} J stored, {:.2} J released in \
+             the fast collapse",
+            list.join(", "),
+            e.stored_j,
+            e.released_fast_j
+        );
+    }
+    let _ = writeln!(
+        out,
+        "\nWorst {} scenarios in detail",
+        details.min(r.scenarios.len())
+    );
+    for sc in r.scenarios.iter().take(details) {
+        detail(&mut out, sc);
+    }
+    if !r.notes.is_empty() {
+        let _ = writeln!(out, "\nNotes");
+        for n in &r.notes {
+            let _ = writeln!(out, "- {n}");
+        }
+    }
+    let _ = writeln!(
+        out,
+        "\n{} scenarios in {:.1} s; capacitance matrix of {} electrodes (asymmetry {:.1e})",
+        r.scenarios.len(),
+        s.seconds,
+        r.electrodes.len(),
+        r.capacitance_asymmetry
+    );
+    out
+}
+
+fn detail(out: &mut String, sc: &ScenarioResult) {
+    let _ = writeln!(
+        out,
+        "\n{}. {} — worst: {} ({}), margin {}",
+        sc.rank,
+        sc.name,
+        sc.worst_item.as_deref().unwrap_or("-"),
+        sc.worst_criterion.as_deref().unwrap_or("-"),
+        opt(sc.worst_margin, 3)
+    );
+    for (c, gaps) in sc.gap_voltages_v.iter().enumerate() {
+        let list: Vec<String> = gaps.iter().map(|v| format!("{:.1}", v / 1e3)).collect();
+        let _ = writeln!(
+            out,
+            "   column {} gap voltages kV: {}",
+            c + 1,
+            list.join(" ")
+        );
+    }
+    let _ = writeln!(
+        out,
+        "   largest gap {:.2} kV, {:.2} × its nominal; protective-gap margin {}",
+        sc.max_gap_v / 1e3,
+        sc.max_gap_ratio_to_nominal,
+        opt(sc.protective_gap_margin, 3)
+    );
+    for f in &sc.fired_gaps {
+        let _ = writeln!(
+            out,
+            "   protective gap column {} nodes {}–{} at {:.1} kV (firing {:.1} kV)",
+            f.column + 1,
+            f.from_node,
+            f.to_node,
+            f.voltage_v / 1e3,
+            f.firing_v / 1e3
+        );
+    }
+}

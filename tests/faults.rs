@@ -1,0 +1,311 @@
+//! Fault replay: the transient distribution of a capacitive chain against the hyperbolic
+//! ladder solution (REFERENCES.md §9, check row 37), the superposition basis against a direct
+//! solve, and reruns with the same seed.
+
+use holdoff::faults::{Basis, Kind, ReplayOptions, fast_step, replay};
+use holdoff::grading;
+use holdoff::mesh::Mesh;
+use holdoff::solve::{Solver, SolverParams};
+
+/// A small invented column: ground shield, four tori, terminal, in SF6.
+const SMALL: &str = r#"
+title = "small test column"
+[tank]
+inner_radius = "250 mm"
+length = "700 mm"
+[gas]
+species = "SF6"
+pressure = "2 bar"
+temperature = "20 degC"
+[terminal]
+voltage = "200 kV"
+[[conductor]]
+name = "ground shield"
+shape = "rounded_cylinder"
+r = ["0 mm", "120 mm"]
+z = ["0 mm", "150 mm"]
+corner_radius = "20 mm"
+potential = "ground"
+[[conductor]]
+name = "terminal"
+shape = "rounded_cylinder"
+r = ["0 mm", "120 mm"]
+z = ["450 mm", "600 mm"]
+corner_radius = "30 mm"
+potential = "terminal"
+[[column]]
+name = "column"
+from = "ground shield"
+to = "terminal"
+electrodes = 4
+z_first = "210 mm"
+pitch = "60 mm"
+shape = "torus"
+major_radius = "100 mm"
+minor_radius = "8 mm"
+grading = { resistor = "1 GOhm", tolerance = "1 %", strings = 1 }
+protective_gap = { firing = "60 kV" }
+[mesh]
+cell = "4 mm"
+"#;
+
+fn small() -> holdoff::model::Model {
+    holdoff::design::from_str(SMALL, "small.toml").expect("valid design")
+}
+
+/// A uniform chain of N gaps, series capacitance C_g per gap and C_p from each node to
+/// ground, hit by a −V step at its HV end with the nodes floating: the shift of node x is
+/// −V·sinh(αx)/sinh(α), α = √(C_e/C_s) with C_e = N·C_p and C_s = C_g/N (REFERENCES.md §9
+/// [M], Kuffel et al. 2000 Ch. 3; check row 37: α = 2 gives V(0.5)/V = 0.3240 and the HV-end
+/// field factor α·coth α = 2.0746), within 2 %.
+#[test]
+fn capacitive_chain_reproduces_the_hyperbolic_distribution() {
+    let alpha: f64 = 2.0;
+    let n = 100;
+    let cg = 10e-12;
+    let cp = cg * (alpha / n as f64).powi(2);
+    // Electrodes: nodes 1..=n (node 0 is the earthed end); node n is the terminal.
+    let mut c = vec![vec![0.0; n]; n];
+    for i in 0..n {
+        c[i][i] = cp + cg + if i + 1 < n { cg } else { 0.0 };
+        if i + 1 < n {
+            c[i][i + 1] = -cg;
+            c[i + 1][i] = -cg;
+        }
+    }
+    let v = 1e6;
+    let before: Vec<f64> = (1..=n).map(|k| v * k as f64 / n as f64).collect();
+    let floating: Vec<bool> = (1..=n).map(|k| k < n).collect();
+    let mut after_held = before.clone();
+    after_held[n - 1] = 0.0;
+    let after = fast_step(&c, &floating, &before, &after_held).expect("solves");
+    let shift: Vec<f64> = after.iter().zip(&before).map(|(a, b)| a - b).collect();
+
+    let exact = |x: f64| (alpha * x).sinh() / alpha.sinh();
+    assert!((exact(0.5) - 0.3240).abs() < 1e-4, "check row 37");
+    assert!((alpha / alpha.tanh() - 2.0746).abs() < 1e-4, "check row 37");
+    for k in 1..=n {
+        let x = k as f64 / n as f64;
+        let got = -shift[k - 1] / v;
+        assert!(
+            (got - exact(x)).abs() <= 0.02 * exact(x),
+            "x = {x}: {got} vs {}",
+            exact(x)
+        );
+    }
+    let mid = -shift[n / 2 - 1] / v;
+    assert!((mid - 0.3240).abs() / 0.3240 < 0.02, "{mid}");
+    let end_slope = (shift[n - 2] - shift[n - 1]) / v * n as f64;
+    assert!((end_slope - 2.0746).abs() / 2.0746 < 0.02, "{end_slope}");
+}
+
+/// The field of a scenario formed from the unit-potential basis equals a direct solve of the
+/// same potentials within 1e-6 relative (linearity of ∇·(ε∇φ) = 0 in the boundary values).
+#[test]
+fn basis_field_equals_a_direct_solve() {
+    let m = small();
+    let mesh = Mesh::build(&m).expect("mesh");
+    let params = SolverParams::default();
+    let basis = Basis::build(&m, &mesh, &params).expect("basis");
+    // An open resistor in gap 2.
+    let net = grading::Network::from_column(&m, 0)
+        .expect("column")
+        .with_open(2, 0)
+        .expect("resistor");
+    let (v0, v1) = grading::column_ends(&m, None, 0).expect("ends");
+    let sol = net.solve(v0, v1).expect("network");
+    let pots = grading::potentials_with_nodes(&m, None, &[sol.node_v]).expect("potentials");
+    let phi_b = basis.field(&basis.electrode_potentials(&pots));
+    let direct = Solver::new(&mesh, params)
+        .solve(&pots, None)
+        .expect("solves");
+    let scale = direct.phi.iter().fold(0.0_f64, |a, x| a.max(x.abs()));
+    let err = phi_b
+        .iter()
+        .zip(&direct.phi)
+        .fold(0.0_f64, |a, (x, y)| a.max((x - y).abs()));
+    println!("basis vs direct: max |Δφ| / max |φ| = {:.2e}", err / scale);
+    assert!(err / scale < 1e-6, "{}", err / scale);
+    // Reciprocity of the capacitance matrix from the same basis (Green's reciprocity).
+    assert!(
+        basis.capacitance.asymmetry < 0.02,
+        "{}",
+        basis.capacitance.asymmetry
+    );
+}
+
+/// Every scenario reruns to the same numbers with the same seed; the scenario set holds the
+/// nominal case, one open and one short per resistor, the tolerance cases and the transient.
+#[test]
+fn replay_is_repeatable_and_complete() {
+    let m = small();
+    let mesh = Mesh::build(&m).expect("mesh");
+    let params = SolverParams::default();
+    let options = ReplayOptions {
+        samples: 8,
+        seed: 42,
+        ..Default::default()
+    };
+    let a = replay(&m, &mesh, &params, None, &options, &|_| {}).expect("replay");
+    let b = replay(&m, &mesh, &params, None, &options, &|_| {}).expect("replay");
+    let ja = serde_json::to_string(&a).expect("json");
+    let jb = serde_json::to_string(&b).expect("json");
+    assert_eq!(ja, jb);
+    let count = |k: Kind| a.scenarios.iter().filter(|s| s.kind == k).count();
+    assert_eq!(count(Kind::Nominal), 1);
+    assert_eq!(count(Kind::Open), 5);
+    assert_eq!(count(Kind::Short), 5);
+    assert_eq!(count(Kind::Transient), 1);
+    // Five worst-case gaps and the worst Monte Carlo draw.
+    assert_eq!(count(Kind::Tolerance), 6);
+    let mc = a.monte_carlo.as_ref().expect("draws");
+    assert_eq!(mc.draws, 8);
+    // Ranked worst first.
+    for w in a.scenarios.windows(2) {
+        if let (Some(x), Some(y)) = (w[0].worst_margin, w[1].worst_margin) {
+            assert!(x <= y);
+        }
+    }
+    // An open resistor in a single string with a 60 kV gap across it: 200 kV would sit
+    // across the open gap, so the protective gap fires and holds 60 kV (Kirchhoff).
+    let open = a
+        .scenarios
+        .iter()
+        .find(|s| s.kind == Kind::Open)
+        .expect("open");
+    assert!(open.protective_gap_fired);
+    let g = open.resistor.expect("resistor").gap;
+    assert!((open.gap_voltages_v[0][g] - 60e3).abs() < 1.0);
+    // The transient reverses the gap next to the terminal (the floating electrodes keep
+    // their potential while the terminal falls to 0).
+    let tr = a
+        .scenarios
+        .iter()
+        .find(|s| s.kind == Kind::Transient)
+        .expect("transient");
+    let last = *tr.gap_voltages_v[0].last().expect("gaps");
+    assert!(last < 0.0, "{last}");
+    // A different seed draws differently.
+    let c = replay(
+        &m,
+        &mesh,
+        &params,
+        None,
+        &ReplayOptions {
+            samples: 8,
+            seed: 43,
+            ..Default::default()
+        },
+        &|_| {},
+    )
+    .expect("replay");
+    let mc_c = c.monte_carlo.as_ref().expect("draws");
+    assert_ne!(
+        serde_json::to_string(mc).expect("json"),
+        serde_json::to_string(mc_c).expect("json")
+    );
+}
+
+/// Conditioning: with gaps 1–4 of the small column shorted, every column electrode is tied to
+/// the earthed end and only the terminal is charged, so the stored energy is ½·C_tt·V² with
+/// C_tt the terminal's diagonal Maxwell coefficient (energy of a capacitor, W = ½CV²), and the
+/// whole of it is released when the terminal falls to 0.
+#[test]
+fn conditioning_spark_energy_with_shorted_sections() {
+    let m = small();
+    let mesh = Mesh::build(&m).expect("mesh");
+    let params = SolverParams::default();
+    let options = ReplayOptions {
+        samples: 0,
+        seed: 1,
+        shorted_sections: vec![holdoff::faults::Section {
+            column: 0,
+            first_gap: 0,
+            last_gap: 3,
+        }],
+    };
+    let r = replay(&m, &mesh, &params, None, &options, &|_| {}).expect("replay");
+    let t = r
+        .electrodes
+        .iter()
+        .position(|e| e == "terminal")
+        .expect("terminal electrode");
+    let c_tt = r.capacitance_matrix_f[t][t];
+    let v: f64 = 200e3;
+    let e = r.spark_energy_conditioning.as_ref().expect("conditioning");
+    let expected = 0.5 * c_tt * v * v;
+    assert!(
+        (e.stored_j - expected).abs() / expected < 1e-6,
+        "{} vs {expected}",
+        e.stored_j
+    );
+    assert!((e.released_fast_j - e.stored_j).abs() / e.stored_j < 1e-6);
+    let full = r.spark_energy.as_ref().expect("spark");
+    assert!(full.released_fast_j > 0.0 && full.released_fast_j <= full.stored_j);
+}
+
+/// `holdoff faults FILE --json -` writes the scenarios with the documented keys and the
+/// capacitance matrix; a malformed `--short-section` is an error naming what is accepted.
+#[test]
+fn faults_command_writes_json() {
+    let dir = std::env::temp_dir().join(format!("holdoff-faults-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    let file = dir.join("small.toml");
+    std::fs::write(&file, SMALL).expect("write design");
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+        .args([
+            "faults",
+            file.to_str().expect("path"),
+            "--json",
+            "-",
+            "--samples",
+            "4",
+        ])
+        .output()
+        .expect("runs");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
+    let scenarios = v["scenarios"].as_array().expect("scenarios");
+    assert!(!scenarios.is_empty());
+    for s in scenarios {
+        for key in [
+            "name",
+            "kind",
+            "resistor",
+            "gap_voltages_v",
+            "worst_margin",
+            "worst_item",
+            "protective_gap_fired",
+        ] {
+            assert!(s.get(key).is_some(), "missing {key}");
+        }
+    }
+    let open = scenarios
+        .iter()
+        .find(|s| s["kind"] == "open")
+        .expect("open scenario");
+    assert!(open["resistor"]["index"].is_u64());
+    let c = v["capacitance_matrix_f"].as_array().expect("matrix");
+    assert_eq!(
+        c.len(),
+        v["electrodes"].as_array().expect("electrodes").len()
+    );
+
+    let bad = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+        .args([
+            "faults",
+            file.to_str().expect("path"),
+            "--short-section",
+            "1:5-2",
+        ])
+        .output()
+        .expect("runs");
+    assert!(!bad.status.success());
+    let err = String::from_utf8_lossy(&bad.stderr);
+    assert!(err.contains("COLUMN:FIRST-LAST"), "{err}");
+    let _ = std::fs::remove_dir_all(&dir);
+}
