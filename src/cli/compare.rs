@@ -1,6 +1,6 @@
 //! `holdoff compare A.toml B.toml`: the margins of two designs side by side, worse rows first.
 
-use anyhow::{Context, Result};
+use anyhow::Result;
 use clap::Args;
 use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
 use holdoff::compare::compare;
@@ -23,25 +23,14 @@ pub struct CompareArgs {
     pub json: bool,
 }
 
-fn load(path: &PathBuf) -> Result<Option<holdoff::model::Model>> {
-    let text = std::fs::read_to_string(path)
-        .with_context(|| format!("cannot read design file {}", path.display()))?;
-    match holdoff::design::from_str(&text, &path.display().to_string()) {
-        Ok(m) => Ok(Some(m)),
-        Err(e) => {
-            eprint!(
-                "{}",
-                holdoff::design::diagnostic::render_for_stderr(&e, &text)
-            );
-            Ok(None)
-        }
-    }
-}
-
 pub fn run(a: &CompareArgs) -> Result<ExitCode> {
-    let (Some(mb), Some(ma)) = (load(&a.before)?, load(&a.after)?) else {
+    let (Some(before), Some(after)) = (
+        super::load_design(&a.before)?,
+        super::load_design(&a.after)?,
+    ) else {
         return Ok(ExitCode::from(2));
     };
+    let (mb, ma) = (before.model, after.model);
     let params = SolverParams::default();
     let rb = review(&mb, &params, false)?;
     let ra = review(&ma, &params, false)?;

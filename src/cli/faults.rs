@@ -35,18 +35,8 @@ pub struct FaultsArgs {
 }
 
 pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
-    let text = std::fs::read_to_string(&args.file)
-        .with_context(|| format!("cannot read design file {}", args.file.display()))?;
-    let file = args.file.display().to_string();
-    let model = match holdoff::design::from_str(&text, &file) {
-        Ok(m) => m,
-        Err(e) => {
-            eprint!(
-                "{}",
-                holdoff::design::diagnostic::render_for_stderr(&e, &text)
-            );
-            return Ok(ExitCode::from(2));
-        }
+    let Some(super::Loaded { model, text, file }) = super::load_design(&args.file)? else {
+        return Ok(ExitCode::from(2));
     };
     let params = SolverParams::default();
     let stack = holdoff::stack::analyze_stack(&model, &params, &Default::default())?;

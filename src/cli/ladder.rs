@@ -21,18 +21,8 @@ pub struct LadderArgs {
 }
 
 pub fn run(args: &LadderArgs) -> Result<ExitCode> {
-    let text = std::fs::read_to_string(&args.file)
-        .with_context(|| format!("cannot read design file {}", args.file.display()))?;
-    let file = args.file.display().to_string();
-    let model = match holdoff::design::from_str(&text, &file) {
-        Ok(m) => m,
-        Err(e) => {
-            eprint!(
-                "{}",
-                holdoff::design::diagnostic::render_for_stderr(&e, &text)
-            );
-            return Ok(ExitCode::from(2));
-        }
+    let Some(super::Loaded { model, file, .. }) = super::load_design(&args.file)? else {
+        return Ok(ExitCode::from(2));
     };
     let Some(stack) = analyze_stack(&model, &SolverParams::default(), &SimControls::default())?
     else {

@@ -9,8 +9,34 @@ mod report;
 mod size;
 mod sweep;
 
+use anyhow::Context;
 use clap::{Parser, Subcommand};
+use std::path::Path;
 use std::process::ExitCode;
+
+/// A design file read and validated.
+pub(crate) struct Loaded {
+    pub model: holdoff::model::Model,
+    pub text: String,
+    pub file: String,
+}
+
+/// Reads and validates a design file; `None` once its diagnostics are printed (exit code 2).
+pub(crate) fn load_design(path: &Path) -> anyhow::Result<Option<Loaded>> {
+    let text = std::fs::read_to_string(path)
+        .with_context(|| format!("cannot read design file {}", path.display()))?;
+    let file = path.display().to_string();
+    match holdoff::design::from_str(&text, &file) {
+        Ok(model) => Ok(Some(Loaded { model, text, file })),
+        Err(e) => {
+            eprint!(
+                "{}",
+                holdoff::design::diagnostic::render_for_stderr(&e, &text)
+            );
+            Ok(None)
+        }
+    }
+}
 
 /// Electrostatic field and breakdown-margin review of DC accelerator columns.
 #[derive(Debug, Parser)]

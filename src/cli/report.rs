@@ -24,18 +24,8 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
             a.out.display()
         );
     }
-    let text = std::fs::read_to_string(&a.file)
-        .with_context(|| format!("cannot read design file {}", a.file.display()))?;
-    let file = a.file.display().to_string();
-    let model = match holdoff::design::from_str(&text, &file) {
-        Ok(m) => m,
-        Err(e) => {
-            eprint!(
-                "{}",
-                holdoff::design::diagnostic::render_for_stderr(&e, &text)
-            );
-            return Ok(ExitCode::from(2));
-        }
+    let Some(super::Loaded { model, text, file }) = super::load_design(&a.file)? else {
+        return Ok(ExitCode::from(2));
     };
     let run = holdoff::review::review(&model, &SolverParams::default(), true)?;
     let failed = run.margins.any_fail();

@@ -1,7 +1,7 @@
 //! `holdoff sweep FILE --vary PATH --from X --to Y`: one design value over a range, the worst
 //! margins at each value, and optionally the least value that meets the design factor.
 
-use anyhow::{Context, Result};
+use anyhow::Result;
 use clap::Args;
 use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
 use holdoff::sweep::{least_value, range, sweep};
@@ -42,16 +42,9 @@ struct SweepOut<'a> {
 }
 
 pub fn run(a: &SweepArgs) -> Result<ExitCode> {
-    let text = std::fs::read_to_string(&a.file)
-        .with_context(|| format!("cannot read design file {}", a.file.display()))?;
-    let file = a.file.display().to_string();
-    if let Err(e) = holdoff::design::from_str(&text, &file) {
-        eprint!(
-            "{}",
-            holdoff::design::diagnostic::render_for_stderr(&e, &text)
-        );
+    let Some(super::Loaded { text, file, .. }) = super::load_design(&a.file)? else {
         return Ok(ExitCode::from(2));
-    }
+    };
     let span = range(&a.from, &a.to)?;
     let points = sweep(&text, &file, &a.vary, span, a.steps)?;
     let least = if a.least {
