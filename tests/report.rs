@@ -63,11 +63,37 @@ fn note_has_its_sections_and_the_numbers_of_check() {
 }
 
 #[test]
-fn note_must_be_markdown() {
+fn note_must_be_html_or_markdown() {
     let out = holdoff()
         .args(["report", "examples/demo_750kv.toml", "--out", "notes.docx"])
         .output()
         .expect("runs");
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains(".md"));
+}
+
+#[test]
+fn html_note_inlines_three_figures() {
+    let dir = std::env::temp_dir().join(format!("holdoff-html-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let path = dir.join("note.html");
+    let out = holdoff()
+        .args(["report", "examples/demo_750kv.toml", "--out"])
+        .arg(&path)
+        .output()
+        .expect("runs");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let html = std::fs::read_to_string(&path).unwrap();
+    assert!(html.starts_with("<!DOCTYPE html>"));
+    assert!(html.contains("<meta charset=\"utf-8\">"));
+    assert_eq!(html.matches("<figure id=").count(), 3);
+    assert_eq!(html.matches("<svg").count(), 3);
+    assert!(html.contains("<h2>9. Sign-off</h2>"));
+    // Self-contained: no external resources.
+    assert!(!html.contains("src=\"http") && !html.contains("href=\"http"));
+    let _ = std::fs::remove_dir_all(&dir);
 }

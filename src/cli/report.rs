@@ -2,7 +2,7 @@
 
 use anyhow::{Context, Result, bail};
 use clap::Args;
-use holdoff::report::{Report, markdown, write_atomic};
+use holdoff::report::{Report, html, markdown, plot, write_atomic};
 use holdoff::solve::SolverParams;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -11,16 +11,22 @@ use std::process::ExitCode;
 pub struct ReportArgs {
     /// The design file (TOML).
     pub file: PathBuf,
-    /// The note to write: a Markdown file (`.md`).
+    /// The note to write: a self-contained HTML page with figures (`.html`) or Markdown
+    /// (`.md`).
     #[arg(long)]
     pub out: PathBuf,
 }
 
 pub fn run(a: &ReportArgs) -> Result<ExitCode> {
-    let ext = a.out.extension().and_then(|e| e.to_str()).unwrap_or("");
-    if !ext.eq_ignore_ascii_case("md") {
+    let ext = a
+        .out
+        .extension()
+        .and_then(|e| e.to_str())
+        .unwrap_or("")
+        .to_ascii_lowercase();
+    if ext != "md" && ext != "html" {
         bail!(
-            "--out {}: the review note is written as Markdown; give a file name ending in .md",
+            "--out {}: the review note is written as HTML or Markdown; give a file name ending in .html or .md",
             a.out.display()
         );
     }
@@ -34,7 +40,18 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
         .with_ladder(run.stack.as_ref());
     holdoff::report::finite::ensure_finite(&report)?;
     let listing = holdoff::design::expansion_listing(&model);
-    let note = markdown::render(&report, &listing, &text);
+    let mut note = markdown::render(&report, &listing, &text);
+    if ext == "html" {
+        let map = plot::field_map(&model, &run.fine).map_err(anyhow::Error::msg)?;
+        let column = plot::column_field(&report).map_err(anyhow::Error::msg)?;
+        let bars = plot::margin_bars(&report, 30).map_err(anyhow::Error::msg)?;
+        let figures = vec![
+            ("The modelled geometry (conductors grey) with |E| in colour (brightest at the highest field) and ten equipotentials.".to_string(), map),
+            ("Peak surface field of every conductor against the height of its peak.".to_string(), column),
+            ("The worst margins with the design factor marked; red bars fail, amber bars are under review.".to_string(), bars),
+        ];
+        note = html::render(&model.title, &note, &figures);
+    }
     write_atomic(Path::new(&a.out), note.as_bytes())
         .with_context(|| format!("cannot write the review note {}", a.out.display()))?;
     println!(

@@ -7,8 +7,10 @@
 pub mod cautions;
 pub mod faults;
 pub mod finite;
+pub mod html;
 pub mod ladder;
 pub mod markdown;
+pub mod plot;
 pub mod table;
 
 use crate::analysis::Analysis;

@@ -1,0 +1,55 @@
+#!/usr/bin/env bash
+# Renders the HTML review note of the demo design in headless Chromium (Debian's package) and
+# checks that the page loads without errors and that its figures are present and non-empty.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+work=$(mktemp -d)
+trap 'rm -rf "$work"' EXIT
+
+if ! command -v chromium >/dev/null 2>&1; then
+    echo "browser check: installing Debian's chromium"
+    export DEBIAN_FRONTEND=noninteractive
+    apt-get update -qq >/dev/null
+    apt-get install -y -qq chromium >/dev/null
+fi
+
+cargo build --release --quiet
+./target/release/holdoff report examples/demo_750kv.toml --out "$work/note.html" >/dev/null
+
+flags=(--headless --no-sandbox --disable-gpu --disable-quic --no-first-run
+       --disable-background-networking --disable-component-update --disable-sync
+       --hide-scrollbars --enable-logging=stderr --v=0)
+timeout 120 chromium "${flags[@]}" --user-data-dir="$work/profile-a" \
+    --dump-dom "file://$work/note.html" >"$work/dom.html" 2>"$work/dom.err"
+timeout 120 chromium "${flags[@]}" --user-data-dir="$work/profile-b" --window-size=1200,3000 \
+    --screenshot="$work/note.png" "file://$work/note.html" >/dev/null 2>"$work/shot.err"
+
+python3 - "$work" <<'PY'
+import os, re, sys
+work = sys.argv[1]
+dom = open(os.path.join(work, "dom.html"), encoding="utf-8").read()
+errs = open(os.path.join(work, "dom.err"), encoding="utf-8", errors="replace").read()
+problems = []
+if "<h2>9. Sign-off</h2>" not in dom:
+    problems.append("the page did not load to its end (no sign-off section in the DOM)")
+figures = re.findall(r"<figure id=\"figure-\d+\">(.*?)</figure>", dom, re.S)
+if len(figures) != 3:
+    problems.append(f"expected 3 figures, found {len(figures)}")
+for k, f in enumerate(figures, 1):
+    marks = len(re.findall(r"<(rect|path|polyline|circle|line|text)\b", f))
+    if marks < 20:
+        problems.append(f"figure {k} is empty ({marks} drawing elements)")
+for line in errs.splitlines():
+    if re.search(r"Uncaught|CONSOLE\(\d+\).*(error|Error)|Failed to load resource", line):
+        problems.append("page error: " + line.strip())
+png = os.path.join(work, "note.png")
+if not os.path.exists(png) or os.path.getsize(png) < 20000:
+    problems.append("no screenshot, or an empty one")
+if problems:
+    for p in problems:
+        print("browser check problem:", p)
+    print("browser check: 0 passed, 1 failed")
+    sys.exit(1)
+print(f"browser check: page loaded, {len(figures)} figures drawn, screenshot {os.path.getsize(png)} bytes")
+print("browser check: 1 passed, 0 failed")
+PY

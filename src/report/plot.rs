@@ -1,0 +1,298 @@
+//! SVG figures for the review note, drawn with plotters: the potential and |E| map with
+//! equipotentials over the modelled geometry, the peak surface field of every conductor along
+//! the column, and the margin bars with the design factor marked.
+//!
+//! Input: the fine analysis and the report. Output: SVG documents as strings.
+
+use crate::analysis::Analysis;
+use crate::field::FieldMap;
+use crate::mesh::FREE;
+use crate::model::Model;
+use crate::report::Report;
+use plotters::prelude::*;
+
+/// Errors of a figure are carried as text: a figure that cannot be drawn is reported, never
+/// silently dropped.
+pub type PlotResult = Result<String, String>;
+
+fn err<E: std::fmt::Display>(e: E) -> String {
+    format!("figure could not be drawn: {e}")
+}
+
+/// Colour for a value in [0, 1]: dark blue → yellow, readable in print.
+fn heat(t: f64) -> RGBColor {
+    let t = t.clamp(0.0, 1.0);
+    let stops = [
+        (0.0, (20.0, 30.0, 90.0)),
+        (0.35, (40.0, 110.0, 170.0)),
+        (0.7, (110.0, 190.0, 120.0)),
+        (1.0, (250.0, 230.0, 60.0)),
+    ];
+    let mut k = 0;
+    while k + 2 < stops.len() && t > stops[k + 1].0 {
+        k += 1;
+    }
+    let (t0, c0) = stops[k];
+    let (t1, c1) = stops[k + 1];
+    let f = ((t - t0) / (t1 - t0)).clamp(0.0, 1.0);
+    let mix = |a: f64, b: f64| (a + f * (b - a)) as u8;
+    RGBColor(mix(c0.0, c1.0), mix(c0.1, c1.1), mix(c0.2, c1.2))
+}
+
+/// |E| map with equipotential lines; conductors grey.
+pub fn field_map(model: &Model, fine: &Analysis) -> PlotResult {
+    let mesh = &fine.mesh;
+    let fm = FieldMap::new(mesh, model, &fine.solution.phi, &fine.potentials);
+    let dom = model.tank.bbox();
+    let (w, h) = (dom.r_max - dom.r_min, dom.z_max - dom.z_min);
+    // A raster of about 120 cells across the larger side.
+    let n_long = 160usize;
+    let (nr, nz) = if h >= w {
+        (((n_long as f64) * w / h).ceil().max(8.0) as usize, n_long)
+    } else {
+        (n_long, ((n_long as f64) * h / w).ceil().max(8.0) as usize)
+    };
+    let (dr, dz) = (w / nr as f64, h / nz as f64);
+    let mut e = vec![0.0; nr * nz];
+    let mut phi = vec![0.0; (nr + 1) * (nz + 1)];
+    let mut solid = vec![false; nr * nz];
+    for j in 0..nz {
+        for i in 0..nr {
+            let p = crate::geometry::Point::new(
+                dom.r_min + (i as f64 + 0.5) * dr,
+                dom.z_min + (j as f64 + 0.5) * dz,
+            );
+            let f = fm.at(p);
+            e[j * nr + i] = f.field[0].hypot(f.field[1]);
+            let k = mesh.idx(mesh.r.locate(p.r), mesh.z.locate(p.z));
+            solid[j * nr + i] =
+                mesh.fixed[k] != FREE || model.conductors.iter().any(|c| c.shape.contains(p));
+        }
+    }
+    for j in 0..=nz {
+        for i in 0..=nr {
+            let p = crate::geometry::Point::new(
+                (dom.r_min + i as f64 * dr).min(dom.r_max),
+                (dom.z_min + j as f64 * dz).min(dom.z_max),
+            );
+            phi[j * (nr + 1) + i] = fm.at(p).potential_v;
+        }
+    }
+    let emax = e.iter().cloned().fold(0.0, f64::max).max(f64::MIN_POSITIVE);
+    let width = 520u32;
+    let height = ((width as f64 - 120.0) * h / w + 110.0).clamp(300.0, 1400.0) as u32;
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (width, height)).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption("|E| (colour) and equipotentials", ("sans-serif", 16))
+            .margin(10)
+            .x_label_area_size(40)
+            .y_label_area_size(55)
+            .build_cartesian_2d(
+                dom.r_min * 1e3..dom.r_max * 1e3,
+                dom.z_min * 1e3..dom.z_max * 1e3,
+            )
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .x_desc("r (mm)")
+            .y_desc("z (mm)")
+            .disable_mesh()
+            .draw()
+            .map_err(err)?;
+        chart
+            .draw_series(
+                (0..nz)
+                    .flat_map(|j| (0..nr).map(move |i| (i, j)))
+                    .map(|(i, j)| {
+                        let k = j * nr + i;
+                        let c = if solid[k] {
+                            RGBColor(150, 150, 150)
+                        } else {
+                            heat(e[k] / emax)
+                        };
+                        let r0 = (dom.r_min + i as f64 * dr) * 1e3;
+                        let z0 = (dom.z_min + j as f64 * dz) * 1e3;
+                        Rectangle::new([(r0, z0), (r0 + dr * 1e3, z0 + dz * 1e3)], c.filled())
+                    }),
+            )
+            .map_err(err)?;
+        // Equipotentials by marching squares on the corner potentials.
+        let (vmin, vmax) = phi
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
+                (a.min(v), b.max(v))
+            });
+        let levels = 10;
+        let mut segments = Vec::new();
+        for l in 1..levels {
+            let v = vmin + (vmax - vmin) * l as f64 / levels as f64;
+            for j in 0..nz {
+                for i in 0..nr {
+                    if solid[j * nr + i] {
+                        continue;
+                    }
+                    let at = |ii: usize, jj: usize| phi[jj * (nr + 1) + ii];
+                    let corners = [
+                        (i, j, at(i, j)),
+                        (i + 1, j, at(i + 1, j)),
+                        (i + 1, j + 1, at(i + 1, j + 1)),
+                        (i, j + 1, at(i, j + 1)),
+                    ];
+                    let mut pts = Vec::new();
+                    for e_ in 0..4 {
+                        let (ia, ja, va) = corners[e_];
+                        let (ib, jb, vb) = corners[(e_ + 1) % 4];
+                        if (va - v) * (vb - v) < 0.0 {
+                            let t = (v - va) / (vb - va);
+                            let r = dom.r_min + (ia as f64 + t * (ib as f64 - ia as f64)) * dr;
+                            let z = dom.z_min + (ja as f64 + t * (jb as f64 - ja as f64)) * dz;
+                            pts.push((r * 1e3, z * 1e3));
+                        }
+                    }
+                    if pts.len() >= 2 {
+                        segments.push((pts[0], pts[1]));
+                    }
+                    if pts.len() == 4 {
+                        segments.push((pts[2], pts[3]));
+                    }
+                }
+            }
+        }
+        chart
+            .draw_series(
+                segments
+                    .into_iter()
+                    .map(|(a, b)| PathElement::new(vec![a, b], WHITE.stroke_width(1))),
+            )
+            .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
+
+/// Peak surface field of every conductor against the z of its peak.
+pub fn column_field(report: &Report) -> PlotResult {
+    let pts: Vec<(f64, f64)> = report
+        .conductors
+        .iter()
+        .filter(|c| c.at_m[1].is_finite())
+        .map(|c| (c.at_m[1] * 1e3, c.peak_surface_field_v_per_m / 1e6))
+        .collect();
+    let zmax = pts.iter().map(|p| p.0).fold(0.0, f64::max).max(1.0);
+    let emax = pts.iter().map(|p| p.1).fold(0.0, f64::max).max(1e-3);
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (640, 360)).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption("Peak surface field of each conductor", ("sans-serif", 16))
+            .margin(10)
+            .x_label_area_size(40)
+            .y_label_area_size(55)
+            .build_cartesian_2d(0.0..zmax * 1.05, 0.0..emax * 1.1)
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .x_desc("z of the peak (mm)")
+            .y_desc("peak |E| (kV/mm)")
+            .draw()
+            .map_err(err)?;
+        chart
+            .draw_series(pts.iter().map(|&p| Circle::new(p, 3, BLUE.filled())))
+            .map_err(err)?
+            .label("conductor peak")
+            .legend(|(x, y)| Circle::new((x, y), 3, BLUE.filled()));
+        chart
+            .configure_series_labels()
+            .background_style(WHITE)
+            .border_style(BLACK)
+            .draw()
+            .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
+
+/// Bars of the worst margins with the design factor marked.
+pub fn margin_bars(report: &Report, rows: usize) -> PlotResult {
+    let bars: Vec<(String, f64, f64)> = report
+        .margins
+        .iter()
+        .filter_map(|r| {
+            r.margin.map(|m| {
+                (
+                    format!("{} - {}", r.item, r.criterion_name),
+                    m,
+                    r.margin_ideal.unwrap_or(m),
+                )
+            })
+        })
+        .take(rows)
+        .collect();
+    let n = bars.len().max(1);
+    let mmax = bars
+        .iter()
+        .map(|b| b.1)
+        .fold(report.design_factor, f64::max)
+        * 1.15;
+    let height = (60 + 22 * n as u32).max(200);
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (760, height)).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                "Worst margins (limit / peak); red line: design factor",
+                ("sans-serif", 16),
+            )
+            .margin(10)
+            .x_label_area_size(35)
+            .y_label_area_size(10)
+            .build_cartesian_2d(0.0..mmax, 0.0..n as f64)
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .x_desc("margin")
+            .disable_y_axis()
+            .disable_y_mesh()
+            .draw()
+            .map_err(err)?;
+        chart
+            .draw_series(bars.iter().enumerate().map(|(k, b)| {
+                let y = (n - 1 - k) as f64;
+                let colour = if b.1 < report.design_factor {
+                    RGBColor(200, 40, 40)
+                } else if b.1 < 1.1 * report.design_factor {
+                    RGBColor(230, 160, 30)
+                } else {
+                    RGBColor(60, 120, 190)
+                };
+                Rectangle::new([(0.0, y + 0.15), (b.1, y + 0.85)], colour.filled())
+            }))
+            .map_err(err)?;
+        chart
+            .draw_series(bars.iter().enumerate().map(|(k, b)| {
+                let y = (n - 1 - k) as f64 + 0.5;
+                Text::new(
+                    b.0.clone(),
+                    (mmax * 0.01, y),
+                    ("sans-serif", 11).into_font().color(&WHITE),
+                )
+            }))
+            .map_err(err)?;
+        chart
+            .draw_series(std::iter::once(PathElement::new(
+                vec![
+                    (report.design_factor, 0.0),
+                    (report.design_factor, n as f64),
+                ],
+                RED.stroke_width(2),
+            )))
+            .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
