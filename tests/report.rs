@@ -33,6 +33,7 @@ fn note_has_its_sections_and_the_numbers_of_check() {
         "## 3. Field solution",
         "## 4. Margins, worst first",
         "## 5. Multiplier stack",
+        "## 5b. Grading faults and the spark transient",
         "## 6. Assumptions",
         "## 7. Sources of the criteria used",
         "## 8. Cautions",

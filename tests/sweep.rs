@@ -53,3 +53,29 @@ fn parameter_paths_select_tables_and_say_what_is_wrong() {
     assert!(err.to_string().contains("conductor[NAME]"));
     assert!(range("2 bar", "4 mm").is_err());
 }
+
+#[test]
+fn sweep_command_draws_its_plot() {
+    let dir = std::env::temp_dir().join(format!("holdoff-sweep-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let svg = dir.join("sweep.svg");
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+        .args([
+            "sweep",
+            "examples/demo_750kv.toml",
+            "--vary",
+            "gas.pressure",
+        ])
+        .args(["--from", "2 bar", "--to", "4 bar", "--steps", "3", "--plot"])
+        .arg(&svg)
+        .output()
+        .expect("runs");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = std::fs::read_to_string(&svg).expect("plot written");
+    assert!(text.contains("<svg") && text.contains("design factor"));
+    let _ = std::fs::remove_dir_all(&dir);
+}

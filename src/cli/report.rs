@@ -15,6 +15,10 @@ pub struct ReportArgs {
     /// (`.md`).
     #[arg(long)]
     pub out: PathBuf,
+    /// Leave out the grading-fault replay (every resistor open and shorted, tolerance draws,
+    /// the spark transient).
+    #[arg(long)]
+    pub no_faults: bool,
 }
 
 pub fn run(a: &ReportArgs) -> Result<ExitCode> {
@@ -40,7 +44,21 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
         .with_ladder(run.stack.as_ref());
     holdoff::report::finite::ensure_finite(&report)?;
     let listing = holdoff::design::expansion_listing(&model);
-    let mut note = markdown::render(&report, &listing, &text);
+    let faults = if a.no_faults || model.columns.is_empty() {
+        None
+    } else {
+        let mesh = holdoff::mesh::Mesh::build(&model)?;
+        let stage_v = run.stack.as_ref().map(|s| s.stage_voltages());
+        Some(holdoff::faults::replay(
+            &model,
+            &mesh,
+            &SolverParams::default(),
+            stage_v.as_deref(),
+            &holdoff::faults::ReplayOptions::default(),
+            &|_| {},
+        )?)
+    };
+    let mut note = markdown::render(&report, &listing, &text, faults.as_ref());
     if ext == "html" {
         let map = plot::field_map(&model, &run.fine).map_err(anyhow::Error::msg)?;
         let column = plot::column_field(&report).map_err(anyhow::Error::msg)?;

@@ -1,7 +1,7 @@
 //! `holdoff sweep FILE --vary PATH --from X --to Y`: one design value over a range, the worst
 //! margins at each value, and optionally the least value that meets the design factor.
 
-use anyhow::Result;
+use anyhow::{Context, Result};
 use clap::Args;
 use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
 use holdoff::sweep::{least_value, range, sweep};
@@ -32,6 +32,9 @@ pub struct SweepArgs {
     /// Write the sweep as JSON to standard output.
     #[arg(long)]
     pub json: bool,
+    /// Also draw the worst margin against the swept value into an SVG file.
+    #[arg(long, value_name = "FILE.svg")]
+    pub plot: Option<PathBuf>,
 }
 
 #[derive(Serialize)]
@@ -42,7 +45,7 @@ struct SweepOut<'a> {
 }
 
 pub fn run(a: &SweepArgs) -> Result<ExitCode> {
-    let Some(super::Loaded { text, file, .. }) = super::load_design(&a.file)? else {
+    let Some(super::Loaded { model, text, file }) = super::load_design(&a.file)? else {
         return Ok(ExitCode::from(2));
     };
     let span = range(&a.from, &a.to)?;
@@ -58,6 +61,21 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         least,
     };
     holdoff::report::finite::ensure_finite(&out)?;
+    if let Some(path) = &a.plot {
+        // The axis in the engineer's unit of the quantity.
+        let shown = holdoff::units::format_si(out.points[0].value_si, span.2);
+        let unit = shown.split_whitespace().last().unwrap_or("").to_string();
+        let (scale, unit) = match holdoff::units::parse(&format!("1 {unit}"), span.2) {
+            Ok(s) => (s, unit),
+            Err(_) => (1.0, "SI".to_string()),
+        };
+        let design_factor = model.checks.design_factor;
+        let svg =
+            holdoff::report::plot::sweep_plot(&a.vary, scale, &unit, &out.points, design_factor)
+                .map_err(anyhow::Error::msg)?;
+        holdoff::report::write_atomic(path, svg.as_bytes())
+            .with_context(|| format!("cannot write the plot {}", path.display()))?;
+    }
     if a.json {
         println!("{}", serde_json::to_string_pretty(&out)?);
         return Ok(ExitCode::SUCCESS);

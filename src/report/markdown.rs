@@ -21,7 +21,12 @@ fn cell(s: &str) -> String {
 }
 
 /// Renders the note.
-pub fn render(report: &Report, listing: &[ListingRow], design_text: &str) -> String {
+pub fn render(
+    report: &Report,
+    listing: &[ListingRow],
+    design_text: &str,
+    faults: Option<&crate::faults::FaultReplay>,
+) -> String {
     let mut o = String::new();
     let d = &report.design;
     let _ = writeln!(o, "# High-voltage review note: {}\n", cell(&d.title));
@@ -204,6 +209,65 @@ pub fn render(report: &Report, listing: &[ListingRow], design_text: &str) -> Str
                 kv(n.diode_piv_v),
                 n.stored_energy_j
             );
+        }
+        let _ = writeln!(o);
+    }
+
+    if let Some(f) = faults {
+        let _ = writeln!(o, "## 5b. Grading faults and the spark transient\n");
+        let _ = writeln!(
+            o,
+            "Every grading resistor open and shorted, tolerance worst cases and the capacitive distribution just after a terminal-to-tank spark, each with its worst field margin (nominal worst margin {}). The worst 15:\n",
+            f.nominal_worst_margin
+                .map_or("-".into(), |m| format!("{m:.3}"))
+        );
+        let _ = writeln!(
+            o,
+            "| rank | scenario | worst item | margin | vs nominal | max gap | protective gap |"
+        );
+        let _ = writeln!(o, "|---:|---|---|---:|---:|---:|---|");
+        for sc in f.scenarios.iter().take(15) {
+            let _ = writeln!(
+                o,
+                "| {} | {} | {} | {} | {} | {} | {} |",
+                sc.rank,
+                cell(&sc.name),
+                cell(sc.worst_item.as_deref().unwrap_or("-")),
+                sc.worst_margin.map_or("-".into(), |m| format!("{m:.3}")),
+                sc.change_from_nominal
+                    .map_or("-".into(), |c| format!("{:+.1} %", c * 100.0)),
+                kv(sc.max_gap_v),
+                if sc.protective_gap_fired {
+                    format!("fired ({})", sc.fired_gaps.len())
+                } else {
+                    "-".into()
+                }
+            );
+        }
+        if let Some(mc) = &f.monte_carlo {
+            let _ = writeln!(
+                o,
+                "\nMonte Carlo, {} draws (seed {}, {}): worst margin {} to {}, mean {}.",
+                mc.draws,
+                mc.seed,
+                cell(&mc.distribution),
+                mc.worst_margin_min
+                    .map_or("-".into(), |m| format!("{m:.3}")),
+                mc.worst_margin_max
+                    .map_or("-".into(), |m| format!("{m:.3}")),
+                mc.worst_margin_mean
+                    .map_or("-".into(), |m| format!("{m:.3}"))
+            );
+        }
+        if let Some(se) = &f.spark_energy {
+            let _ = writeln!(
+                o,
+                "\nA terminal-to-tank spark: {:.1} J stored in the electrodes, {:.1} J released in the fast collapse.",
+                se.stored_j, se.released_fast_j
+            );
+        }
+        for n in &f.notes {
+            let _ = writeln!(o, "- {}", cell(n));
         }
         let _ = writeln!(o);
     }

@@ -296,3 +296,84 @@ pub fn margin_bars(report: &Report, rows: usize) -> PlotResult {
     }
     Ok(svg)
 }
+
+/// Worst margin (and worst gas margin) against the swept value, with the design factor.
+pub fn sweep_plot(
+    parameter: &str,
+    unit_scale: f64,
+    unit: &str,
+    points: &[crate::sweep::SweepPoint],
+    design_factor: f64,
+) -> PlotResult {
+    let xs: Vec<f64> = points.iter().map(|p| p.value_si / unit_scale).collect();
+    let (x0, x1) = xs
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+            (a.min(x), b.max(x))
+        });
+    let ymax = points
+        .iter()
+        .filter_map(|p| p.worst_margin)
+        .fold(design_factor, f64::max)
+        * 1.15;
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (640, 380)).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                format!("Worst margin against {parameter}"),
+                ("sans-serif", 16),
+            )
+            .margin(10)
+            .x_label_area_size(40)
+            .y_label_area_size(50)
+            .build_cartesian_2d(x0..x1, 0.0..ymax)
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .x_desc(format!("{parameter} ({unit})"))
+            .y_desc("margin")
+            .draw()
+            .map_err(err)?;
+        let worst: Vec<(f64, f64)> = xs
+            .iter()
+            .zip(points)
+            .filter_map(|(&x, p)| p.worst_margin.map(|m| (x, m)))
+            .collect();
+        let gas: Vec<(f64, f64)> = xs
+            .iter()
+            .zip(points)
+            .filter_map(|(&x, p)| p.worst_gas_margin.map(|m| (x, m)))
+            .collect();
+        chart
+            .draw_series(LineSeries::new(worst.clone(), BLUE.stroke_width(2)))
+            .map_err(err)?
+            .label("worst margin")
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLUE.stroke_width(2)));
+        chart
+            .draw_series(worst.iter().map(|&p| Circle::new(p, 3, BLUE.filled())))
+            .map_err(err)?;
+        chart
+            .draw_series(LineSeries::new(gas, GREEN.stroke_width(1)))
+            .map_err(err)?
+            .label("worst gas margin")
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], GREEN.stroke_width(1)));
+        chart
+            .draw_series(std::iter::once(PathElement::new(
+                vec![(x0, design_factor), (x1, design_factor)],
+                RED.stroke_width(2),
+            )))
+            .map_err(err)?
+            .label("design factor")
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], RED.stroke_width(2)));
+        chart
+            .configure_series_labels()
+            .background_style(WHITE)
+            .border_style(BLACK)
+            .draw()
+            .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
