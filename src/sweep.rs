@@ -218,15 +218,30 @@ pub fn sweep(
     text: &str,
     file: &str,
     path: &str,
-    (a, b, dim): (f64, f64, Dimension),
+    span: (f64, f64, Dimension),
     steps: usize,
 ) -> Result<Vec<SweepPoint>, SweepError> {
+    sweep_with_progress(text, file, path, span, steps, &|_| {})
+}
+
+/// As `sweep`, calling `progress` with the number of values done after each one.
+pub fn sweep_with_progress(
+    text: &str,
+    file: &str,
+    path: &str,
+    (a, b, dim): (f64, f64, Dimension),
+    steps: usize,
+    progress: &(dyn Fn(usize) + Sync),
+) -> Result<Vec<SweepPoint>, SweepError> {
     let steps = steps.max(2);
+    let done = std::sync::atomic::AtomicUsize::new(0);
     (0..steps)
         .into_par_iter()
         .map(|k| {
             let v = a + (b - a) * k as f64 / (steps - 1) as f64;
-            evaluate_at(text, file, path, v, dim)
+            let r = evaluate_at(text, file, path, v, dim);
+            progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1);
+            r
         })
         .collect()
 }

@@ -4,7 +4,7 @@
 use anyhow::{Context, Result};
 use clap::Args;
 use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
-use holdoff::sweep::{least_value, range, sweep};
+use holdoff::sweep::{least_value, range, sweep_with_progress};
 use serde::Serialize;
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -49,7 +49,25 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         return Ok(ExitCode::from(2));
     };
     let span = range(&a.from, &a.to)?;
-    let points = sweep(&text, &file, &a.vary, span, a.steps)?;
+    let bar = std::io::IsTerminal::is_terminal(&std::io::stderr()).then(|| {
+        let b = indicatif::ProgressBar::new(a.steps.max(2) as u64);
+        if let Ok(style) = indicatif::ProgressStyle::with_template(
+            "{msg} [{bar:40}] {pos}/{len} values, {elapsed}",
+        ) {
+            b.set_style(style.progress_chars("=> "));
+        }
+        b.set_message("sweep");
+        b
+    });
+    let progress = |k: usize| {
+        if let Some(b) = &bar {
+            b.set_position(k as u64);
+        }
+    };
+    let points = sweep_with_progress(&text, &file, &a.vary, span, a.steps, &progress)?;
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
     let least = if a.least {
         least_value(&text, &file, &a.vary, span, 1e-3)?
     } else {
