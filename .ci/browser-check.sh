@@ -33,8 +33,8 @@ problems = []
 if "<h2>9. Sign-off</h2>" not in dom:
     problems.append("the page did not load to its end (no sign-off section in the DOM)")
 figures = re.findall(r"<figure id=\"figure-\d+\">(.*?)</figure>", dom, re.S)
-if len(figures) != 3:
-    problems.append(f"expected 3 figures, found {len(figures)}")
+if len(figures) != 4:
+    problems.append(f"expected 4 figures, found {len(figures)}")
 for k, f in enumerate(figures, 1):
     marks = len(re.findall(r"<(rect|path|polyline|circle|line|text)\b", f))
     if marks < 20:

@@ -74,7 +74,7 @@ fn note_must_be_html_or_markdown() {
 }
 
 #[test]
-fn html_note_inlines_three_figures() {
+fn html_note_inlines_four_figures() {
     let dir = std::env::temp_dir().join(format!("holdoff-html-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let path = dir.join("note.html");
@@ -91,8 +91,8 @@ fn html_note_inlines_three_figures() {
     let html = std::fs::read_to_string(&path).unwrap();
     assert!(html.starts_with("<!DOCTYPE html>"));
     assert!(html.contains("<meta charset=\"utf-8\">"));
-    assert_eq!(html.matches("<figure id=").count(), 3);
-    assert_eq!(html.matches("<svg").count(), 3);
+    assert_eq!(html.matches("<figure id=").count(), 4);
+    assert_eq!(html.matches("<svg").count(), 4);
     assert!(html.contains("<h2>9. Sign-off</h2>"));
     // Self-contained: no external resources.
     assert!(!html.contains("src=\"http") && !html.contains("href=\"http"));

@@ -62,10 +62,12 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
     if ext == "html" {
         let map = plot::field_map(&model, &run.fine).map_err(anyhow::Error::msg)?;
         let column = plot::column_field(&report).map_err(anyhow::Error::msg)?;
+        let along = plot::surface_profiles(&model, &run.fine, 3).map_err(anyhow::Error::msg)?;
         let bars = plot::margin_bars(&report, 30).map_err(anyhow::Error::msg)?;
         let figures = vec![
             ("The modelled geometry (conductors grey) with |E| in colour (brightest at the highest field) and ten equipotentials.".to_string(), map),
             ("Peak surface field of every conductor against the height of its peak.".to_string(), column),
+            ("The surface field along the three most stressed conductors, by angle around each conductor's centre.".to_string(), along),
             ("The worst margins with the design factor marked; red bars fail, amber bars are under review.".to_string(), bars),
         ];
         note = html::render(&model.title, &note, &figures);

@@ -377,3 +377,74 @@ pub fn sweep_plot(
     }
     Ok(svg)
 }
+
+/// |E| along the surface of the most stressed conductors: each sample placed by its angle
+/// around the centre of the conductor's bounding box (0° = outward along +r, 90° = +z).
+pub fn surface_profiles(model: &Model, fine: &Analysis, conductors: usize) -> PlotResult {
+    let mut order: Vec<usize> = (0..fine.peaks.len()).collect();
+    order.sort_by(|&a, &b| {
+        fine.peaks[b]
+            .peak_surface_field_v_per_m
+            .total_cmp(&fine.peaks[a].peak_surface_field_v_per_m)
+    });
+    order.truncate(conductors);
+    let palette = [BLUE, RED, GREEN, MAGENTA, CYAN];
+    let mut curves = Vec::new();
+    let mut emax: f64 = 1e-3;
+    for (n, &k) in order.iter().enumerate() {
+        let b = model.conductors[k].shape.bbox();
+        let (cr, cz) = (0.5 * (b.r_min + b.r_max), 0.5 * (b.z_min + b.z_max));
+        let mut pts: Vec<(f64, f64)> = fine
+            .samples
+            .iter()
+            .filter(|s| s.conductor == k as u32)
+            .map(|s| {
+                let ang = (s.at.z - cz).atan2(s.at.r - cr).to_degrees();
+                (ang, s.e / 1e6)
+            })
+            .collect();
+        pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+        emax = pts.iter().map(|p| p.1).fold(emax, f64::max);
+        curves.push((
+            model.conductors[k].name.clone(),
+            palette[n % palette.len()],
+            pts,
+        ));
+    }
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (640, 380)).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                "Surface field along the most stressed conductors",
+                ("sans-serif", 16),
+            )
+            .margin(10)
+            .x_label_area_size(40)
+            .y_label_area_size(55)
+            .build_cartesian_2d(-180.0..180.0, 0.0..emax * 1.1)
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .x_desc("angle around the conductor's centre (degrees; 0 = +r, 90 = +z)")
+            .y_desc("|E| on the surface (kV/mm)")
+            .draw()
+            .map_err(err)?;
+        for (name, colour, pts) in curves {
+            chart
+                .draw_series(pts.iter().map(|&p| Circle::new(p, 2, colour.filled())))
+                .map_err(err)?
+                .label(name)
+                .legend(move |(x, y)| Circle::new((x, y), 3, colour.filled()));
+        }
+        chart
+            .configure_series_labels()
+            .background_style(WHITE)
+            .border_style(BLACK)
+            .draw()
+            .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
