@@ -9,6 +9,7 @@ use crate::field::FieldMap;
 use crate::mesh::FREE;
 use crate::model::Model;
 use crate::report::Report;
+use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 
 /// Errors of a figure are carried as text: a figure that cannot be drawn is reported, never
@@ -173,6 +174,53 @@ pub fn field_map(model: &Model, fine: &Analysis) -> PlotResult {
     Ok(svg)
 }
 
+/// The chart of an x–y figure with a legend: white page, caption, axis labels; `draw` adds
+/// the labelled series.
+type XyChart<'a, 'b> =
+    ChartContext<'a, SVGBackend<'b>, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
+
+struct Frame<'t> {
+    size: (u32, u32),
+    caption: &'t str,
+    x: std::ops::Range<f64>,
+    y: std::ops::Range<f64>,
+    x_desc: &'t str,
+    y_desc: &'t str,
+}
+
+fn xy_figure(
+    frame: Frame<'_>,
+    draw: impl FnOnce(&mut XyChart<'_, '_>) -> Result<(), String>,
+) -> PlotResult {
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, frame.size).into_drawing_area();
+        root.fill(&WHITE).map_err(err)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(frame.caption, ("sans-serif", 16))
+            .margin(10)
+            .x_label_area_size(40)
+            .y_label_area_size(55)
+            .build_cartesian_2d(frame.x, frame.y)
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .x_desc(frame.x_desc)
+            .y_desc(frame.y_desc)
+            .draw()
+            .map_err(err)?;
+        draw(&mut chart)?;
+        chart
+            .configure_series_labels()
+            .background_style(WHITE)
+            .border_style(BLACK)
+            .draw()
+            .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
+
 /// Peak surface field of every conductor against the z of its peak.
 pub fn column_field(report: &Report) -> PlotResult {
     let pts: Vec<(f64, f64)> = report
@@ -183,37 +231,24 @@ pub fn column_field(report: &Report) -> PlotResult {
         .collect();
     let zmax = pts.iter().map(|p| p.0).fold(0.0, f64::max).max(1.0);
     let emax = pts.iter().map(|p| p.1).fold(0.0, f64::max).max(1e-3);
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (640, 360)).into_drawing_area();
-        root.fill(&WHITE).map_err(err)?;
-        let mut chart = ChartBuilder::on(&root)
-            .caption("Peak surface field of each conductor", ("sans-serif", 16))
-            .margin(10)
-            .x_label_area_size(40)
-            .y_label_area_size(55)
-            .build_cartesian_2d(0.0..zmax * 1.05, 0.0..emax * 1.1)
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .x_desc("z of the peak (mm)")
-            .y_desc("peak |E| (kV/mm)")
-            .draw()
-            .map_err(err)?;
-        chart
-            .draw_series(pts.iter().map(|&p| Circle::new(p, 3, BLUE.filled())))
-            .map_err(err)?
-            .label("conductor peak")
-            .legend(|(x, y)| Circle::new((x, y), 3, BLUE.filled()));
-        chart
-            .configure_series_labels()
-            .background_style(WHITE)
-            .border_style(BLACK)
-            .draw()
-            .map_err(err)?;
-        root.present().map_err(err)?;
-    }
-    Ok(svg)
+    xy_figure(
+        Frame {
+            size: (640, 360),
+            caption: "Peak surface field of each conductor",
+            x: 0.0..zmax * 1.05,
+            y: 0.0..emax * 1.1,
+            x_desc: "z of the peak (mm)",
+            y_desc: "peak |E| (kV/mm)",
+        },
+        |chart| {
+            chart
+                .draw_series(pts.iter().map(|&p| Circle::new(p, 3, BLUE.filled())))
+                .map_err(err)?
+                .label("conductor peak")
+                .legend(|(x, y)| Circle::new((x, y), 3, BLUE.filled()));
+            Ok(())
+        },
+    )
 }
 
 /// Bars of the worst margins with the design factor marked.
@@ -316,66 +351,54 @@ pub fn sweep_plot(
         .filter_map(|p| p.worst_margin)
         .fold(design_factor, f64::max)
         * 1.15;
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (640, 380)).into_drawing_area();
-        root.fill(&WHITE).map_err(err)?;
-        let mut chart = ChartBuilder::on(&root)
-            .caption(
-                format!("Worst margin against {parameter}"),
-                ("sans-serif", 16),
-            )
-            .margin(10)
-            .x_label_area_size(40)
-            .y_label_area_size(50)
-            .build_cartesian_2d(x0..x1, 0.0..ymax)
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .x_desc(format!("{parameter} ({unit})"))
-            .y_desc("margin")
-            .draw()
-            .map_err(err)?;
-        let worst: Vec<(f64, f64)> = xs
-            .iter()
-            .zip(points)
-            .filter_map(|(&x, p)| p.worst_margin.map(|m| (x, m)))
-            .collect();
-        let gas: Vec<(f64, f64)> = xs
-            .iter()
-            .zip(points)
-            .filter_map(|(&x, p)| p.worst_gas_margin.map(|m| (x, m)))
-            .collect();
-        chart
-            .draw_series(LineSeries::new(worst.clone(), BLUE.stroke_width(2)))
-            .map_err(err)?
-            .label("worst margin")
-            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLUE.stroke_width(2)));
-        chart
-            .draw_series(worst.iter().map(|&p| Circle::new(p, 3, BLUE.filled())))
-            .map_err(err)?;
-        chart
-            .draw_series(LineSeries::new(gas, GREEN.stroke_width(1)))
-            .map_err(err)?
-            .label("worst gas margin")
-            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], GREEN.stroke_width(1)));
-        chart
-            .draw_series(std::iter::once(PathElement::new(
-                vec![(x0, design_factor), (x1, design_factor)],
-                RED.stroke_width(2),
-            )))
-            .map_err(err)?
-            .label("design factor")
-            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], RED.stroke_width(2)));
-        chart
-            .configure_series_labels()
-            .background_style(WHITE)
-            .border_style(BLACK)
-            .draw()
-            .map_err(err)?;
-        root.present().map_err(err)?;
-    }
-    Ok(svg)
+    let worst: Vec<(f64, f64)> = xs
+        .iter()
+        .zip(points)
+        .filter_map(|(&x, p)| p.worst_margin.map(|m| (x, m)))
+        .collect();
+    let gas: Vec<(f64, f64)> = xs
+        .iter()
+        .zip(points)
+        .filter_map(|(&x, p)| p.worst_gas_margin.map(|m| (x, m)))
+        .collect();
+    let caption = format!("Worst margin against {parameter}");
+    let x_desc = format!("{parameter} ({unit})");
+    xy_figure(
+        Frame {
+            size: (640, 380),
+            caption: &caption,
+            x: x0..x1,
+            y: 0.0..ymax,
+            x_desc: &x_desc,
+            y_desc: "margin",
+        },
+        |chart| {
+            chart
+                .draw_series(LineSeries::new(worst.clone(), BLUE.stroke_width(2)))
+                .map_err(err)?
+                .label("worst margin")
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLUE.stroke_width(2)));
+            chart
+                .draw_series(worst.iter().map(|&p| Circle::new(p, 3, BLUE.filled())))
+                .map_err(err)?;
+            chart
+                .draw_series(LineSeries::new(gas, GREEN.stroke_width(1)))
+                .map_err(err)?
+                .label("worst gas margin")
+                .legend(|(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 20, y)], GREEN.stroke_width(1))
+                });
+            chart
+                .draw_series(std::iter::once(PathElement::new(
+                    vec![(x0, design_factor), (x1, design_factor)],
+                    RED.stroke_width(2),
+                )))
+                .map_err(err)?
+                .label("design factor")
+                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], RED.stroke_width(2)));
+            Ok(())
+        },
+    )
 }
 
 /// |E| along the surface of the most stressed conductors: each sample placed by its angle
@@ -411,40 +434,24 @@ pub fn surface_profiles(model: &Model, fine: &Analysis, conductors: usize) -> Pl
             pts,
         ));
     }
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (640, 380)).into_drawing_area();
-        root.fill(&WHITE).map_err(err)?;
-        let mut chart = ChartBuilder::on(&root)
-            .caption(
-                "Surface field along the most stressed conductors",
-                ("sans-serif", 16),
-            )
-            .margin(10)
-            .x_label_area_size(40)
-            .y_label_area_size(55)
-            .build_cartesian_2d(-180.0..180.0, 0.0..emax * 1.1)
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .x_desc("angle around the conductor's centre (degrees; 0 = +r, 90 = +z)")
-            .y_desc("|E| on the surface (kV/mm)")
-            .draw()
-            .map_err(err)?;
-        for (name, colour, pts) in curves {
-            chart
-                .draw_series(pts.iter().map(|&p| Circle::new(p, 2, colour.filled())))
-                .map_err(err)?
-                .label(name)
-                .legend(move |(x, y)| Circle::new((x, y), 3, colour.filled()));
-        }
-        chart
-            .configure_series_labels()
-            .background_style(WHITE)
-            .border_style(BLACK)
-            .draw()
-            .map_err(err)?;
-        root.present().map_err(err)?;
-    }
-    Ok(svg)
+    xy_figure(
+        Frame {
+            size: (640, 380),
+            caption: "Surface field along the most stressed conductors",
+            x: -180.0..180.0,
+            y: 0.0..emax * 1.1,
+            x_desc: "angle around the conductor's centre (degrees; 0 = +r, 90 = +z)",
+            y_desc: "|E| on the surface (kV/mm)",
+        },
+        |chart| {
+            for (name, colour, pts) in curves {
+                chart
+                    .draw_series(pts.iter().map(|&p| Circle::new(p, 2, colour.filled())))
+                    .map_err(err)?
+                    .label(name)
+                    .legend(move |(x, y)| Circle::new((x, y), 3, colour.filled()));
+            }
+            Ok(())
+        },
+    )
 }
