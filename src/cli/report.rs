@@ -47,11 +47,11 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
     let faults = if a.no_faults || model.columns.is_empty() {
         None
     } else {
-        let mesh = holdoff::mesh::Mesh::build(&model)?;
+        // The fine analysis already holds the design's mesh.
         let stage_v = run.stack.as_ref().map(|s| s.stage_voltages());
         Some(holdoff::faults::replay(
             &model,
-            &mesh,
+            &run.fine.mesh,
             &SolverParams::default(),
             stage_v.as_deref(),
             &holdoff::faults::ReplayOptions::default(),
