@@ -271,6 +271,73 @@ pub struct ScenarioResult {
     pub max_gap_ratio_to_nominal: f64,
     /// Smallest (bottom-of-band firing voltage)/|span voltage| over the protective gaps.
     pub protective_gap_margin: Option<f64>,
+    /// Resistor voltages and dissipation against the columns' ratings.
+    pub resistors: ResistorCheck,
+    /// True when a resistor's voltage (after any protective gap clamps, for the transient) or
+    /// its dissipation exceeds its rating.
+    pub resistor_rating_exceeded: bool,
+}
+
+/// The grading resistors of a scenario against their ratings.
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+pub struct ResistorCheck {
+    /// Largest voltage across one resistor, V, and its place (column, gap; 0-based).
+    pub max_v: f64,
+    pub max_at: Option<(usize, usize)>,
+    /// The same with protective gaps clamping at the top of their firing band, V: across a
+    /// gap bridged by a protective gap (alone or within its section) the resistor sees at
+    /// most that gap's clamp voltage. Equal to `max_v` without protective gaps.
+    pub clamped_max_v: f64,
+    pub clamped_max_at: Option<(usize, usize)>,
+    /// Voltage rating ÷ clamped voltage, smallest over the columns that give a rating.
+    pub rating_margin: Option<f64>,
+    /// Largest steady dissipation of one resistor, W (DC scenarios only).
+    pub max_power_w: Option<f64>,
+    /// Power rating ÷ dissipation, smallest over the columns that give a power rating.
+    pub power_margin: Option<f64>,
+}
+
+/// What one scenario's evaluation gives, before it is named and ranked.
+struct Evaluated {
+    gap_v: Vec<Vec<f64>>,
+    fired: Vec<FiredGap>,
+    gap_margin: Option<f64>,
+    worst: Worst,
+    resistors: (ResistorCheck, bool),
+}
+
+impl ScenarioResult {
+    fn assemble(
+        name: String,
+        kind: Kind,
+        resistor: Option<ResistorRef>,
+        e: Evaluated,
+        nominal_gaps: &[Vec<f64>],
+        nominal_worst: Option<f64>,
+    ) -> ScenarioResult {
+        let (wm, wi, wc) = e.worst;
+        ScenarioResult {
+            rank: 0,
+            name,
+            kind,
+            resistor,
+            max_gap_v: max_abs(&e.gap_v),
+            max_gap_ratio_to_nominal: max_ratio(&e.gap_v, nominal_gaps),
+            gap_voltages_v: e.gap_v,
+            worst_margin: wm,
+            worst_item: wi,
+            worst_criterion: wc,
+            change_from_nominal: match (wm, nominal_worst) {
+                (Some(a), Some(b)) if b != 0.0 => Some(a / b - 1.0),
+                _ => None,
+            },
+            protective_gap_fired: !e.fired.is_empty(),
+            fired_gaps: e.fired,
+            protective_gap_margin: e.gap_margin,
+            resistors: e.resistors.0,
+            resistor_rating_exceeded: e.resistors.1,
+        }
+    }
 }
 
 /// Spread of the worst margin over the Monte Carlo draws.
@@ -419,6 +486,65 @@ fn fired_gaps(networks: &[Network], node_v: &[Vec<f64>]) -> (Vec<FiredGap>, Opti
     (fired, margin)
 }
 
+/// The resistors of every column against their ratings, for gap voltages `gap_v` (per
+/// column, per gap). `steady` says whether the voltages are a DC state (dissipation is then
+/// checked; a transient lasts too short for it).
+fn resistor_check(
+    model: &Model,
+    networks: &[Network],
+    gap_v: &[Vec<f64>],
+    steady: bool,
+) -> (ResistorCheck, bool) {
+    let mut out = ResistorCheck::default();
+    let mut exceeded = false;
+    let mut max_power: Option<f64> = None;
+    for (n, gv) in networks.iter().zip(gap_v) {
+        let col = model.columns.get(n.column);
+        let rating = col.and_then(|c| c.resistor_rating_v);
+        let power_rating = col.and_then(|c| c.resistor_power_w);
+        for (g, &v) in gv.iter().enumerate() {
+            let a = v.abs();
+            if a > out.max_v {
+                out.max_v = a;
+                out.max_at = Some((n.column, g));
+            }
+            let clamp = n
+                .protective
+                .iter()
+                .filter(|p| p.from_node <= g && g < p.to_node)
+                .map(|p| p.firing_v * (1.0 + p.band))
+                .reduce(f64::min);
+            let c = clamp.map_or(a, |f| a.min(f));
+            if c > out.clamped_max_v {
+                out.clamped_max_v = c;
+                out.clamped_max_at = Some((n.column, g));
+            }
+            if let Some(r) = rating
+                && c > 0.0
+            {
+                let m = r / c;
+                out.rating_margin = Some(out.rating_margin.map_or(m, |x| x.min(m)));
+                exceeded |= m < 1.0;
+            }
+            if steady && !n.relative {
+                for &r in n.resistors_ohm.get(g).into_iter().flatten() {
+                    let p = if r.is_finite() { v * v / r } else { 0.0 };
+                    max_power = Some(max_power.map_or(p, |x| x.max(p)));
+                    if let Some(pr) = power_rating
+                        && p > 0.0
+                    {
+                        let m = pr / p;
+                        out.power_margin = Some(out.power_margin.map_or(m, |x| x.min(m)));
+                        exceeded |= m < 1.0;
+                    }
+                }
+            }
+        }
+    }
+    out.max_power_w = max_power;
+    (out, exceeded)
+}
+
 /// Worst margin, its item and its criterion.
 type Worst = (Option<f64>, Option<String>, Option<String>);
 
@@ -514,11 +640,7 @@ pub fn replay(
             ));
         }
     }
-    notes.push(
-        "no insulator leakage and no resistor voltage rating are modelled: the design file \
-         gives neither"
-            .to_string(),
-    );
+    notes.extend(network_notes(model, &networks));
     let basis = Basis::build(model, mesh, params)?;
     progress(0);
 
@@ -634,8 +756,7 @@ pub fn replay(
         let k = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
         progress(k);
     };
-    type Raw = (Vec<Vec<f64>>, Vec<FiredGap>, Option<f64>, Worst);
-    let raw: Vec<Raw> = cases
+    let raw: Vec<Evaluated> = cases
         .par_iter()
         .map_init(
             || Analysis {
@@ -647,42 +768,40 @@ pub fn replay(
                 probes: Vec::new(),
                 energy_j: 0.0,
             },
-            |work, case| -> Result<Raw, FaultError> {
+            |work, case| -> Result<Evaluated, FaultError> {
                 let sols = solve_networks(model, stage_v, &case.networks)?;
                 let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
                 let gap_v: Vec<Vec<f64>> = sols.iter().map(|s| s.gap_v.clone()).collect();
                 let potentials = grading::potentials_with_nodes(model, stage_v, &node_v)?;
                 let (fired, gm) = fired_gaps(&case.networks, &node_v);
                 let fm = field_margins(model, &basis, work, potentials)?;
+                let resistors = resistor_check(model, &case.networks, &gap_v, true);
                 tick();
-                Ok((gap_v, fired, gm, fm))
+                Ok(Evaluated {
+                    gap_v,
+                    fired,
+                    gap_margin: gm,
+                    worst: fm,
+                    resistors,
+                })
             },
         )
         .collect::<Result<_, _>>()?;
 
-    let nominal_gaps = raw[0].0.clone();
-    let nominal_worst = raw[0].3.0;
+    let nominal_gaps = raw[0].gap_v.clone();
+    let nominal_worst = raw[0].worst.0;
     let mut results: Vec<ScenarioResult> = cases
         .iter()
         .zip(raw)
-        .map(|(case, (gap_v, fired, gm, (wm, wi, wc)))| ScenarioResult {
-            rank: 0,
-            name: case.name.clone(),
-            kind: case.kind,
-            resistor: case.resistor,
-            max_gap_v: max_abs(&gap_v),
-            max_gap_ratio_to_nominal: max_ratio(&gap_v, &nominal_gaps),
-            gap_voltages_v: gap_v,
-            worst_margin: wm,
-            worst_item: wi,
-            worst_criterion: wc,
-            change_from_nominal: match (wm, nominal_worst) {
-                (Some(a), Some(b)) if b != 0.0 => Some(a / b - 1.0),
-                _ => None,
-            },
-            protective_gap_fired: !fired.is_empty(),
-            fired_gaps: fired,
-            protective_gap_margin: gm,
+        .map(|(case, e)| {
+            ScenarioResult::assemble(
+                case.name.clone(),
+                case.kind,
+                case.resistor,
+                e,
+                &nominal_gaps,
+                nominal_worst,
+            )
         })
         .collect();
 
@@ -754,26 +873,22 @@ pub fn replay(
                 .collect();
             let (fired, gm) = fired_gaps(&networks, &node_v);
             let mut work = template;
-            let (wm, wi, wc) = field_margins(model, &basis, &mut work, conductor_v)?;
-            results.push(ScenarioResult {
-                rank: 0,
-                name: "transient: terminal-to-tank spark, just after".to_string(),
-                kind: Kind::Transient,
-                resistor: None,
-                max_gap_v: max_abs(&gap_v),
-                max_gap_ratio_to_nominal: max_ratio(&gap_v, &nominal_gaps),
-                gap_voltages_v: gap_v,
-                worst_margin: wm,
-                worst_item: wi,
-                worst_criterion: wc,
-                change_from_nominal: match (wm, nominal_worst) {
-                    (Some(a), Some(b)) if b != 0.0 => Some(a / b - 1.0),
-                    _ => None,
+            let worst = field_margins(model, &basis, &mut work, conductor_v)?;
+            let resistors = resistor_check(model, &networks, &gap_v, false);
+            results.push(ScenarioResult::assemble(
+                "transient: terminal-to-tank spark, just after".to_string(),
+                Kind::Transient,
+                None,
+                Evaluated {
+                    gap_v,
+                    fired,
+                    gap_margin: gm,
+                    worst,
+                    resistors,
                 },
-                protective_gap_fired: !fired.is_empty(),
-                fired_gaps: fired,
-                protective_gap_margin: gm,
-            });
+                &nominal_gaps,
+                nominal_worst,
+            ));
             notes.push(
                 "transient: potentials just after the terminal collapses, column electrodes \
                  floating with their charges conserved, before any protective gap or resistor \
@@ -800,6 +915,80 @@ pub fn replay(
         basis_memory_bytes: basis.memory_bytes(),
         notes,
     })
+}
+
+/// What the replay assumes about leakage, ratings and node currents, per column.
+fn network_notes(model: &Model, networks: &[Network]) -> Vec<String> {
+    let mut notes = Vec::new();
+    for n in networks {
+        let Some(col) = model.columns.get(n.column) else {
+            continue;
+        };
+        if !n.relative {
+            match col.leakage {
+                crate::model::LeakageSpec::None => notes.push(format!(
+                    "column '{}': no insulator leakage (leakage = \"none\")",
+                    n.name
+                )),
+                crate::model::LeakageSpec::PerGap(r) => notes.push(format!(
+                    "column '{}': insulator leakage {} across every gap, as the design gives it",
+                    n.name,
+                    crate::units::format_si(r, crate::units::Dimension::Resistance)
+                )),
+                crate::model::LeakageSpec::FromMaterials => {
+                    let l = grading::leakage::from_materials(model, n.column);
+                    let names: Vec<String> = l
+                        .paths
+                        .iter()
+                        .map(|p| {
+                            format!(
+                                "'{}' ({}, {:.0e} Ohm m)",
+                                p.dielectric, p.material, p.resistivity_ohm_m
+                            )
+                        })
+                        .collect();
+                    let r_min = l.per_gap_ohm.iter().flatten().copied().reduce(f64::min);
+                    let chain = n
+                        .resistors_ohm
+                        .first()
+                        .map(|rs| 1.0 / rs.iter().map(|r| 1.0 / r).sum::<f64>());
+                    match (r_min, chain) {
+                        (Some(rl), Some(rc)) => notes.push(format!(
+                            "column '{}': bulk insulator leakage through {}: {} per gap at the \
+                             least, {:.2e} of the chain's gap current; {} (common practice)",
+                            n.name,
+                            names.join(", "),
+                            crate::units::format_si(rl, crate::units::Dimension::Resistance),
+                            rc / rl,
+                            crate::design::materials::RESISTIVITY_SOURCE
+                        )),
+                        _ => notes.push(format!(
+                            "column '{}': no insulator with a known material spans its gaps, so \
+                             no leakage is modelled",
+                            n.name
+                        )),
+                    }
+                    notes.extend(l.notes.iter().map(|x| format!("column '{}': {x}", n.name)));
+                }
+            }
+        }
+        if col.resistor_rating_v.is_none() && col.resistor_power_w.is_none() {
+            notes.push(format!(
+                "column '{}' gives no resistor rating: resistor voltages are reported but not \
+                 checked (add grading.rating and grading.power_rating)",
+                n.name
+            ));
+        }
+        if n.node_current_a.iter().any(|i| *i != 0.0) {
+            let total: f64 = n.node_current_a.iter().sum();
+            notes.push(format!(
+                "column '{}': {} drawn from its electrodes to ground in every scenario",
+                n.name,
+                crate::units::format_si(total, crate::units::Dimension::Current)
+            ));
+        }
+    }
+    notes
 }
 
 /// Number of scenarios `replay` evaluates through the field (for a progress bar): nominal,

@@ -177,8 +177,41 @@ pub struct Column {
     pub tolerance: Option<f64>,
     /// Parallel strings.
     pub strings: usize,
-    /// Protective gap firing voltage, V, when given.
-    pub protective_gap_v: Option<f64>,
+    /// Voltage rating of one resistor, V, when given.
+    pub resistor_rating_v: Option<f64>,
+    /// Dissipation rating of one resistor, W, when given.
+    pub resistor_power_w: Option<f64>,
+    /// Protective spark gaps, when given.
+    pub protective_gap: Option<ProtectiveSpec>,
+    /// Insulator leakage across each gap.
+    pub leakage: LeakageSpec,
+    /// Current drawn from each electrode to ground (beam loss, corona), A; one per electrode,
+    /// positive when it flows from the electrode to ground.
+    pub node_current_a: Vec<f64>,
+}
+
+/// Protective spark gaps of a column: one across every `span` consecutive gaps.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ProtectiveSpec {
+    /// Nominal firing voltage, V.
+    pub firing_v: f64,
+    /// Half-width of the firing band, fraction of the firing voltage.
+    pub band: f64,
+    /// Gaps bridged by each protective gap (1 = one across every gap).
+    pub span: usize,
+}
+
+/// How the insulator leakage in parallel with each gap is set.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum LeakageSpec {
+    /// Bulk leakage through the insulators that span each gap, from their materials' volume
+    /// resistivity (the built-in table's values are common practice).
+    FromMaterials,
+    /// No leakage.
+    None,
+    /// This resistance across every gap, Ohm.
+    PerGap(f64),
 }
 
 /// The `[multiplier]` table, SI units.

@@ -78,6 +78,7 @@ fn si_unit(dim: Dimension) -> &'static str {
         Dimension::Current => "A",
         Dimension::Frequency => "Hz",
         Dimension::Energy => "J",
+        Dimension::Power => "W",
         Dimension::Ratio => "%",
     }
 }

@@ -30,13 +30,15 @@ pub enum Dimension {
     Current,
     Frequency,
     Energy,
+    /// Power, W (resistor dissipation ratings).
+    Power,
     /// A dimensionless fraction written as a percentage ("1 %" = 0.01).
     Ratio,
 }
 
 impl Dimension {
     /// All dimensions, in a fixed order.
-    pub const ALL: [Dimension; 11] = [
+    pub const ALL: [Dimension; 12] = [
         Dimension::Length,
         Dimension::Voltage,
         Dimension::Field,
@@ -47,6 +49,7 @@ impl Dimension {
         Dimension::Current,
         Dimension::Frequency,
         Dimension::Energy,
+        Dimension::Power,
         Dimension::Ratio,
     ];
 
@@ -63,6 +66,7 @@ impl Dimension {
             Dimension::Current => "a current",
             Dimension::Frequency => "a frequency",
             Dimension::Energy => "an energy",
+            Dimension::Power => "a power",
             Dimension::Ratio => "a percentage",
         }
     }
@@ -95,6 +99,7 @@ impl Dimension {
             Dimension::Current => "1.5 mA",
             Dimension::Frequency => "20 kHz",
             Dimension::Energy => "500 J",
+            Dimension::Power => "1 W",
             Dimension::Ratio => "1 %",
         }
     }
@@ -226,6 +231,9 @@ static UNITS: &[Unit] = &[
     unit("J", D::Energy, 1.0),
     unit("kJ", D::Energy, 1e3),
     unit("MJ", D::Energy, 1e6),
+    unit("mW", D::Power, 1e-3),
+    unit("W", D::Power, 1.0),
+    unit("kW", D::Power, 1e3),
     unit("%", D::Ratio, 1e-2),
 ];
 
@@ -493,6 +501,11 @@ fn display_units(dim: Dimension) -> &'static [ShowUnit] {
         show("kJ", 1e3, 1e3),
         show("MJ", 1e6, 1e6),
     ];
+    const POWER: &[ShowUnit] = &[
+        show("mW", 1e-3, 0.0),
+        show("W", 1.0, 1.0),
+        show("kW", 1e3, 1e3),
+    ];
     const RATIO: &[ShowUnit] = &[show("%", 1e-2, 0.0)];
     match dim {
         // Drawing dimensions stay in millimetres up to 10 m.
@@ -507,6 +520,7 @@ fn display_units(dim: Dimension) -> &'static [ShowUnit] {
         D::Current => CURRENT,
         D::Frequency => FREQUENCY,
         D::Energy => ENERGY,
+        D::Power => POWER,
         D::Ratio => RATIO,
     }
 }
@@ -524,6 +538,7 @@ fn zero_unit(dim: Dimension) -> &'static str {
         D::Current => "A",
         D::Frequency => "Hz",
         D::Energy => "J",
+        D::Power => "W",
         D::Ratio => "%",
     }
 }

@@ -63,7 +63,13 @@ fn demo_a_expands_its_column_with_tube_electrodes() {
     assert_eq!(col.resistor_ohm, Some(1e9));
     assert!(close(col.tolerance.unwrap(), 0.01));
     assert_eq!(col.strings, 1);
-    assert_eq!(col.protective_gap_v, Some(45e3));
+    let pg = col.protective_gap.expect("protective gaps");
+    assert_eq!((pg.firing_v, pg.span), (45e3, 1));
+    assert!(close(pg.band, 0.1));
+    assert_eq!(col.resistor_rating_v, Some(50e3));
+    assert_eq!(col.resistor_power_w, Some(2.0));
+    assert_eq!(col.leakage, holdoff::model::LeakageSpec::FromMaterials);
+    assert_eq!(col.node_current_a, vec![0.0; 26]);
 
     // Electrode 7: z = 345 mm + 6 x 45 mm = 615 mm, on node 7.
     let e7 = &m.conductors[col.electrodes[6]];

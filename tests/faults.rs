@@ -7,50 +7,23 @@ use holdoff::grading;
 use holdoff::mesh::Mesh;
 use holdoff::solve::{Solver, SolverParams};
 
+mod common;
+
 /// A small invented column: ground shield, four tori, terminal, in SF6.
-const SMALL: &str = r#"
-title = "small test column"
-[tank]
-inner_radius = "250 mm"
-length = "700 mm"
-[gas]
-species = "SF6"
-pressure = "2 bar"
-temperature = "20 degC"
-[terminal]
-voltage = "200 kV"
-[[conductor]]
-name = "ground shield"
-shape = "rounded_cylinder"
-r = ["0 mm", "120 mm"]
-z = ["0 mm", "150 mm"]
-corner_radius = "20 mm"
-potential = "ground"
-[[conductor]]
-name = "terminal"
-shape = "rounded_cylinder"
-r = ["0 mm", "120 mm"]
-z = ["450 mm", "600 mm"]
-corner_radius = "30 mm"
-potential = "terminal"
-[[column]]
-name = "column"
-from = "ground shield"
-to = "terminal"
-electrodes = 4
+fn small_text() -> String {
+    common::small_column(
+        "200 kV",
+        "",
+        r#"electrodes = 4
 z_first = "210 mm"
 pitch = "60 mm"
-shape = "torus"
-major_radius = "100 mm"
-minor_radius = "8 mm"
 grading = { resistor = "1 GOhm", tolerance = "1 %", strings = 1 }
-protective_gap = { firing = "60 kV" }
-[mesh]
-cell = "4 mm"
-"#;
+protective_gap = { firing = "60 kV" }"#,
+    )
+}
 
 fn small() -> holdoff::model::Model {
-    holdoff::design::from_str(SMALL, "small.toml").expect("valid design")
+    holdoff::design::from_str(&small_text(), "small.toml").expect("valid design")
 }
 
 /// A uniform chain of N gaps, series capacitance C_g per gap and C_p from each node to
@@ -251,7 +224,7 @@ fn faults_command_writes_json() {
     let dir = std::env::temp_dir().join(format!("holdoff-faults-{}", std::process::id()));
     std::fs::create_dir_all(&dir).expect("temp dir");
     let file = dir.join("small.toml");
-    std::fs::write(&file, SMALL).expect("write design");
+    std::fs::write(&file, small_text()).expect("write design");
     let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
         .args([
             "faults",
@@ -308,4 +281,61 @@ fn faults_command_writes_json() {
     let err = String::from_utf8_lossy(&bad.stderr);
     assert!(err.contains("COLUMN:FIRST-LAST"), "{err}");
     let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// Resistor ratings: each resistor of the nominal chain sees V/N = 40 kV and dissipates
+/// (V/N)²/R = 1.6 W (Ohm's law), so a 50 kV, 1 W rating gives a voltage margin of 1.25 and a
+/// power margin of 0.625, exceeded. Just after a spark the resistor next to the terminal sees
+/// its full transient gap voltage, but with a protective gap across every gap at most the top
+/// of its firing band: here 50 kV × 1.1 = 55 kV.
+#[test]
+fn resistor_ratings_are_checked_against_dc_and_the_clamped_transient() {
+    let small = small_text();
+    let text = small
+        .replace(
+            r#"grading = { resistor = "1 GOhm", tolerance = "1 %", strings = 1 }"#,
+            r#"grading = { resistor = "1 GOhm", tolerance = "1 %", strings = 1, rating = "50 kV", power_rating = "1 W" }"#,
+        )
+        .replace(r#"firing = "60 kV""#, r#"firing = "50 kV""#);
+    assert_ne!(text, small);
+    let m = holdoff::design::from_str(&text, "rated.toml").expect("valid design");
+    let mesh = Mesh::build(&m).expect("mesh");
+    let options = ReplayOptions {
+        samples: 0,
+        ..Default::default()
+    };
+    let r = replay(&m, &mesh, &SolverParams::default(), None, &options, &|_| {}).expect("replay");
+    let nominal = r
+        .scenarios
+        .iter()
+        .find(|s| s.kind == Kind::Nominal)
+        .expect("nominal");
+    let rc = &nominal.resistors;
+    assert!((rc.max_v - 40e3).abs() < 1.0, "{}", rc.max_v);
+    assert!((rc.rating_margin.expect("rated") - 1.25).abs() < 1e-4);
+    assert!((rc.max_power_w.expect("power") - 1.6).abs() < 1e-4);
+    assert!((rc.power_margin.expect("rated") - 0.625).abs() < 1e-4);
+    assert!(nominal.resistor_rating_exceeded);
+    let tr = r
+        .scenarios
+        .iter()
+        .find(|s| s.kind == Kind::Transient)
+        .expect("transient");
+    let rc = &tr.resistors;
+    assert!(
+        rc.max_v > 55e3,
+        "the unclamped transient should exceed the clamp: {}",
+        rc.max_v
+    );
+    assert!(
+        (rc.clamped_max_v - 55e3).abs() < 1.0,
+        "{}",
+        rc.clamped_max_v
+    );
+    assert!((rc.rating_margin.expect("rated") - 50.0 / 55.0).abs() < 1e-6);
+    assert!(
+        rc.max_power_w.is_none(),
+        "no steady dissipation in a transient"
+    );
+    assert!(tr.resistor_rating_exceeded);
 }

@@ -1,7 +1,9 @@
 //! The DC grading network against hand-solved dividers (Ohm's and Kirchhoff's laws for series
 //! and parallel resistors, any circuits text) and the fault figures of PRACTICE.md §2.4 (derived).
 
-use holdoff::grading::{Network, ProtectiveGap};
+mod common;
+
+use holdoff::grading::{self, Network, ProtectiveGap};
 
 fn rel(a: f64, b: f64) -> f64 {
     (a - b).abs() / b.abs()
@@ -141,4 +143,139 @@ fn bad_values_are_errors_naming_what_is_accepted() {
     bad.resistors_ohm[1][0] = -1.0;
     let e = bad.solve(0.0, 1.0).expect_err("negative resistor");
     assert!(e.to_string().contains("positive"), "{e}");
+}
+
+// ---------------------------------------------------------------------------------------------
+// The network as a design file gives it: leakage from the insulators' materials, node
+// currents, protective gaps per section, resistor ratings.
+// ---------------------------------------------------------------------------------------------
+
+/// A small invented column: ground shield, five tori, terminal, with an alumina tube from the
+/// shield's top face (z = 150 mm) to the terminal's bottom face (z = 450 mm): six gaps of
+/// 50 mm. `extra` is appended to the `[[column]]` table.
+fn column_design(extra: &str) -> holdoff::model::Model {
+    let tube = r#"[[dielectric]]
+name = "support tube"
+material = "alumina"
+shape = "tube"
+r = ["40 mm", "50 mm"]
+z = ["150 mm", "450 mm"]"#;
+    let column = format!("electrodes = 5\nz_first = \"200 mm\"\npitch = \"50 mm\"\n{extra}");
+    let text = common::small_column("300 kV", tube, &column);
+    match holdoff::design::from_str(&text, "grading_test.toml") {
+        Ok(m) => m,
+        Err(e) => panic!("{e}"),
+    }
+}
+
+/// Bulk leakage of a straight insulator tube across a gap of length L is R = ρL/A with
+/// A = π(r₁² − r₀²) (Ohm's law for a uniform conductor); alumina's table value is 1e12 Ohm·m
+/// (common practice, from memory). Every gap here is 50 mm long.
+#[test]
+fn leakage_from_the_insulator_material_is_rho_l_over_a() {
+    let m = column_design(r#"grading = { resistor = "1 GOhm" }"#);
+    let l = grading::leakage::from_materials(&m, 0);
+    let area = std::f64::consts::PI * (0.050f64.powi(2) - 0.040f64.powi(2));
+    let expected = 1e12 * 0.050 / area;
+    assert_eq!(l.per_gap_ohm.len(), 6);
+    for (g, r) in l.per_gap_ohm.iter().enumerate() {
+        let r = r.unwrap_or_else(|| panic!("gap {g} has no leakage"));
+        assert!(rel(r, expected) < 0.01, "gap {g}: {r:e} vs {expected:e}");
+    }
+    assert_eq!(l.paths.len(), 1);
+    assert_eq!(l.paths[0].material, "alumina");
+    // The network of the column carries it, and `leakage = "none"` removes it.
+    let n = Network::from_column(&m, 0).expect("network");
+    assert!(
+        n.leakage_ohm
+            .iter()
+            .all(|x| x.is_some_and(|r| rel(r, expected) < 0.01))
+    );
+    let none = column_design("grading = { resistor = \"1 GOhm\" }\nleakage = \"none\"");
+    let n = Network::from_column(&none, 0).expect("network");
+    assert!(n.leakage_ohm.iter().all(Option::is_none));
+}
+
+/// An open resistor with leakage L across every gap: the open gap (L alone) in series with
+/// N − 1 gaps of R‖L takes V·L / (L + (N − 1)·R‖L) (series and parallel resistors).
+#[test]
+fn open_resistor_with_design_leakage_matches_the_hand_divider() {
+    let m = column_design("grading = { resistor = \"1 GOhm\" }\nleakage = \"20 GOhm\"");
+    let n = Network::from_column(&m, 0).expect("network");
+    let s = n
+        .with_open(2, 0)
+        .expect("exists")
+        .solve(0.0, 300e3)
+        .expect("solves");
+    let (r, l, gaps) = (1e9, 20e9, 6.0);
+    let par = r * l / (r + l);
+    let expected = 300e3 * l / (l + (gaps - 1.0) * par);
+    assert!(
+        rel(s.gap_v[2], expected) < 1e-9,
+        "{} vs {expected}",
+        s.gap_v[2]
+    );
+}
+
+/// A current I drawn to ground at node k of a uniform chain of N resistors R between 0 and V
+/// lowers node j by I·R·j(N − k)/N for j ≤ k and I·R·k(N − j)/N for j ≥ k (superposition;
+/// the chain's transfer resistance, Kirchhoff's laws).
+#[test]
+fn a_node_current_lowers_the_chain_as_the_hand_solution() {
+    let m = column_design(
+        "grading = { resistor = \"1 GOhm\" }\nleakage = \"none\"\n\
+         node_current = [\"0 uA\", \"0 uA\", \"10 uA\", \"0 uA\", \"0 uA\"]",
+    );
+    let n = Network::from_column(&m, 0).expect("network");
+    let s = n.solve(0.0, 300e3).expect("solves");
+    let (r, i, big_n, k) = (1e9, 10e-6, 6.0, 3.0);
+    for (j, v) in s.node_v.iter().enumerate() {
+        let j = j as f64;
+        let drop = if j <= k {
+            i * r * j * (big_n - k) / big_n
+        } else {
+            i * r * k * (big_n - j) / big_n
+        };
+        let expected = 300e3 * j / big_n - drop;
+        assert!(
+            (v - expected).abs() < 1e-6 * 300e3,
+            "node {j}: {v} vs {expected}"
+        );
+    }
+}
+
+/// Protective gaps per section (`span = 3`): one across nodes 0–3 and one across 3–6. With a
+/// resistor of the first section open and no leakage, that section clamps at its firing
+/// voltage and the other three gaps share the rest equally.
+#[test]
+fn protective_gaps_per_section_clamp_their_section() {
+    let m = column_design(
+        "grading = { resistor = \"1 GOhm\" }\nleakage = \"none\"\n\
+         protective_gap = { firing = \"200 kV\", span = 3 }",
+    );
+    let n = Network::from_column(&m, 0).expect("network");
+    let spans: Vec<(usize, usize)> = n
+        .protective
+        .iter()
+        .map(|p| (p.from_node, p.to_node))
+        .collect();
+    assert_eq!(spans, vec![(0, 3), (3, 6)]);
+    let s = n
+        .with_open(1, 0)
+        .expect("exists")
+        .solve(0.0, 300e3)
+        .expect("solves");
+    assert_eq!(s.fired, vec![true, false]);
+    assert!(
+        rel(s.node_v[3] - s.node_v[0], 200e3) < 1e-5,
+        "{:?}",
+        s.node_v
+    );
+    for g in 3..6 {
+        assert!(
+            rel(s.gap_v[g], 100e3 / 3.0) < 1e-5,
+            "gap {g}: {}",
+            s.gap_v[g]
+        );
+    }
 }

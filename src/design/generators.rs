@@ -12,7 +12,7 @@ use super::read::{At, Reader};
 use super::schema::{RawColumn, RawValue};
 use super::shapes;
 use crate::geometry::Shape;
-use crate::model::{Conductor, Origin, PotentialSpec};
+use crate::model::{Conductor, LeakageSpec, Origin, PotentialSpec, ProtectiveSpec};
 use crate::units::{Dimension, format_si};
 use std::ops::Range;
 use toml::Spanned;
@@ -45,7 +45,12 @@ pub(crate) struct ColumnSpec {
     pub resistor_ohm: Option<f64>,
     pub tolerance: Option<f64>,
     pub strings: usize,
-    pub protective_gap_v: Option<f64>,
+    pub rating_v: Option<f64>,
+    pub power_rating_w: Option<f64>,
+    pub protective: Option<ProtectiveSpec>,
+    pub leakage: LeakageSpec,
+    /// Current drawn to ground at each electrode, A (one per electrode).
+    pub node_current_a: Vec<f64>,
     pub at: At,
     pub line: usize,
 }
@@ -227,59 +232,38 @@ pub(crate) fn read_column(
             }
         }
     };
-    let (resistor, tolerance, strings) = match &raw.grading {
-        None => (Some(None), Some(None), Some(1)),
-        Some(g) => {
-            let gat = At::new(at.key("grading"), g.span());
-            let g = g.get_ref();
-            let res = rd.opt_quantity(&g.resistor, &gat, "resistor", Dimension::Resistance);
-            let res = rd.check(
-                res,
-                g.resistor.as_ref(),
-                &gat.key("resistor"),
-                |x| x > 0.0,
-                "must be greater than zero",
-            );
-            let tol = rd.opt_quantity(&g.tolerance, &gat, "tolerance", Dimension::Ratio);
-            let tol = rd.check(
-                tol,
-                g.tolerance.as_ref(),
-                &gat.key("tolerance"),
-                |x| (0.0..1.0).contains(&x),
-                "must be at least 0 % and below 100 %",
-            );
-            let strings = match &g.strings {
-                Some(v) => rd.count(v, &gat.key("strings"), 1),
-                None => Some(1),
-            };
-            let res = if g.resistor.is_some() {
-                res.map(Some)
-            } else {
-                Some(None)
-            };
-            let tol = if g.tolerance.is_some() {
-                tol.map(Some)
-            } else {
-                Some(None)
-            };
-            (res, tol, strings)
+    let grading = read_grading(rd, raw, &at);
+    let gaps = electrodes.map(|n| n + 1);
+    let protective = read_protective(rd, raw, &at, gaps);
+    let leakage = read_leakage(rd, raw, &at);
+    let node_current = read_node_current(rd, raw, &at, electrodes);
+    let (resistor, tolerance, strings, rating, power) = grading?;
+    if resistor.is_none() {
+        // Currents and a leakage resistance need absolute resistor values to mean anything.
+        let absolute = [
+            (&raw.node_current, "node_current"),
+            (&raw.leakage, "leakage"),
+        ];
+        for (leaf, key) in absolute {
+            if let Some(v) = leaf
+                && !(key == "leakage"
+                    && matches!(v.get_ref(), RawValue::Str(t) if matches!(t.trim(), "auto" | "none")))
+            {
+                rd.push(
+                    "missing-key",
+                    at.key("grading.resistor"),
+                    v.span(),
+                    format!(
+                        "`{}` needs the grading resistor value: without it the network only \
+                         gives the division, not currents or resistances",
+                        at.key(key)
+                    ),
+                    Some("add `grading = { resistor = \"1 GOhm\" }` to the column".to_string()),
+                );
+                return None;
+            }
         }
-    };
-    let gap = match &raw.protective_gap {
-        None => Some(None),
-        Some(p) => {
-            let pat = At::new(at.key("protective_gap"), p.span());
-            let f = rd.req_quantity(&p.get_ref().firing, &pat, "firing", Dimension::Voltage);
-            rd.check(
-                f,
-                p.get_ref().firing.as_ref(),
-                &pat.key("firing"),
-                |x| x > 0.0,
-                "must be greater than zero",
-            )
-            .map(Some)
-        }
-    };
+    }
     Some(ColumnSpec {
         name: name?,
         from: from?,
@@ -290,13 +274,208 @@ pub(crate) fn read_column(
         major_radius: major?,
         minor_radius: minor?,
         tube: tube?,
-        resistor_ohm: resistor?,
-        tolerance: tolerance?,
-        strings: strings?,
-        protective_gap_v: gap?,
+        resistor_ohm: resistor,
+        tolerance,
+        strings,
+        rating_v: rating,
+        power_rating_w: power,
+        protective: protective?,
+        leakage: leakage?,
+        node_current_a: node_current?,
         at,
         line,
     })
+}
+
+/// What `grading = { .. }` gives: resistor, tolerance, strings, voltage rating, power rating.
+type GradingKeys = (Option<f64>, Option<f64>, usize, Option<f64>, Option<f64>);
+
+/// Reads `grading = { resistor, tolerance, strings, rating, power_rating }`; every key is
+/// optional (no resistor value = equal resistors, the division without currents).
+fn read_grading(rd: &mut Reader, raw: &RawColumn, at: &At) -> Option<GradingKeys> {
+    let Some(g) = &raw.grading else {
+        return Some((None, None, 1, None, None));
+    };
+    let gat = At::new(at.key("grading"), g.span());
+    let g = g.get_ref();
+    let mut ok = true;
+    let mut positive = |rd: &mut Reader, leaf: &super::schema::Leaf, key: &str, dim| {
+        let x = rd.opt_quantity(leaf, &gat, key, dim);
+        let x = rd.check(
+            x,
+            leaf.as_ref(),
+            &gat.key(key),
+            |x| x > 0.0,
+            "must be greater than zero",
+        );
+        if leaf.is_some() && x.is_none() {
+            ok = false;
+        }
+        x
+    };
+    let res = positive(rd, &g.resistor, "resistor", Dimension::Resistance);
+    let rating = positive(rd, &g.rating, "rating", Dimension::Voltage);
+    let power = positive(rd, &g.power_rating, "power_rating", Dimension::Power);
+    let tol = rd.opt_quantity(&g.tolerance, &gat, "tolerance", Dimension::Ratio);
+    let tol = rd.check(
+        tol,
+        g.tolerance.as_ref(),
+        &gat.key("tolerance"),
+        |x| (0.0..1.0).contains(&x),
+        "must be at least 0 % and below 100 %",
+    );
+    if g.tolerance.is_some() && tol.is_none() {
+        ok = false;
+    }
+    let strings = match &g.strings {
+        Some(v) => rd.count(v, &gat.key("strings"), 1),
+        None => Some(1),
+    };
+    if (g.rating.is_some() || g.power_rating.is_some())
+        && g.resistor.is_none()
+        && let Some(v) = g.rating.as_ref().or(g.power_rating.as_ref())
+    {
+        rd.push(
+            "missing-key",
+            gat.key("resistor"),
+            v.span(),
+            format!(
+                "`{}` gives resistor ratings but no resistor value, so no resistor voltage or \
+                 dissipation can be checked against them",
+                gat.path
+            ),
+            Some("add `resistor = \"1 GOhm\"` (the value of one resistor)".to_string()),
+        );
+        ok = false;
+    }
+    let strings = strings?;
+    ok.then_some((res, tol, strings, rating, power))
+}
+
+/// Reads `protective_gap = { firing, band, span }`. `gaps` is the column's gap count when
+/// known; a span must divide it, so that every gap is bridged by exactly one protective gap.
+fn read_protective(
+    rd: &mut Reader,
+    raw: &RawColumn,
+    at: &At,
+    gaps: Option<usize>,
+) -> Option<Option<ProtectiveSpec>> {
+    let Some(p) = &raw.protective_gap else {
+        return Some(None);
+    };
+    let pat = At::new(at.key("protective_gap"), p.span());
+    let p = p.get_ref();
+    let f = rd.req_quantity(&p.firing, &pat, "firing", Dimension::Voltage);
+    let firing = rd.check(
+        f,
+        p.firing.as_ref(),
+        &pat.key("firing"),
+        |x| x > 0.0,
+        "must be greater than zero",
+    );
+    let band = match &p.band {
+        None => Some(crate::grading::DEFAULT_FIRING_BAND),
+        Some(v) => {
+            let b = rd.quantity(v, &pat.key("band"), Dimension::Ratio);
+            rd.check(
+                b,
+                Some(v),
+                &pat.key("band"),
+                |x| (0.0..0.5).contains(&x),
+                "must be at least 0 % and below 50 % (the half-width of the firing band)",
+            )
+        }
+    };
+    let span = match &p.span {
+        None => Some(1),
+        Some(v) => rd.count(v, &pat.key("span"), 1).and_then(|k| match gaps {
+            Some(g) if g % k != 0 => {
+                let divisors: Vec<String> = (1..=g)
+                    .filter(|d| g % d == 0)
+                    .map(|d| d.to_string())
+                    .collect();
+                rd.out_of_range(
+                    v,
+                    &pat.key("span"),
+                    format!(
+                        "`{} = {k}` does not divide the column's {g} gaps, so some gaps would \
+                         have no protective gap across them",
+                        pat.key("span")
+                    ),
+                    Some(format!("accepted spans: {}", divisors.join(", "))),
+                );
+                None
+            }
+            _ => Some(k),
+        }),
+    };
+    Some(Some(ProtectiveSpec {
+        firing_v: firing?,
+        band: band?,
+        span: span?,
+    }))
+}
+
+/// Reads `leakage = "auto" | "none" | "<resistance per gap>"`; absent = "auto".
+fn read_leakage(rd: &mut Reader, raw: &RawColumn, at: &At) -> Option<LeakageSpec> {
+    let Some(v) = &raw.leakage else {
+        return Some(LeakageSpec::FromMaterials);
+    };
+    let key = at.key("leakage");
+    if let RawValue::Str(t) = v.get_ref() {
+        match t.trim() {
+            "auto" => return Some(LeakageSpec::FromMaterials),
+            "none" => return Some(LeakageSpec::None),
+            _ => {}
+        }
+    }
+    if !matches!(v.get_ref(), RawValue::Str(t) if t.trim().starts_with(|c: char| c.is_ascii_digit() || c == '.' || c == '+'))
+    {
+        rd.push(
+            "wrong-type",
+            key,
+            v.span(),
+            format!(
+                "`{}` must be \"auto\", \"none\" or a resistance per gap, found {}",
+                at.key("leakage"),
+                v.get_ref().show()
+            ),
+            Some(
+                "write leakage = \"auto\" (from the insulators' materials), \"none\", or \
+                 e.g. leakage = \"10 TOhm\""
+                    .to_string(),
+            ),
+        );
+        return None;
+    }
+    let x = rd.quantity(v, &key, Dimension::Resistance);
+    rd.check(x, Some(v), &key, |x| x > 0.0, "must be greater than zero")
+        .map(LeakageSpec::PerGap)
+}
+
+/// Reads `node_current`: one current drawn at every electrode, or one per electrode.
+fn read_node_current(
+    rd: &mut Reader,
+    raw: &RawColumn,
+    at: &At,
+    electrodes: Option<usize>,
+) -> Option<Vec<f64>> {
+    let n = electrodes?;
+    let Some(v) = &raw.node_current else {
+        return Some(vec![0.0; n]);
+    };
+    let key = at.key("node_current");
+    match v.get_ref() {
+        RawValue::Array(_) => {
+            let items = rd.array_of(v, &key, Dimension::Current, Some(n))?;
+            let mut out = Vec::with_capacity(n);
+            for (k, item) in items.iter().enumerate() {
+                out.push(rd.quantity(item, &format!("{key}[{k}]"), Dimension::Current));
+            }
+            out.into_iter().collect()
+        }
+        _ => rd.quantity(v, &key, Dimension::Current).map(|i| vec![i; n]),
+    }
 }
 
 /// The name of generated electrode `k` of a column.

@@ -196,6 +196,47 @@ pub static MATERIALS: &[Material] = &[
     ),
 ];
 
+/// Volume resistivity at room temperature, Ohm·m, of the built-in materials, used for the
+/// default insulator leakage of a grading column. Order-of-magnitude values recalled from
+/// manufacturers' data sheets (from memory; common practice, no source checked): data sheets
+/// quote them in Ohm·cm, 100 times these numbers. Resistivity falls steeply with
+/// temperature, moisture and surface contamination, and surface leakage is not included.
+pub static VOLUME_RESISTIVITY_OHM_M: &[(&str, f64)] = &[
+    ("alumina", 1e12),
+    ("alumina-99.5", 1e12),
+    ("sapphire", 1e14),
+    ("fused-silica", 1e16),
+    ("quartz", 1e14),
+    ("borosilicate", 1e13),
+    ("soda-lime-glass", 1e10),
+    ("glass-ceramic", 1e14),
+    ("porcelain", 1e11),
+    ("mica", 1e13),
+    ("epoxy", 1e13),
+    ("glass-epoxy", 1e12),
+    ("polyethylene", 1e16),
+    ("polypropylene", 1e16),
+    ("ptfe", 1e16),
+    ("pmma", 1e13),
+    ("polycarbonate", 1e14),
+    ("polyimide", 1e15),
+    ("mineral-oil", 1e12),
+];
+
+/// The source text of [`VOLUME_RESISTIVITY_OHM_M`], for reports.
+pub const RESISTIVITY_SOURCE: &str = "room-temperature volume resistivity, order of magnitude \
+     recalled from manufacturers' data sheets (common practice, from memory); surface leakage \
+     not included";
+
+/// The volume resistivity of a built-in material, Ohm·m.
+pub fn volume_resistivity(name: &str) -> Option<f64> {
+    let m = lookup(name)?;
+    VOLUME_RESISTIVITY_OHM_M
+        .iter()
+        .find(|(n, _)| *n == m.name)
+        .map(|(_, r)| *r)
+}
+
 /// Looks a material up by name (case-insensitive; spaces and underscores read as hyphens).
 pub fn lookup(name: &str) -> Option<&'static Material> {
     let key: String = name
@@ -221,6 +262,15 @@ mod tests {
         for mat in MATERIALS {
             assert!(mat.eps_r >= 1.0 && mat.eps_r < 20.0, "{}", mat.name);
         }
+    }
+
+    #[test]
+    fn every_material_has_a_resistivity() {
+        for mat in MATERIALS {
+            let r = volume_resistivity(mat.name);
+            assert!(r.is_some_and(|r| (1e8..1e20).contains(&r)), "{}", mat.name);
+        }
+        assert_eq!(VOLUME_RESISTIVITY_OHM_M.len(), MATERIALS.len());
     }
 
     #[test]

@@ -281,6 +281,12 @@ pub struct RawColumn {
     pub tube_electrode: Option<Spanned<RawTubeElectrode>>,
     pub grading: Option<Spanned<RawGrading>>,
     pub protective_gap: Option<Spanned<RawProtectiveGap>>,
+    /// Insulator leakage across each gap: "auto" (from the insulators' materials), "none",
+    /// or a resistance per gap.
+    pub leakage: Leaf,
+    /// Current drawn to ground at each electrode (beam loss, corona): one current for every
+    /// electrode, or an array with one per electrode.
+    pub node_current: Leaf,
 }
 
 /// `tube_electrode = { r = [r0, r1], thickness = "..", corner_radius = ".." }`.
@@ -292,20 +298,29 @@ pub struct RawTubeElectrode {
     pub corner_radius: Leaf,
 }
 
-/// `grading = { resistor = "..", tolerance = "1 %", strings = 1 }`.
+/// `grading = { resistor = "..", tolerance = "1 %", strings = 1, rating = "..",
+/// power_rating = ".." }`.
 #[derive(Debug, Default, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct RawGrading {
     pub resistor: Leaf,
     pub tolerance: Leaf,
     pub strings: Leaf,
+    /// Voltage rating of one resistor.
+    pub rating: Leaf,
+    /// Dissipation rating of one resistor.
+    pub power_rating: Leaf,
 }
 
-/// `protective_gap = { firing = ".." }`.
+/// `protective_gap = { firing = "..", band = "10 %", span = 1 }`.
 #[derive(Debug, Default, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct RawProtectiveGap {
     pub firing: Leaf,
+    /// Half-width of the firing band.
+    pub band: Leaf,
+    /// Gaps bridged by each protective gap (1 = one across every gap).
+    pub span: Leaf,
 }
 
 /// `[multiplier]`.

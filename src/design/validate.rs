@@ -339,7 +339,11 @@ pub(crate) fn validate(
             resistor_ohm: spec.resistor_ohm,
             tolerance: spec.tolerance,
             strings: spec.strings,
-            protective_gap_v: spec.protective_gap_v,
+            resistor_rating_v: spec.rating_v,
+            resistor_power_w: spec.power_rating_w,
+            protective_gap: spec.protective,
+            leakage: spec.leakage,
+            node_current_a: spec.node_current_a.clone(),
         });
     }
     let mut model_dielectrics = Vec::new();

@@ -32,6 +32,24 @@ fn opt(v: Option<f64>, digits: usize) -> String {
     v.map_or_else(|| "-".to_string(), |x| format!("{x:.digits$}"))
 }
 
+/// The resistor column of the scenario tables: the largest voltage on one resistor (clamped
+/// by the protective gaps) with its rating margin, and whether a rating is exceeded.
+pub fn resistor_cell(sc: &ScenarioResult) -> String {
+    let rc = &sc.resistors;
+    let mut t = format!("{:.1} kV", rc.clamped_max_v / 1e3);
+    let m = match (rc.rating_margin, rc.power_margin) {
+        (Some(a), Some(b)) => Some(a.min(b)),
+        (a, b) => a.or(b),
+    };
+    if let Some(m) = m {
+        let _ = write!(t, " ({m:.2}× rating)");
+    }
+    if sc.resistor_rating_exceeded {
+        t.push_str(" OVER RATING");
+    }
+    t
+}
+
 fn pct(v: Option<f64>) -> String {
     v.map_or_else(|| "-".to_string(), |x| format!("{:+.2} %", 100.0 * x))
 }
@@ -65,6 +83,7 @@ pub fn render(s: &FaultSection, details: usize) -> String {
         "vs nominal",
         "max gap kV",
         "protective gap",
+        "resistor",
     ]);
     for sc in &r.scenarios {
         t.add_row(vec![
@@ -80,6 +99,7 @@ pub fn render(s: &FaultSection, details: usize) -> String {
             } else {
                 "-".to_string()
             }),
+            Cell::new(resistor_cell(sc)),
         ]);
     }
     let _ = writeln!(out, "{t}");
@@ -181,6 +201,30 @@ fn detail(out: &mut String, sc: &ScenarioResult) {
         sc.max_gap_v / 1e3,
         sc.max_gap_ratio_to_nominal,
         opt(sc.protective_gap_margin, 3)
+    );
+    let rc = &sc.resistors;
+    let at = |a: Option<(usize, usize)>| {
+        a.map_or_else(String::new, |(c, g)| {
+            format!(" (column {} gap {})", c + 1, g + 1)
+        })
+    };
+    let _ = writeln!(
+        out,
+        "   resistors: largest {:.2} kV{}, {:.2} kV{} with protective gaps clamping; rating margin {}; \
+         dissipation {} (power margin {}){}",
+        rc.max_v / 1e3,
+        at(rc.max_at),
+        rc.clamped_max_v / 1e3,
+        at(rc.clamped_max_at),
+        opt(rc.rating_margin, 3),
+        rc.max_power_w
+            .map_or_else(|| "-".to_string(), |p| format!("{p:.3} W")),
+        opt(rc.power_margin, 3),
+        if sc.resistor_rating_exceeded {
+            "; OVER RATING"
+        } else {
+            ""
+        }
     );
     for f in &sc.fired_gaps {
         let _ = writeln!(

@@ -223,13 +223,13 @@ pub fn render(
         );
         let _ = writeln!(
             o,
-            "| rank | scenario | worst item | margin | vs nominal | max gap | protective gap |"
+            "| rank | scenario | worst item | margin | vs nominal | max gap | protective gap | resistor |"
         );
-        let _ = writeln!(o, "|---:|---|---|---:|---:|---:|---|");
+        let _ = writeln!(o, "|---:|---|---|---:|---:|---:|---|---|");
         for sc in f.scenarios.iter().take(15) {
             let _ = writeln!(
                 o,
-                "| {} | {} | {} | {} | {} | {} | {} |",
+                "| {} | {} | {} | {} | {} | {} | {} | {} |",
                 sc.rank,
                 cell(&sc.name),
                 cell(sc.worst_item.as_deref().unwrap_or("-")),
@@ -241,7 +241,37 @@ pub fn render(
                     format!("fired ({})", sc.fired_gaps.len())
                 } else {
                     "-".into()
-                }
+                },
+                cell(&crate::report::faults::resistor_cell(sc))
+            );
+        }
+        let over: Vec<&str> = f
+            .scenarios
+            .iter()
+            .filter(|sc| sc.resistor_rating_exceeded)
+            .map(|sc| sc.name.as_str())
+            .collect();
+        if !over.is_empty() {
+            let _ = writeln!(
+                o,
+                "\n**Resistor ratings exceeded** in {} scenario(s): {}.",
+                over.len(),
+                cell(&over.join("; "))
+            );
+        }
+        if let Some(tr) = f
+            .scenarios
+            .iter()
+            .find(|sc| sc.kind == crate::faults::Kind::Transient)
+        {
+            let rc = &tr.resistors;
+            let _ = writeln!(
+                o,
+                "\nJust after a spark one grading resistor sees up to {} ({} with the protective gaps clamping at the top of their band); rating margin {}.",
+                kv(rc.max_v),
+                kv(rc.clamped_max_v),
+                rc.rating_margin
+                    .map_or("- (no rating given)".into(), |m| format!("{m:.2}"))
             );
         }
         if let Some(mc) = &f.monte_carlo {

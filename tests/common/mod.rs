@@ -1,4 +1,4 @@
-//! Helpers shared by the analytic test files.
+//! Helpers shared by the test files.
 
 #![allow(dead_code)]
 
@@ -40,4 +40,50 @@ pub fn sphere_above_plane(radius: f64, gap: f64, v: f64, cell: f64, max_cell: f6
         growth: 1.08,
     };
     m
+}
+
+/// The text of a small invented grading column in SF6 at 2 bar: a grounded shield (top face
+/// z = 150 mm), tori of major radius 100 mm between it and a terminal (bottom face
+/// z = 450 mm) at `voltage`, `dielectrics` (whole `[[dielectric]]` tables) and `column`
+/// (the column's keys after its shape), on a 4 mm mesh.
+pub fn small_column(voltage: &str, dielectrics: &str, column: &str) -> String {
+    format!(
+        r#"
+title = "small test column"
+[tank]
+inner_radius = "250 mm"
+length = "700 mm"
+[gas]
+species = "SF6"
+pressure = "2 bar"
+temperature = "20 degC"
+[terminal]
+voltage = "{voltage}"
+[[conductor]]
+name = "ground shield"
+shape = "rounded_cylinder"
+r = ["0 mm", "120 mm"]
+z = ["0 mm", "150 mm"]
+corner_radius = "20 mm"
+potential = "ground"
+[[conductor]]
+name = "terminal"
+shape = "rounded_cylinder"
+r = ["0 mm", "120 mm"]
+z = ["450 mm", "600 mm"]
+corner_radius = "30 mm"
+potential = "terminal"
+{dielectrics}
+[[column]]
+name = "column"
+from = "ground shield"
+to = "terminal"
+shape = "torus"
+major_radius = "100 mm"
+minor_radius = "8 mm"
+{column}
+[mesh]
+cell = "4 mm"
+"#
+    )
 }

@@ -5,7 +5,9 @@
 //! divides the end-to-end voltage of a column equally between its gaps; "stage:N" potentials
 //! take the loaded stage voltages of the multiplier model, which the caller supplies.
 
-use crate::model::{Model, PotentialSpec};
+pub mod leakage;
+
+use crate::model::{LeakageSpec, Model, PotentialSpec};
 use serde::Serialize;
 use thiserror::Error;
 
@@ -267,8 +269,10 @@ pub enum NetworkError {
 
 impl Network {
     /// The network of column `column` as the design gives it: `resistor_ohm` per gap in every
-    /// string, a protective gap across every gap when `protective_gap_v` is given (firing band
-    /// `DEFAULT_FIRING_BAND`), no leakage and no node currents.
+    /// string; a protective gap across every `span` gaps when the column has protective gaps;
+    /// the insulator leakage of its `leakage` key (from the insulators' materials by default);
+    /// the node currents it gives. A column without a resistor value gets equal unit
+    /// resistors, and then no leakage or currents (they need absolute values).
     pub fn from_column(model: &Model, column: usize) -> Result<Network, GradingError> {
         let Some(col) = model.columns.get(column) else {
             return Err(GradingError::NoSuchColumn {
@@ -280,27 +284,47 @@ impl Network {
         let gaps = col.electrodes.len() + 1;
         let strings = col.strings.max(1);
         let r = col.resistor_ohm.unwrap_or(1.0);
+        let relative = col.resistor_ohm.is_none();
         let protective = col
-            .protective_gap_v
-            .map(|v| {
-                (0..gaps)
-                    .map(|g| ProtectiveGap {
-                        from_node: g,
-                        to_node: g + 1,
-                        firing_v: v,
-                        band: DEFAULT_FIRING_BAND,
+            .protective_gap
+            .map(|p| {
+                let span = p.span.max(1);
+                (0..gaps / span)
+                    .map(|k| ProtectiveGap {
+                        from_node: k * span,
+                        to_node: ((k + 1) * span).min(gaps),
+                        firing_v: p.firing_v,
+                        band: p.band,
                     })
                     .collect()
             })
             .unwrap_or_default();
+        let leakage_ohm = match col.leakage {
+            _ if relative => vec![None; gaps],
+            LeakageSpec::None => vec![None; gaps],
+            LeakageSpec::PerGap(x) => vec![Some(x); gaps],
+            LeakageSpec::FromMaterials => {
+                let mut l = leakage::from_materials(model, column).per_gap_ohm;
+                l.resize(gaps, None);
+                l
+            }
+        };
+        let mut node_current_a = vec![0.0; gaps + 1];
+        if !relative {
+            for (k, i) in col.node_current_a.iter().enumerate() {
+                if let Some(slot) = node_current_a.get_mut(k + 1) {
+                    *slot = *i;
+                }
+            }
+        }
         Ok(Network {
             column,
             name: col.name.clone(),
             resistors_ohm: vec![vec![r; strings]; gaps],
-            relative: col.resistor_ohm.is_none(),
-            leakage_ohm: vec![None; gaps],
+            relative,
+            leakage_ohm,
             protective,
-            node_current_a: vec![0.0; gaps + 1],
+            node_current_a,
         })
     }
 
