@@ -384,6 +384,15 @@ pub struct FaultReplay {
     pub spark_energy_conditioning: Option<SparkEnergy>,
     pub networks: Vec<Network>,
     pub basis_memory_bytes: usize,
+    /// Wall-clock seconds of the unit solves (basis and capacitance matrix) and of the
+    /// scenarios' field checks (not serialized, so that a rerun gives the same JSON).
+    #[serde(skip)]
+    pub basis_seconds: f64,
+    #[serde(skip)]
+    pub scenario_seconds: f64,
+    /// Scenarios whose field checks were shared with an identical one (the same resistor in
+    /// another string).
+    pub shared_evaluations: usize,
     pub notes: Vec<String>,
 }
 
@@ -641,7 +650,10 @@ pub fn replay(
         }
     }
     notes.extend(network_notes(model, &networks));
+    let t_basis = std::time::Instant::now();
     let basis = Basis::build(model, mesh, params)?;
+    let basis_seconds = t_basis.elapsed().as_secs_f64();
+    let t_scenarios = std::time::Instant::now();
     progress(0);
 
     // The scenarios.
@@ -738,6 +750,8 @@ pub fn replay(
         });
     }
 
+    // The insulator sites are geometry: found once here, shared by every worker's copy.
+    let _ = mesh.insulator_sites(model, 0);
     // A work analysis per worker thread, formed from the basis.
     let template = Analysis {
         mesh: mesh.clone(),
@@ -756,7 +770,34 @@ pub fn replay(
         let k = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
         progress(k);
     };
-    let raw: Vec<Evaluated> = cases
+    // The networks of every case (cheap), then the field checks once per distinct set of
+    // conductor potentials: with parallel strings, the same resistor failing in either string
+    // gives the same potentials, and is evaluated once.
+    type Prepared = (Vec<Vec<f64>>, Vec<Vec<f64>>, Vec<f64>);
+    let prepared: Vec<Prepared> = cases
+        .par_iter()
+        .map(|case| -> Result<Prepared, FaultError> {
+            let sols = solve_networks(model, stage_v, &case.networks)?;
+            let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
+            let gap_v: Vec<Vec<f64>> = sols.iter().map(|s| s.gap_v.clone()).collect();
+            let potentials = grading::potentials_with_nodes(model, stage_v, &node_v)?;
+            Ok((node_v, gap_v, potentials))
+        })
+        .collect::<Result<_, _>>()?;
+    let mut first_of: std::collections::HashMap<Vec<u64>, usize> = std::collections::HashMap::new();
+    let mut distinct: Vec<usize> = Vec::new();
+    let slot: Vec<usize> = prepared
+        .iter()
+        .enumerate()
+        .map(|(ci, p)| {
+            let key: Vec<u64> = p.2.iter().map(|v| v.to_bits()).collect();
+            *first_of.entry(key).or_insert_with(|| {
+                distinct.push(ci);
+                distinct.len() - 1
+            })
+        })
+        .collect();
+    let worst: Vec<Worst> = distinct
         .par_iter()
         .map_init(
             || Analysis {
@@ -768,25 +809,34 @@ pub fn replay(
                 probes: Vec::new(),
                 energy_j: 0.0,
             },
-            |work, case| -> Result<Evaluated, FaultError> {
-                let sols = solve_networks(model, stage_v, &case.networks)?;
-                let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
-                let gap_v: Vec<Vec<f64>> = sols.iter().map(|s| s.gap_v.clone()).collect();
-                let potentials = grading::potentials_with_nodes(model, stage_v, &node_v)?;
-                let (fired, gm) = fired_gaps(&case.networks, &node_v);
-                let fm = field_margins(model, &basis, work, potentials)?;
-                let resistors = resistor_check(model, &case.networks, &gap_v, true);
+            |work, &ci| -> Result<Worst, FaultError> {
+                let w = field_margins(model, &basis, work, prepared[ci].2.clone())?;
                 tick();
-                Ok(Evaluated {
-                    gap_v,
-                    fired,
-                    gap_margin: gm,
-                    worst: fm,
-                    resistors,
-                })
+                Ok(w)
             },
         )
         .collect::<Result<_, _>>()?;
+    let shared_evaluations = cases.len() - distinct.len();
+    // The repeats count as done.
+    for _ in distinct.len()..cases.len() {
+        tick();
+    }
+    let raw: Vec<Evaluated> = cases
+        .iter()
+        .zip(prepared)
+        .zip(&slot)
+        .map(|((case, (node_v, gap_v, _)), &k)| {
+            let (fired, gm) = fired_gaps(&case.networks, &node_v);
+            let resistors = resistor_check(model, &case.networks, &gap_v, true);
+            Evaluated {
+                gap_v,
+                fired,
+                gap_margin: gm,
+                worst: worst[k].clone(),
+                resistors,
+            }
+        })
+        .collect();
 
     let nominal_gaps = raw[0].gap_v.clone();
     let nominal_worst = raw[0].worst.0;
@@ -913,6 +963,9 @@ pub fn replay(
         spark_energy_conditioning,
         networks,
         basis_memory_bytes: basis.memory_bytes(),
+        basis_seconds,
+        scenario_seconds: t_scenarios.elapsed().as_secs_f64(),
+        shared_evaluations,
         notes,
     })
 }

@@ -419,77 +419,27 @@ impl FieldMap<'_> {
     /// interface, not a surface) are left out. The tangential component is continuous across
     /// the interface, so the interpolated field just outside gives it on both sides.
     pub fn insulator_samples(&self, index: usize) -> Vec<InsulatorSample> {
-        let m = self.mesh;
-        let model = self.model;
-        let Some(diel) = model.dielectrics.get(index) else {
-            return Vec::new();
-        };
-        let sdf = |p: Point| diel.shape.sdf(p);
-        let (nr, nz) = (m.nr(), m.nz());
-        let mut out = Vec::new();
-        for j in 0..nz {
-            for i in 0..nr {
-                let k = m.idx(i, j);
-                let a = m.point(k);
-                let sa = sdf(a);
-                for (di, dj) in [(1usize, 0usize), (0, 1)] {
-                    if i + di >= nr || j + dj >= nz {
-                        continue;
-                    }
-                    let b = m.point(m.idx(i + di, j + dj));
-                    let sb = sdf(b);
-                    if (sa <= 0.0) == (sb <= 0.0) {
-                        continue;
-                    }
-                    let (outside, inside) = if sa > 0.0 { (a, b) } else { (b, a) };
-                    let h = (b.r - a.r).abs() + (b.z - a.z).abs();
-                    let t = crate::geometry::crossing(sdf, outside, inside, 1e-9 * h);
-                    let p = Point::new(
-                        outside.r + t * (inside.r - outside.r),
-                        outside.z + t * (inside.z - outside.z),
-                    );
-                    let n = diel.shape.normal(p);
-                    if n.r == 0.0 && n.z == 0.0 {
-                        continue;
-                    }
-                    let off = 1e-3 * h;
-                    let q = Point::new((p.r + off * n.r).max(0.0), p.z + off * n.z);
-                    if model.tank.sdf_inside(q) >= 0.0
-                        || model
-                            .conductors
-                            .iter()
-                            .any(|c| c.shape.contains(p) || c.shape.contains(q))
-                    {
-                        continue;
-                    }
-                    if model
-                        .dielectrics
-                        .iter()
-                        .enumerate()
-                        .any(|(o, d)| o != index && d.shape.contains(q))
-                    {
-                        continue;
-                    }
-                    let side = if model.vacuum.iter().any(|v| v.shape.contains(q)) {
+        self.mesh
+            .insulator_sites(self.model, index)
+            .iter()
+            .map(|site| {
+                let n = site.normal;
+                let f = self.at(site.outside);
+                let tangent = [-n.z, n.r];
+                InsulatorSample {
+                    dielectric: index,
+                    at: site.at,
+                    normal: n,
+                    side: if site.vacuum_side {
                         Medium::Vacuum
                     } else {
                         Medium::Gas
-                    };
-                    let f = self.at(q);
-                    let tangent = [-n.z, n.r];
-                    let e_t = (f.field[0] * tangent[0] + f.field[1] * tangent[1]).abs();
-                    out.push(InsulatorSample {
-                        dielectric: index,
-                        at: p,
-                        normal: n,
-                        side,
-                        e_tangential: e_t,
-                        e: f.field[0].hypot(f.field[1]),
-                    });
+                    },
+                    e_tangential: (f.field[0] * tangent[0] + f.field[1] * tangent[1]).abs(),
+                    e: f.field[0].hypot(f.field[1]),
                 }
-            }
-        }
-        out
+            })
+            .collect()
     }
 }
 

@@ -80,6 +80,8 @@ pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
         title: model.title.clone(),
         file: file.clone(),
         sha256: sha256_hex(&text),
+        basis_seconds: r.basis_seconds,
+        scenario_seconds: r.scenario_seconds,
         replay: r,
         seconds: t0.elapsed().as_secs_f64(),
     };

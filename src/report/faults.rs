@@ -16,6 +16,9 @@ pub struct FaultSection {
     pub replay: FaultReplay,
     /// Wall-clock seconds of the replay (basis and every scenario).
     pub seconds: f64,
+    /// Of which the unit solves and the scenarios' field checks.
+    pub basis_seconds: f64,
+    pub scenario_seconds: f64,
 }
 
 fn kind_label(k: Kind) -> &'static str {
@@ -167,9 +170,14 @@ pub fn render(s: &FaultSection, details: usize) -> String {
     }
     let _ = writeln!(
         out,
-        "\n{} scenarios in {:.1} s; capacitance matrix of {} electrodes (asymmetry {:.1e})",
+        "\n{} scenarios in {:.1} s ({:.1} s for {} unit solves, {:.1} s for the scenarios, {} \
+         shared with an identical one); capacitance matrix of {} electrodes (asymmetry {:.1e})",
         r.scenarios.len(),
         s.seconds,
+        s.basis_seconds,
+        r.electrodes.len(),
+        s.scenario_seconds,
+        r.shared_evaluations,
         r.electrodes.len(),
         r.capacitance_asymmetry
     );
