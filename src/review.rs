@@ -1,9 +1,12 @@
-//! One whole review of a design: the stack, the field solve, the grid study and the margins.
+//! One whole review of a design: the stack, the field solve, the grid study, the margins and
+//! the nominal state of the grading columns.
 //!
 //! Input: a validated model. Output: a `Review` holding each stage's plain result, used by
 //! `check`, `compare` and `sweep` alike so that all three see the same numbers.
 
 use crate::analysis::{Analysis, AnalysisError, analyze};
+use crate::grading::GradingError;
+use crate::grading::summary::{ColumnSummary, summarize};
 use crate::margin::{MarginError, Margins, evaluate};
 use crate::model::Model;
 use crate::solve::SolverParams;
@@ -19,6 +22,8 @@ pub enum ReviewError {
     Analysis(#[from] AnalysisError),
     #[error(transparent)]
     Margin(#[from] MarginError),
+    #[error(transparent)]
+    Grading(#[from] GradingError),
 }
 
 /// The results of one review.
@@ -27,6 +32,8 @@ pub struct Review {
     pub fine: Analysis,
     pub study: Option<GridStudy>,
     pub margins: Margins,
+    /// The nominal DC state of each grading column.
+    pub grading: Vec<ColumnSummary>,
 }
 
 /// Runs the stack (its loaded stage voltages feed "stage:N" potentials), the field solve, the
@@ -45,10 +52,12 @@ pub fn review(
         None
     };
     let margins = evaluate(model, &fine, study.as_ref())?;
+    let grading = summarize(model, stage_v.as_deref())?;
     Ok(Review {
         stack,
         fine,
         study,
         margins,
+        grading,
     })
 }

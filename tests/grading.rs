@@ -279,3 +279,38 @@ fn protective_gaps_per_section_clamp_their_section() {
         );
     }
 }
+
+/// The nominal summary of a uniform chain without leakage: current V/(N·R), V/N across each
+/// resistor dissipating (V/N)²/R (Ohm's law), rating margins against both, and the protective
+/// gaps' setting as firing ÷ (V/N), flagged outside 1.3–1.6 × (PRACTICE.md §2.3, common
+/// practice).
+#[test]
+fn nominal_summary_follows_ohms_law_and_flags_the_gap_setting() {
+    let m = column_design(
+        "grading = { resistor = \"1 GOhm\", rating = \"60 kV\", power_rating = \"2 W\" }\n\
+         leakage = \"none\"\nprotective_gap = { firing = \"60 kV\" }",
+    );
+    let s = grading::summary::summarize(&m, None).expect("summary");
+    let s = &s[0];
+    let (v, n, r) = (300e3, 6.0, 1e9);
+    assert!(rel(s.chain_current_a.expect("current"), v / (n * r)) < 1e-9);
+    assert!(rel(s.resistor_v_max, v / n) < 1e-9);
+    assert!(rel(s.resistor_power_w_max.expect("power"), (v / n).powi(2) / r) < 1e-9);
+    assert!(rel(s.rating_margin.expect("rated"), 60e3 / (v / n)) < 1e-9);
+    assert!(rel(s.power_margin.expect("rated"), 2.0 / 2.5) < 1e-9);
+    let p = s.protective.as_ref().expect("protective gaps");
+    assert!(rel(p.setting_ratio, 1.2) < 1e-9);
+    assert!(!p.fired_at_nominal);
+    assert!(
+        s.notes
+            .iter()
+            .any(|x| x.contains("below the usual 1.3–1.6")),
+        "{:?}",
+        s.notes
+    );
+    assert!(
+        s.notes.iter().any(|x| x.contains("power rating")),
+        "{:?}",
+        s.notes
+    );
+}

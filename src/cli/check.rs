@@ -73,7 +73,8 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
     let failed = run.margins.any_fail();
     let report = Report::new(&model, file, text, &run.fine, run.study)
         .with_margins(run.margins)
-        .with_ladder(run.stack.as_ref());
+        .with_ladder(run.stack.as_ref())
+        .with_grading(run.grading);
     holdoff::report::finite::ensure_finite(&report)?;
     if let Some(target) = &out.json {
         let json = report.to_json();

@@ -41,7 +41,8 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
     let failed = run.margins.any_fail();
     let report = Report::new(&model, &file, &text, &run.fine, run.study)
         .with_margins(run.margins)
-        .with_ladder(run.stack.as_ref());
+        .with_ladder(run.stack.as_ref())
+        .with_grading(run.grading);
     holdoff::report::finite::ensure_finite(&report)?;
     let listing = holdoff::design::expansion_listing(&model);
     let faults = if a.no_faults || model.columns.is_empty() {

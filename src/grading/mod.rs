@@ -6,6 +6,7 @@
 //! take the loaded stage voltages of the multiplier model, which the caller supplies.
 
 pub mod leakage;
+pub mod summary;
 
 use crate::model::{LeakageSpec, Model, PotentialSpec};
 use serde::Serialize;

@@ -213,6 +213,18 @@ pub fn render(
         let _ = writeln!(o);
     }
 
+    if !report.grading.is_empty() {
+        let _ = writeln!(o, "## 5a. Grading network at nominal\n");
+        for g in &report.grading {
+            let (head, details) = crate::report::grading::lines(g);
+            let _ = writeln!(o, "- **{}**", cell(&head));
+            for d in details {
+                let _ = writeln!(o, "  - {}", cell(&d));
+            }
+        }
+        let _ = writeln!(o);
+    }
+
     if let Some(f) = faults {
         let _ = writeln!(o, "## 5b. Grading faults and the spark transient\n");
         let _ = writeln!(

@@ -7,6 +7,7 @@
 pub mod cautions;
 pub mod faults;
 pub mod finite;
+pub mod grading;
 pub mod html;
 pub mod ladder;
 pub mod markdown;
@@ -126,6 +127,9 @@ pub struct Report {
     pub worst_status: Status,
     /// The field lines traced from the hotspots.
     pub field_lines: Vec<LineSummary>,
+    /// The nominal DC state of each grading column (values, currents, ratings, protective
+    /// gaps, leakage).
+    pub grading: Vec<crate::grading::summary::ColumnSummary>,
     /// Checks that could not be made, and why.
     pub margin_notes: Vec<String>,
     pub cautions: Vec<Caution>,
@@ -261,6 +265,7 @@ impl Report {
             design_factor: model.checks.design_factor,
             worst_status: Status::Pass,
             field_lines: Vec::new(),
+            grading: Vec::new(),
             margin_notes: Vec::new(),
             cautions,
         }
@@ -282,6 +287,12 @@ impl Report {
             }
             self.ladder = Some(section);
         }
+        self
+    }
+
+    /// The same report with the nominal state of the grading columns.
+    pub fn with_grading(mut self, g: Vec<crate::grading::summary::ColumnSummary>) -> Report {
+        self.grading = g;
         self
     }
 

@@ -112,6 +112,18 @@ pub fn render(report: &Report) -> String {
 
     render_margins(report, &mut out);
 
+    if !report.grading.is_empty() {
+        let _ = writeln!(out, "Grading at nominal");
+        for g in &report.grading {
+            let (head, details) = super::grading::lines(g);
+            let _ = writeln!(out, "- {head}");
+            for d in details {
+                let _ = writeln!(out, "    {d}");
+            }
+        }
+        let _ = writeln!(out);
+    }
+
     let s = &report.solver;
     let _ = writeln!(
         out,
