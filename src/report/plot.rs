@@ -40,7 +40,69 @@ fn heat(t: f64) -> RGBColor {
     RGBColor(mix(c0.0, c1.0), mix(c0.1, c1.1), mix(c0.2, c1.2))
 }
 
-/// |E| map with equipotential lines; conductors grey.
+/// The raster of the field map: `nr` × `nz` cells of `dr` × `dz` from (`r0`, `z0`), with
+/// values at the (nr + 1) × (nz + 1) corners.
+struct Raster {
+    nr: usize,
+    nz: usize,
+    r0: f64,
+    z0: f64,
+    dr: f64,
+    dz: f64,
+    r_max: f64,
+    z_max: f64,
+}
+
+impl Raster {
+    fn corner(&self, i: usize, j: usize) -> crate::geometry::Point {
+        crate::geometry::Point::new(
+            (self.r0 + i as f64 * self.dr).min(self.r_max),
+            (self.z0 + j as f64 * self.dz).min(self.z_max),
+        )
+    }
+
+    /// Segments (in mm) where the corner values `v` cross `level`, by marching squares,
+    /// skipping the cells marked in `skip`.
+    fn contour(&self, v: &[f64], level: f64, skip: &[bool]) -> Vec<((f64, f64), (f64, f64))> {
+        let (nr, nz) = (self.nr, self.nz);
+        let at = |i: usize, j: usize| v[j * (nr + 1) + i];
+        let mut out = Vec::new();
+        for j in 0..nz {
+            for i in 0..nr {
+                if skip[j * nr + i] {
+                    continue;
+                }
+                let corners = [
+                    (i, j, at(i, j)),
+                    (i + 1, j, at(i + 1, j)),
+                    (i + 1, j + 1, at(i + 1, j + 1)),
+                    (i, j + 1, at(i, j + 1)),
+                ];
+                let mut pts = Vec::new();
+                for e in 0..4 {
+                    let (ia, ja, va) = corners[e];
+                    let (ib, jb, vb) = corners[(e + 1) % 4];
+                    if (va - level) * (vb - level) < 0.0 {
+                        let t = (level - va) / (vb - va);
+                        let r = self.r0 + (ia as f64 + t * (ib as f64 - ia as f64)) * self.dr;
+                        let z = self.z0 + (ja as f64 + t * (jb as f64 - ja as f64)) * self.dz;
+                        pts.push((r * 1e3, z * 1e3));
+                    }
+                }
+                if pts.len() >= 2 {
+                    out.push((pts[0], pts[1]));
+                }
+                if pts.len() == 4 {
+                    out.push((pts[2], pts[3]));
+                }
+            }
+        }
+        out
+    }
+}
+
+/// |E| map with equipotential lines; conductors grey, insulators outlined black, vacuum
+/// regions outlined blue.
 pub fn field_map(model: &Model, fine: &Analysis) -> PlotResult {
     let mesh = &fine.mesh;
     let fm = FieldMap::new(mesh, model, &fine.solution.phi, &fine.potentials);
@@ -70,13 +132,19 @@ pub fn field_map(model: &Model, fine: &Analysis) -> PlotResult {
                 mesh.fixed[k] != FREE || model.conductors.iter().any(|c| c.shape.contains(p));
         }
     }
+    let grid = Raster {
+        nr,
+        nz,
+        r0: dom.r_min,
+        z0: dom.z_min,
+        dr,
+        dz,
+        r_max: dom.r_max,
+        z_max: dom.z_max,
+    };
     for j in 0..=nz {
         for i in 0..=nr {
-            let p = crate::geometry::Point::new(
-                (dom.r_min + i as f64 * dr).min(dom.r_max),
-                (dom.z_min + j as f64 * dz).min(dom.z_max),
-            );
-            phi[j * (nr + 1) + i] = fm.at(p).potential_v;
+            phi[j * (nr + 1) + i] = fm.at(grid.corner(i, j)).potential_v;
         }
     }
     let emax = e.iter().cloned().fold(0.0, f64::max).max(f64::MIN_POSITIVE);
@@ -87,7 +155,10 @@ pub fn field_map(model: &Model, fine: &Analysis) -> PlotResult {
         let root = SVGBackend::with_string(&mut svg, (width, height)).into_drawing_area();
         root.fill(&WHITE).map_err(err)?;
         let mut chart = ChartBuilder::on(&root)
-            .caption("|E| (colour) and equipotentials", ("sans-serif", 16))
+            .caption(
+                "|E| (colour), equipotentials (white), insulators (black), vacuum (blue)",
+                ("sans-serif", 14),
+            )
             .margin(10)
             .x_label_area_size(40)
             .y_label_area_size(55)
@@ -130,37 +201,7 @@ pub fn field_map(model: &Model, fine: &Analysis) -> PlotResult {
         let mut segments = Vec::new();
         for l in 1..levels {
             let v = vmin + (vmax - vmin) * l as f64 / levels as f64;
-            for j in 0..nz {
-                for i in 0..nr {
-                    if solid[j * nr + i] {
-                        continue;
-                    }
-                    let at = |ii: usize, jj: usize| phi[jj * (nr + 1) + ii];
-                    let corners = [
-                        (i, j, at(i, j)),
-                        (i + 1, j, at(i + 1, j)),
-                        (i + 1, j + 1, at(i + 1, j + 1)),
-                        (i, j + 1, at(i, j + 1)),
-                    ];
-                    let mut pts = Vec::new();
-                    for e_ in 0..4 {
-                        let (ia, ja, va) = corners[e_];
-                        let (ib, jb, vb) = corners[(e_ + 1) % 4];
-                        if (va - v) * (vb - v) < 0.0 {
-                            let t = (v - va) / (vb - va);
-                            let r = dom.r_min + (ia as f64 + t * (ib as f64 - ia as f64)) * dr;
-                            let z = dom.z_min + (ja as f64 + t * (jb as f64 - ja as f64)) * dz;
-                            pts.push((r * 1e3, z * 1e3));
-                        }
-                    }
-                    if pts.len() >= 2 {
-                        segments.push((pts[0], pts[1]));
-                    }
-                    if pts.len() == 4 {
-                        segments.push((pts[2], pts[3]));
-                    }
-                }
-            }
+            segments.extend(grid.contour(&phi, v, &solid));
         }
         chart
             .draw_series(
@@ -169,6 +210,40 @@ pub fn field_map(model: &Model, fine: &Analysis) -> PlotResult {
                     .map(|(a, b)| PathElement::new(vec![a, b], WHITE.stroke_width(1))),
             )
             .map_err(err)?;
+        // Outlines of the insulators (black) and the vacuum regions (blue): the zero level of
+        // each one's signed distance at the corners.
+        let open = vec![false; nr * nz];
+        let outline = |shape: &crate::geometry::Shape| {
+            let d: Vec<f64> = (0..=nz)
+                .flat_map(|j| (0..=nr).map(move |i| (i, j)))
+                .map(|(i, j)| shape.sdf(grid.corner(i, j)))
+                .collect();
+            grid.contour(&d, 0.0, &open)
+        };
+        for (shapes, colour) in [
+            (
+                model
+                    .dielectrics
+                    .iter()
+                    .map(|d| &d.shape)
+                    .collect::<Vec<_>>(),
+                BLACK,
+            ),
+            (
+                model.vacuum.iter().map(|v| &v.shape).collect::<Vec<_>>(),
+                RGBColor(30, 60, 200),
+            ),
+        ] {
+            for shape in shapes {
+                chart
+                    .draw_series(
+                        outline(shape)
+                            .into_iter()
+                            .map(|(a, b)| PathElement::new(vec![a, b], colour.stroke_width(2))),
+                    )
+                    .map_err(err)?;
+            }
+        }
         root.present().map_err(err)?;
     }
     Ok(svg)
