@@ -6,9 +6,10 @@ Not run in CI. Usage (from the repository root):
 
     python3 benches/compare_pyamg.py [nodes ...]
 
-It runs `holdoff bench` for each size (which prints holdoff's own timings and exports the
-symmetric operator), loads the exported CSR arrays, solves to 1e-10 relative residual with
-pyamg single-threaded, and prints seconds per unknown for both and their ratio.
+It runs `holdoff bench` for each size (which prints holdoff's own timings, the fastest of three
+runs, and exports the symmetric operator), loads the exported CSR arrays, solves to 1e-10
+relative residual with pyamg single-threaded, also the fastest of three runs, and prints seconds
+per unknown for both and their ratio.
 """
 import os
 import subprocess
@@ -62,12 +63,17 @@ def main():
         with tempfile.TemporaryDirectory() as d:
             rows = holdoff_bench(nodes, d)
             a, b = load(d)
-        t0 = time.perf_counter()
-        ml = pyamg.ruge_stuben_solver(a)
-        t1 = time.perf_counter()
-        residuals = []
-        x = ml.solve(b, tol=1e-10, accel="cg", residuals=residuals)
-        t2 = time.perf_counter()
+        best = None
+        for _ in range(3):
+            t0 = time.perf_counter()
+            ml = pyamg.ruge_stuben_solver(a)
+            t1 = time.perf_counter()
+            residuals = []
+            x = ml.solve(b, tol=1e-10, accel="cg", residuals=residuals)
+            t2 = time.perf_counter()
+            if best is None or t2 - t0 < best[2] - best[0]:
+                best = (t0, t1, t2, x, residuals)
+        t0, t1, t2, x, residuals = best
         rel = np.linalg.norm(b - a @ x) / np.linalg.norm(b)
         n = a.shape[0]
         pyamg_total = t2 - t0
