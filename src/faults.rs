@@ -39,7 +39,20 @@ pub enum FaultError {
     NoColumns,
     #[error("the fast transient cannot be formed: {0}")]
     Transient(String),
+    #[error(
+        "the fault replay needs {electrodes} unit solutions of {nodes} nodes, about {gib:.2} GiB, more than {budget}; set [mesh] cell coarser (the memory falls with its square) or replay fewer electrodes"
+    )]
+    TooLarge {
+        electrodes: usize,
+        nodes: usize,
+        gib: f64,
+        budget: String,
+    },
 }
+
+/// Nodes summed together in one block of a superposition, so that the block of the result
+/// stays in cache while every unit solution streams through it.
+const SUM_BLOCK: usize = 4096;
 
 /// The unit-potential solutions of the electrodes, with their capacitance matrix.
 pub struct Basis {
@@ -56,8 +69,28 @@ pub struct Basis {
 impl Basis {
     /// One unit solve per electrode on `mesh`, reusing one operator and hierarchy.
     pub fn build(model: &Model, mesh: &Mesh, params: &SolverParams) -> Result<Basis, FaultError> {
+        Self::build_within(model, mesh, params, crate::mesh::Budget::of_machine())
+    }
+
+    /// As [`Basis::build`], refusing a basis that would not fit `budget`.
+    pub fn build_within(
+        model: &Model,
+        mesh: &Mesh,
+        params: &SolverParams,
+        budget: crate::mesh::Budget,
+    ) -> Result<Basis, FaultError> {
         let groups = electrodes(model);
         let n = groups.len();
+        // The unit solutions, plus one field per worker thread while the scenarios run.
+        let need = ((n + rayon::current_num_threads()) * mesh.nodes() * 8) as f64;
+        if need > budget.bytes() {
+            return Err(FaultError::TooLarge {
+                electrodes: n,
+                nodes: mesh.nodes(),
+                gib: need / (1024.0 * 1024.0 * 1024.0),
+                budget: budget.describe(),
+            });
+        }
         let mut conductor_electrode = vec![None; model.conductors.len()];
         for (e, g) in groups.iter().enumerate() {
             for &k in &g.conductors {
@@ -135,13 +168,47 @@ impl Basis {
     pub fn field(&self, electrode_v: &[f64]) -> Vec<f64> {
         let n = self.phi.first().map_or(0, |p| p.len());
         let mut out = vec![0.0; n];
-        for (p, &w) in self.phi.iter().zip(electrode_v) {
-            if w == 0.0 {
-                continue;
-            }
-            out.iter_mut().zip(p).for_each(|(o, x)| *o += w * x);
-        }
+        let terms: Vec<(usize, f64)> = electrode_v
+            .iter()
+            .enumerate()
+            .filter(|(_, w)| **w != 0.0)
+            .map(|(e, w)| (e, *w))
+            .collect();
+        self.accumulate(&mut out, &terms);
         out
+    }
+
+    /// The field of `electrode_v` from a known one, `base_phi` at `base_v`: φ = φ_base +
+    /// Σ_e (V_e − V_base,e) φ_e over the electrodes whose potential differs, which for a
+    /// fault in one column of several leaves the others out of the sum.
+    pub fn field_from(&self, base_phi: &[f64], base_v: &[f64], electrode_v: &[f64]) -> Vec<f64> {
+        let mut out = base_phi.to_vec();
+        let terms: Vec<(usize, f64)> = electrode_v
+            .iter()
+            .zip(base_v)
+            .enumerate()
+            .filter(|(_, (v, b))| v != b)
+            .map(|(e, (v, b))| (e, v - b))
+            .collect();
+        self.accumulate(&mut out, &terms);
+        out
+    }
+
+    /// out += Σ w φ_e over `terms` = (e, w), block by block.
+    fn accumulate(&self, out: &mut [f64], terms: &[(usize, f64)]) {
+        for (k, block) in out.chunks_mut(SUM_BLOCK).enumerate() {
+            let start = k * SUM_BLOCK;
+            let len = block.len();
+            for &(e, w) in terms {
+                let Some(p) = self.phi.get(e) else {
+                    continue;
+                };
+                block
+                    .iter_mut()
+                    .zip(&p[start..start + len])
+                    .for_each(|(o, x)| *o += w * x);
+            }
+        }
     }
 
     /// Electrostatic energy of the electrodes at the given potentials, ½ VᵀCV, J.
@@ -558,14 +625,19 @@ fn resistor_check(
 type Worst = (Option<f64>, Option<String>, Option<String>);
 
 /// The field checks of one set of conductor potentials, formed from the basis.
+/// `base`, when given, is a known field and its electrode potentials to start the sum from.
 fn field_margins(
     model: &Model,
     basis: &Basis,
     work: &mut Analysis,
     potentials: Vec<f64>,
+    base: Option<(&[f64], &[f64])>,
 ) -> Result<Worst, FaultError> {
     let ev = basis.electrode_potentials(&potentials);
-    let phi = basis.field(&ev);
+    let phi = match base {
+        Some((phi0, v0)) => basis.field_from(phi0, v0, &ev),
+        None => basis.field(&ev),
+    };
     {
         let fm = FieldMap::new(&work.mesh, model, &phi, &potentials);
         let samples = fm.surface_samples();
@@ -797,6 +869,9 @@ pub fn replay(
             })
         })
         .collect();
+    // The nominal field (case 0), from which every scenario's sum starts.
+    let nominal_ev = basis.electrode_potentials(&prepared[0].2);
+    let nominal_phi = basis.field(&nominal_ev);
     let worst: Vec<Worst> = distinct
         .par_iter()
         .map_init(
@@ -810,7 +885,13 @@ pub fn replay(
                 energy_j: 0.0,
             },
             |work, &ci| -> Result<Worst, FaultError> {
-                let w = field_margins(model, &basis, work, prepared[ci].2.clone())?;
+                let w = field_margins(
+                    model,
+                    &basis,
+                    work,
+                    prepared[ci].2.clone(),
+                    Some((&nominal_phi, &nominal_ev)),
+                )?;
                 tick();
                 Ok(w)
             },
@@ -923,7 +1004,7 @@ pub fn replay(
                 .collect();
             let (fired, gm) = fired_gaps(&networks, &node_v);
             let mut work = template;
-            let worst = field_margins(model, &basis, &mut work, conductor_v)?;
+            let worst = field_margins(model, &basis, &mut work, conductor_v, None)?;
             let resistors = resistor_check(model, &networks, &gap_v, false);
             results.push(ScenarioResult::assemble(
                 "transient: terminal-to-tank spark, just after".to_string(),

@@ -14,10 +14,15 @@
 use crate::geometry::Point;
 use crate::mesh::{DIRS, Dir, FREE, FixedId, Mesh, TANK};
 use crate::model::{Model, Tank};
+use rayon::prelude::*;
 use serde::Serialize;
+use std::sync::OnceLock;
 
 /// Vacuum permittivity, F/m (CODATA 2018).
 pub const EPSILON_0: f64 = 8.854_187_812_8e-12;
+
+/// Meshes from this many nodes form their node-field table in parallel.
+const PARALLEL_NODES: usize = 50_000;
 
 /// Smallest cosine between a link and the surface normal for a sample to be used.
 const MIN_COSINE: f64 = 0.6;
@@ -77,6 +82,9 @@ pub struct FieldMap<'a> {
     pub phi: &'a [f64],
     /// Potential of each conductor, volts.
     pub potentials: &'a [f64],
+    /// The field at every node, formed on the first interpolation (field lines and insulator
+    /// samples interpolate hundreds of thousands of times per solution).
+    node_fields: OnceLock<Vec<[f64; 2]>>,
 }
 
 impl<'a> FieldMap<'a> {
@@ -86,7 +94,20 @@ impl<'a> FieldMap<'a> {
             model,
             phi,
             potentials,
+            node_fields: OnceLock::new(),
         }
+    }
+
+    /// The field at every node (zero at fixed nodes), as [`FieldMap::node_field`].
+    fn node_fields(&self) -> &[[f64; 2]] {
+        self.node_fields.get_or_init(|| {
+            let n = self.mesh.nodes();
+            if n >= PARALLEL_NODES {
+                (0..n).into_par_iter().map(|k| self.node_field(k)).collect()
+            } else {
+                (0..n).map(|k| self.node_field(k)).collect()
+            }
+        })
     }
 
     fn fixed_potential(&self, id: FixedId) -> f64 {
@@ -338,9 +359,10 @@ impl<'a> FieldMap<'a> {
         }
         let mut e = [0.0, 0.0];
         let mut wsum = 0.0;
+        let fields = self.node_fields();
         for &(k, w) in &corners {
             if m.fixed[k] == FREE {
-                let f = self.node_field(k);
+                let f = fields[k];
                 e[0] += w * f[0];
                 e[1] += w * f[1];
                 wsum += w;

@@ -111,14 +111,15 @@ impl Budget {
     }
 
     /// Largest bytes a run may plan for (fine mesh, solve and grid study).
-    fn bytes(&self) -> f64 {
+    pub fn bytes(&self) -> f64 {
         match *self {
             Budget::Memory { available_bytes } => available_bytes as f64 * MEMORY_HEADROOM,
             Budget::Nodes { limit } => limit as f64 * run_bytes_per_node(),
         }
     }
 
-    fn describe(&self) -> String {
+    /// The budget in words, for messages.
+    pub fn describe(&self) -> String {
         match *self {
             Budget::Memory { available_bytes } => format!(
                 "{:.0}% of the {:.2} GiB of memory available",
@@ -386,9 +387,44 @@ fn axis_lower_bound(a: f64, b: f64, feats: &[(f64, f64)], cell: f64, max_cell: f
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Axis {
     pub x: Vec<f64>,
+    /// For an even split of [x₀, x_last] into buckets, the cell of each bucket's start, so
+    /// that `locate` walks a step or two instead of bisecting.
+    #[serde(skip)]
+    buckets: Vec<u32>,
+    /// Buckets per metre.
+    #[serde(skip)]
+    per_m: f64,
 }
 
+/// Buckets per grid line of an axis.
+const BUCKETS_PER_LINE: usize = 4;
+
 impl Axis {
+    /// An axis through the increasing coordinates `x`.
+    pub fn new(x: Vec<f64>) -> Axis {
+        let n = x.len();
+        let span = if n >= 2 { x[n - 1] - x[0] } else { 0.0 };
+        if n < 2 || span.is_nan() || span <= 0.0 {
+            return Axis {
+                x,
+                buckets: Vec::new(),
+                per_m: 0.0,
+            };
+        }
+        let nb = BUCKETS_PER_LINE * n;
+        let per_m = nb as f64 / span;
+        let mut buckets = Vec::with_capacity(nb + 1);
+        let mut i = 0usize;
+        for b in 0..=nb {
+            let v = x[0] + b as f64 / per_m;
+            while i + 1 < n && x[i + 1] <= v {
+                i += 1;
+            }
+            buckets.push(i as u32);
+        }
+        Axis { x, buckets, per_m }
+    }
+
     pub fn len(&self) -> usize {
         self.x.len()
     }
@@ -399,6 +435,22 @@ impl Axis {
 
     /// Index of the last node at or below `v` (clamped to the axis).
     pub fn locate(&self, v: f64) -> usize {
+        let n = self.x.len();
+        if !self.buckets.is_empty() && v.is_finite() {
+            if v <= self.x[0] {
+                return 0;
+            }
+            let b = (((v - self.x[0]) * self.per_m) as usize).min(self.buckets.len() - 1);
+            // The bucket start may round either way: step back, then forward.
+            let mut i = self.buckets[b] as usize;
+            while i > 0 && self.x[i] > v {
+                i -= 1;
+            }
+            while i + 1 < n && self.x[i + 1] <= v {
+                i += 1;
+            }
+            return i.min(n.saturating_sub(2));
+        }
         match self.x.binary_search_by(|a| a.total_cmp(&v)) {
             Ok(i) => i.min(self.x.len().saturating_sub(2)),
             Err(0) => 0,
@@ -1059,12 +1111,29 @@ fn grade_axis(
         }
         xs.push(x1);
     }
-    Axis { x: xs }
+    Axis::new(xs)
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn bucketed_locate_agrees_with_bisection() {
+        let ax = grade_axis(0.0, 1.0, &[(0.2, 0.3)], &[0.25, 0.2, 0.3], 0.001, 0.08, 1.2);
+        let bisect = |v: f64| match ax.x.binary_search_by(|a| a.total_cmp(&v)) {
+            Ok(i) => i.min(ax.x.len() - 2),
+            Err(0) => 0,
+            Err(i) => (i - 1).min(ax.x.len() - 2),
+        };
+        let mut probes: Vec<f64> = ax.x.clone();
+        probes.extend(ax.x.windows(2).map(|w| 0.5 * (w[0] + w[1])));
+        probes.extend((0..10_000).map(|k| -0.1 + 1.2 * k as f64 / 9_999.0));
+        probes.extend([f64::INFINITY, f64::NEG_INFINITY, 1e-300, 1.0 - 1e-16]);
+        for v in probes {
+            assert_eq!(ax.locate(v), bisect(v), "at {v}");
+        }
+    }
 
     #[test]
     fn graded_axis_keeps_fixed_points_and_spacing_limits() {

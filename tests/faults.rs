@@ -339,3 +339,24 @@ fn resistor_ratings_are_checked_against_dc_and_the_clamped_transient() {
     );
     assert!(tr.resistor_rating_exceeded);
 }
+
+/// A basis that would not fit the memory budget is refused before any solve, with the
+/// electrode and node counts and what to change.
+#[test]
+fn a_basis_too_large_for_the_memory_is_refused() {
+    let m = small();
+    let mesh = Mesh::build(&m).expect("mesh");
+    let tiny = holdoff::mesh::Budget::Memory {
+        available_bytes: 1 << 16,
+    };
+    match Basis::build_within(&m, &mesh, &SolverParams::default(), tiny) {
+        Err(e @ holdoff::faults::FaultError::TooLarge { .. }) => {
+            let text = e.to_string();
+            assert!(text.contains("5 unit solutions"), "{text}");
+            assert!(text.contains(&format!("{} nodes", mesh.nodes())), "{text}");
+            assert!(text.contains("[mesh] cell"), "{text}");
+        }
+        Err(e) => panic!("wrong error: {e}"),
+        Ok(_) => panic!("a 64 KiB budget was accepted"),
+    }
+}
