@@ -90,8 +90,8 @@ fn demo_table_ends_with_cautions() {
 
 #[test]
 fn check_tandem_writes_a_json_file() {
-    let dir = std::env::temp_dir().join(format!("holdoff-cli-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let dir = tmp.path().to_path_buf();
     let path = dir.join("tandem.json");
     let out = holdoff()
         .args([
@@ -112,7 +112,6 @@ fn check_tandem_writes_a_json_file() {
     let v: serde_json::Value = serde_json::from_str(&text).expect("valid JSON");
     assert_report_keys(&v);
     assert!(v["grid_study"].is_null());
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]
@@ -134,8 +133,8 @@ fn expand_lists_generated_primitives() {
 
 #[test]
 fn bad_design_exits_with_code_2_and_names_the_key() {
-    let dir = std::env::temp_dir().join(format!("holdoff-bad-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let dir = tmp.path().to_path_buf();
     let path = dir.join("bad.toml");
     std::fs::write(
         &path,
@@ -147,7 +146,6 @@ fn bad_design_exits_with_code_2_and_names_the_key() {
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(err.contains("inner_radius"), "{err}");
     assert!(err.contains(":3:"), "line number missing: {err}");
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]
@@ -162,8 +160,8 @@ fn missing_file_exits_with_code_2() {
 
 #[test]
 fn failed_run_leaves_an_existing_json_file_untouched() {
-    let dir = std::env::temp_dir().join(format!("holdoff-keep-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let dir = tmp.path().to_path_buf();
     let bad = dir.join("bad.toml");
     std::fs::write(&bad, "title = 3\n").unwrap();
     let json = dir.join("out.json");
@@ -177,5 +175,4 @@ fn failed_run_leaves_an_existing_json_file_untouched() {
         .expect("runs");
     assert_eq!(out.status.code(), Some(2));
     assert_eq!(std::fs::read_to_string(&json).unwrap(), "previous");
-    let _ = std::fs::remove_dir_all(&dir);
 }

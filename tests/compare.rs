@@ -33,8 +33,8 @@ fn a_design_compared_with_itself_shows_no_change() {
 /// falls, and that row ranks first.
 #[test]
 fn a_sharper_terminal_corner_lowers_the_terminal_margin() {
-    let dir = std::env::temp_dir().join(format!("holdoff-cmp-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let dir = tmp.path().to_path_buf();
     let text = std::fs::read_to_string("examples/demo_750kv.toml").unwrap();
     let sharper = text.replacen("corner_radius = \"80 mm\"", "corner_radius = \"50 mm\"", 1);
     assert_ne!(text, sharper);
@@ -44,5 +44,4 @@ fn a_sharper_terminal_corner_lowers_the_terminal_margin() {
     let first = &v["rows"][0];
     assert_eq!(first["item"], "terminal");
     assert!(first["change"].as_f64().unwrap() < -0.05, "{first}");
-    let _ = std::fs::remove_dir_all(&dir);
 }

@@ -221,8 +221,8 @@ fn conditioning_spark_energy_with_shorted_sections() {
 /// capacitance matrix; a malformed `--short-section` is an error naming what is accepted.
 #[test]
 fn faults_command_writes_json() {
-    let dir = std::env::temp_dir().join(format!("holdoff-faults-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).expect("temp dir");
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let dir = tmp.path().to_path_buf();
     let file = dir.join("small.toml");
     std::fs::write(&file, small_text()).expect("write design");
     let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
@@ -280,7 +280,6 @@ fn faults_command_writes_json() {
     assert!(!bad.status.success());
     let err = String::from_utf8_lossy(&bad.stderr);
     assert!(err.contains("COLUMN:FIRST-LAST"), "{err}");
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 /// Resistor ratings: each resistor of the nominal chain sees V/N = 40 kV and dissipates

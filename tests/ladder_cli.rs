@@ -86,8 +86,8 @@ fn stage_potentials_follow_the_loaded_stack() {
 
 #[test]
 fn auto_strays_without_a_drawn_stack_are_refused() {
-    let dir = std::env::temp_dir().join(format!("holdoff-stack-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let dir = tmp.path().to_path_buf();
     let text = std::fs::read_to_string("examples/demo_750kv.toml")
         .unwrap()
         .replace(
@@ -99,7 +99,6 @@ fn auto_strays_without_a_drawn_stack_are_refused() {
     let out = holdoff().arg("ladder").arg(&path).output().expect("runs");
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("stage:N"));
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]

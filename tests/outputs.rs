@@ -2,15 +2,13 @@
 //! truncated by a failed run, and no temporary file is left behind.
 
 use holdoff::report::write_atomic;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::Command;
 
 /// A fresh directory for one test.
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("holdoff-out-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap_or_else(|e| panic!("{}: {e}", dir.display()));
-    dir
+/// A fresh directory, removed when the returned guard drops.
+fn scratch() -> tempfile::TempDir {
+    tempfile::tempdir().expect("temp dir")
 }
 
 /// The names in a directory, sorted.
@@ -30,7 +28,8 @@ fn holdoff() -> Command {
 
 #[test]
 fn a_refused_mesh_leaves_the_previous_report_and_no_temporary_file() {
-    let dir = scratch("mesh");
+    let tmp = scratch();
+    let dir = tmp.path().to_path_buf();
     let json = dir.join("report.json");
     std::fs::write(&json, "previous report").unwrap_or_else(|e| panic!("{e}"));
     let out = holdoff()
@@ -44,12 +43,12 @@ fn a_refused_mesh_leaves_the_previous_report_and_no_temporary_file() {
         "previous report"
     );
     assert_eq!(listing(&dir), ["report.json"]);
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]
 fn a_bad_design_leaves_the_previous_report_and_no_temporary_file() {
-    let dir = scratch("design");
+    let tmp = scratch();
+    let dir = tmp.path().to_path_buf();
     let json = dir.join("report.json");
     std::fs::write(&json, "previous report").unwrap_or_else(|e| panic!("{e}"));
     let out = holdoff()
@@ -63,12 +62,12 @@ fn a_bad_design_leaves_the_previous_report_and_no_temporary_file() {
         "previous report"
     );
     assert_eq!(listing(&dir), ["report.json"]);
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]
 fn a_successful_run_replaces_the_file_whole_and_leaves_no_temporary_file() {
-    let dir = scratch("ok");
+    let tmp = scratch();
+    let dir = tmp.path().to_path_buf();
     let json = dir.join("report.json");
     std::fs::write(&json, "previous report").unwrap_or_else(|e| panic!("{e}"));
     let out = holdoff()
@@ -91,38 +90,37 @@ fn a_successful_run_replaces_the_file_whole_and_leaves_no_temporary_file() {
         serde_json::from_str(&text).unwrap_or_else(|e| panic!("not whole JSON ({e}): {text}"));
     assert_eq!(v["tool"]["name"], "holdoff");
     assert_eq!(listing(&dir), ["report.json"]);
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]
 fn a_failed_rename_keeps_the_target_and_removes_the_temporary_file() {
-    let dir = scratch("rename");
+    let tmp = scratch();
+    let dir = tmp.path().to_path_buf();
     // The target is a non-empty directory: the temporary file is written, the rename fails.
     let target = dir.join("report.json");
     std::fs::create_dir_all(target.join("inside")).unwrap_or_else(|e| panic!("{e}"));
     assert!(write_atomic(&target, b"new").is_err());
     assert!(target.join("inside").is_dir());
     assert_eq!(listing(&dir), ["report.json"]);
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]
 fn writing_into_a_missing_directory_fails_and_creates_nothing() {
-    let dir = scratch("missing");
+    let tmp = scratch();
+    let dir = tmp.path().to_path_buf();
     let target = dir.join("no").join("such").join("report.json");
     assert!(write_atomic(&target, b"new").is_err());
     assert!(listing(&dir).is_empty());
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]
 fn write_atomic_replaces_an_existing_file() {
-    let dir = scratch("replace");
+    let tmp = scratch();
+    let dir = tmp.path().to_path_buf();
     let target = dir.join("notes.md");
     std::fs::write(&target, "old text that is longer than the new")
         .unwrap_or_else(|e| panic!("{e}"));
     write_atomic(&target, b"new").unwrap_or_else(|e| panic!("{e}"));
     assert_eq!(std::fs::read_to_string(&target).unwrap_or_default(), "new");
     assert_eq!(listing(&dir), ["notes.md"]);
-    let _ = std::fs::remove_dir_all(&dir);
 }

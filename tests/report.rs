@@ -24,8 +24,8 @@ fn note(dir: &std::path::Path, name: &str) -> String {
 
 #[test]
 fn note_has_its_sections_and_the_numbers_of_check() {
-    let dir = std::env::temp_dir().join(format!("holdoff-note-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let dir = tmp.path().to_path_buf();
     let a = note(&dir, "a.md");
     for section in [
         "## 1. Scope and ratings",
@@ -60,7 +60,6 @@ fn note_has_its_sections_and_the_numbers_of_check() {
     // Reproducible: the same design gives the same note.
     let b = note(&dir, "b.md");
     assert_eq!(a, b);
-    let _ = std::fs::remove_dir_all(&dir);
 }
 
 #[test]
@@ -75,8 +74,8 @@ fn note_must_be_html_or_markdown() {
 
 #[test]
 fn html_note_inlines_four_figures() {
-    let dir = std::env::temp_dir().join(format!("holdoff-html-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let dir = tmp.path().to_path_buf();
     let path = dir.join("note.html");
     let out = holdoff()
         .args(["report", "examples/demo_750kv.toml", "--out"])
@@ -96,5 +95,4 @@ fn html_note_inlines_four_figures() {
     assert!(html.contains("<h2>9. Sign-off</h2>"));
     // Self-contained: no external resources.
     assert!(!html.contains("src=\"http") && !html.contains("href=\"http"));
-    let _ = std::fs::remove_dir_all(&dir);
 }

@@ -56,8 +56,8 @@ fn parameter_paths_select_tables_and_say_what_is_wrong() {
 
 #[test]
 fn sweep_command_draws_its_plot() {
-    let dir = std::env::temp_dir().join(format!("holdoff-sweep-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let dir = tmp.path().to_path_buf();
     let svg = dir.join("sweep.svg");
     let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
         .args([
@@ -77,5 +77,4 @@ fn sweep_command_draws_its_plot() {
     );
     let text = std::fs::read_to_string(&svg).expect("plot written");
     assert!(text.contains("<svg") && text.contains("design factor"));
-    let _ = std::fs::remove_dir_all(&dir);
 }
