@@ -31,9 +31,12 @@ pub const MAX_NODES: usize = 40_000_000;
 /// (measured on the benchmark problems, `SolveInfo::memory_bytes` / nodes).
 pub const SOLVER_BYTES_PER_NODE: usize = 230;
 
-/// Bytes the mesh itself holds per grid node (node class, four cuts, three permittivities).
+/// Bytes the mesh itself holds per grid node: node class, cut slot, three permittivities, and
+/// the cut rows with an allowance of one node in four next to a surface (meshes of the
+/// examples have far fewer).
 pub const MESH_BYTES_PER_NODE: usize = std::mem::size_of::<FixedId>()
-    + std::mem::size_of::<[Option<Cut>; 4]>()
+    + std::mem::size_of::<u32>()
+    + std::mem::size_of::<[Option<Cut>; 4]>() / 4
     + 3 * std::mem::size_of::<f64>();
 
 /// The grid study's two coarser meshes (spacing ratio sqrt 2, so about 1/2 and 1/4 of the
@@ -480,6 +483,57 @@ pub struct Cut {
     pub id: FixedId,
 }
 
+/// The cuts of every node, stored only for the nodes that have one (a few per cent of a
+/// mesh): 4 bytes per node plus 64 per cut node, instead of 64 per node. Indexing by node gives
+/// its four links' cuts, as an array would.
+#[derive(Debug, Clone, Default)]
+pub struct CutTable {
+    /// Per node: its row in `rows`, or `NO_CUTS`.
+    slot: Vec<u32>,
+    rows: Vec<[Option<Cut>; 4]>,
+}
+
+const NO_CUTS: u32 = u32::MAX;
+static NO_CUT_ROW: [Option<Cut>; 4] = [None; 4];
+
+impl CutTable {
+    fn new(nodes: usize) -> CutTable {
+        CutTable {
+            slot: vec![NO_CUTS; nodes],
+            rows: Vec::new(),
+        }
+    }
+
+    fn set(&mut self, k: usize, d: Dir, cut: Cut) {
+        if self.slot[k] == NO_CUTS {
+            self.slot[k] = self.rows.len() as u32;
+            self.rows.push([None; 4]);
+        }
+        self.rows[self.slot[k] as usize][d as usize] = Some(cut);
+    }
+
+    /// Nodes with at least one cut link.
+    pub fn cut_nodes(&self) -> usize {
+        self.rows.len()
+    }
+
+    /// Bytes held.
+    pub fn bytes(&self) -> usize {
+        self.slot.len() * 4 + self.rows.len() * std::mem::size_of::<[Option<Cut>; 4]>()
+    }
+}
+
+impl std::ops::Index<usize> for CutTable {
+    type Output = [Option<Cut>; 4];
+
+    fn index(&self, k: usize) -> &Self::Output {
+        match self.slot[k] {
+            NO_CUTS => &NO_CUT_ROW,
+            s => &self.rows[s as usize],
+        }
+    }
+}
+
 /// Link directions from a node.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Dir {
@@ -503,7 +557,7 @@ pub struct Mesh {
     /// Per node (index `j * nr + i`): `FREE`, a conductor index, or `TANK`.
     pub fixed: Vec<FixedId>,
     /// Per node and direction: the cut, where the link from this free node ends on a surface.
-    pub cuts: Vec<[Option<Cut>; 4]>,
+    pub cuts: CutTable,
     /// Effective relative permittivity of the r-link from node (i, j) to (i + 1, j), per node
     /// index (the last column is unused); for a cut link, over the free part only.
     pub eps_r_link: Vec<f64>,
@@ -667,7 +721,7 @@ impl Mesh {
                 .collect();
         let mut mesh = Mesh {
             fixed: vec![FREE; nodes],
-            cuts: vec![[None; 4]; nodes],
+            cuts: CutTable::new(nodes),
             eps_r_link: vec![1.0; nodes],
             eps_z_link: vec![1.0; nodes],
             eps_node: vec![1.0; nodes],
@@ -801,7 +855,7 @@ impl Mesh {
                 // A node a hair's breadth from the surface would make a near-singular row:
                 // such a tiny gap is resolved as the node sitting on the surface.
                 let theta = theta.clamp(1e-6, 1.0);
-                self.cuts[k][d as usize] = Some(Cut { theta, id });
+                self.cuts.set(k, d, Cut { theta, id });
             }
         }
         // Links with both ends free must not pass through a conductor.
