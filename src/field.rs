@@ -222,7 +222,8 @@ impl<'a> FieldMap<'a> {
         }
         let mut node = k;
         let mut dist = s1;
-        let same = |q: usize| (m.eps_node[q] - eps_r).abs() < 1e-12;
+        // The node table is single precision: equal within its rounding.
+        let same = |q: usize| (f64::from(m.eps_node[q]) - eps_r).abs() <= 1e-6 * eps_r;
         if same(k) {
             while xs.len() < 4 {
                 let Some((q, h2)) = self.step(node, back) else {

@@ -31,13 +31,14 @@ pub const MAX_NODES: usize = 40_000_000;
 /// (measured on the benchmark problems, `SolveInfo::memory_bytes` / nodes).
 pub const SOLVER_BYTES_PER_NODE: usize = 230;
 
-/// Bytes the mesh itself holds per grid node: node class, cut slot, three permittivities, and
+/// Bytes the mesh itself holds per grid node: node class, cut slot, three permittivities
+/// (single precision: ε_r values carry far fewer figures than that), and
 /// the cut rows with an allowance of one node in four next to a surface (meshes of the
 /// examples have far fewer).
 pub const MESH_BYTES_PER_NODE: usize = std::mem::size_of::<FixedId>()
     + std::mem::size_of::<u32>()
     + std::mem::size_of::<[Option<Cut>; 4]>() / 4
-    + 3 * std::mem::size_of::<f64>();
+    + 3 * std::mem::size_of::<f32>();
 
 /// The grid study's two coarser meshes (spacing ratio sqrt 2, so about 1/2 and 1/4 of the
 /// nodes) need together about this fraction of the fine mesh and its solve.
@@ -560,11 +561,11 @@ pub struct Mesh {
     pub cuts: CutTable,
     /// Effective relative permittivity of the r-link from node (i, j) to (i + 1, j), per node
     /// index (the last column is unused); for a cut link, over the free part only.
-    pub eps_r_link: Vec<f64>,
+    pub eps_r_link: Vec<f32>,
     /// As `eps_r_link` for the z-link from (i, j) to (i, j + 1).
-    pub eps_z_link: Vec<f64>,
+    pub eps_z_link: Vec<f32>,
     /// Relative permittivity at each node (for field evaluation and plots).
-    pub eps_node: Vec<f64>,
+    pub eps_node: Vec<f32>,
     /// ln(r[i+1]/r[i]) for every radial link off the axis (0 for the link from the axis).
     pub r_log: Vec<f64>,
     /// Number of conductors in the model.
@@ -722,9 +723,9 @@ impl Mesh {
         let mut mesh = Mesh {
             fixed: vec![FREE; nodes],
             cuts: CutTable::new(nodes),
-            eps_r_link: vec![1.0; nodes],
-            eps_z_link: vec![1.0; nodes],
-            eps_node: vec![1.0; nodes],
+            eps_r_link: vec![1.0f32; nodes],
+            eps_z_link: vec![1.0f32; nodes],
+            eps_node: vec![1.0f32; nodes],
             n_conductors: model.conductors.len(),
             r_log,
             cell: spec.cell,
@@ -919,7 +920,7 @@ impl Mesh {
         let nr = self.nr();
         let nz = self.nz();
         for k in 0..self.nodes() {
-            self.eps_node[k] = model.eps_r_at(self.point(k));
+            self.eps_node[k] = model.eps_r_at(self.point(k)) as f32;
         }
         if model.dielectrics.is_empty() {
             return;
@@ -940,7 +941,7 @@ impl Mesh {
                     let wh = (zn - p.z) * 0.5;
                     let el = series_eps(model, shift(a, 0.0, lo), shift(b, 0.0, lo));
                     let eh = series_eps(model, shift(a, 0.0, hi), shift(b, 0.0, hi));
-                    self.eps_r_link[k] = weighted(el, wl, eh, wh);
+                    self.eps_r_link[k] = weighted(el, wl, eh, wh) as f32;
                 }
                 // z-link to (i, j+1).
                 if j + 1 < nz {
@@ -963,7 +964,7 @@ impl Mesh {
                         shift(a, 0.5 * (me - p.r), 0.0),
                         shift(b, 0.5 * (me - p.r), 0.0),
                     );
-                    self.eps_z_link[k] = weighted(ew, ww.abs(), ee, we.abs());
+                    self.eps_z_link[k] = weighted(ew, ww.abs(), ee, we.abs()) as f32;
                 }
             }
         }

@@ -86,10 +86,26 @@ pub fn node_coeffs(mesh: &Mesh, k: usize, scheme: Scheme) -> NodeCoeffs {
         };
     }
     let eps = [
-        if i + 1 < nr { mesh.eps_r_link[k] } else { 0.0 },
-        if i > 0 { mesh.eps_r_link[k - 1] } else { 0.0 },
-        if j + 1 < nz { mesh.eps_z_link[k] } else { 0.0 },
-        if j > 0 { mesh.eps_z_link[k - nr] } else { 0.0 },
+        if i + 1 < nr {
+            f64::from(mesh.eps_r_link[k])
+        } else {
+            0.0
+        },
+        if i > 0 {
+            f64::from(mesh.eps_r_link[k - 1])
+        } else {
+            0.0
+        },
+        if j + 1 < nz {
+            f64::from(mesh.eps_z_link[k])
+        } else {
+            0.0
+        },
+        if j > 0 {
+            f64::from(mesh.eps_z_link[k - nr])
+        } else {
+            0.0
+        },
     ];
     let ri = r[i];
     let re = ri + w[Dir::E as usize];
