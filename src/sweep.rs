@@ -63,6 +63,11 @@ pub struct LeastValue {
     /// Bracket width at the end, SI units.
     pub tolerance_si: f64,
     pub evaluations: usize,
+    /// Changes between failing and passing seen along the sampled values (1 when the margins
+    /// grow with the parameter; more means the least value is only the lowest crossing).
+    pub crossings: usize,
+    /// What to keep in mind about the value, when anything.
+    pub note: Option<String>,
 }
 
 /// The SI unit written into the design file for a dimension.
@@ -253,28 +258,73 @@ pub fn least_value(
     text: &str,
     file: &str,
     path: &str,
-    (a, b, dim): (f64, f64, Dimension),
+    span: (f64, f64, Dimension),
     rel_tol: f64,
 ) -> Result<Option<LeastValue>, SweepError> {
-    let (mut lo, mut hi) = (a.min(b), a.max(b));
+    least_value_sampled(text, file, path, span, rel_tol, &[])
+}
+
+/// As [`least_value`], starting from values already reviewed (`sampled`, e.g. the points of a
+/// sweep over the same range): the bisection starts from the lowest sampled failing-to-passing
+/// step, and more than one change between failing and passing along the samples is reported
+/// (the margins then do not grow with the parameter, and the value is the lowest crossing).
+pub fn least_value_sampled(
+    text: &str,
+    file: &str,
+    path: &str,
+    (a, b, dim): (f64, f64, Dimension),
+    rel_tol: f64,
+    sampled: &[SweepPoint],
+) -> Result<Option<LeastValue>, SweepError> {
+    let (lo0, hi0) = (a.min(b), a.max(b));
     let mut evaluations = 0;
-    let top = evaluate_at(text, file, path, hi, dim)?;
-    evaluations += 1;
-    if !top.meets_design_factor {
+    let mut known: Vec<SweepPoint> = sampled
+        .iter()
+        .filter(|p| p.value_si >= lo0 && p.value_si <= hi0)
+        .cloned()
+        .collect();
+    for v in [hi0, lo0] {
+        if !known.iter().any(|p| p.value_si == v) {
+            known.push(evaluate_at(text, file, path, v, dim)?);
+            evaluations += 1;
+        }
+    }
+    known.sort_by(|p, q| p.value_si.total_cmp(&q.value_si));
+    let crossings = known
+        .windows(2)
+        .filter(|w| w[0].meets_design_factor != w[1].meets_design_factor)
+        .count();
+    let note = (crossings > 1).then(|| {
+        format!(
+            "the worst margin does not grow steadily with {path}: passing and failing alternate \
+             {crossings} times over the sampled values, so this is the lowest crossing only; \
+             check the whole sweep"
+        )
+    });
+    let Some(top) = known.last().cloned() else {
+        return Ok(None);
+    };
+    if !known.iter().any(|p| p.meets_design_factor) {
         return Ok(None);
     }
-    let bottom = evaluate_at(text, file, path, lo, dim)?;
-    evaluations += 1;
-    if bottom.meets_design_factor {
+    if known[0].meets_design_factor {
+        let bottom = &known[0];
         return Ok(Some(LeastValue {
-            value_si: lo,
-            value: bottom.value,
+            value_si: bottom.value_si,
+            value: bottom.value.clone(),
             worst_margin: bottom.worst_margin,
             tolerance_si: 0.0,
             evaluations,
+            crossings,
+            note,
         }));
     }
-    let mut best = top;
+    // The lowest sampled step from failing to passing.
+    let (mut lo, mut hi, mut best) = known
+        .windows(2)
+        .find(|w| !w[0].meets_design_factor && w[1].meets_design_factor)
+        .map(|w| (w[0].value_si, w[1].value_si, w[1].clone()))
+        .unwrap_or((lo0, hi0, top));
     while hi - lo > rel_tol * hi.abs() && evaluations < 60 {
         let mid = 0.5 * (lo + hi);
         let p = evaluate_at(text, file, path, mid, dim)?;
@@ -292,5 +342,7 @@ pub fn least_value(
         worst_margin: best.worst_margin,
         tolerance_si: hi - lo,
         evaluations,
+        crossings,
+        note,
     }))
 }

@@ -78,3 +78,39 @@ fn sweep_command_draws_its_plot() {
     let text = std::fs::read_to_string(&svg).expect("plot written");
     assert!(text.contains("<svg") && text.contains("design factor"));
 }
+
+/// Margins that do not grow with the parameter: with passing and failing alternating along
+/// the sampled values, the least value is the lowest crossing and the result says so (no
+/// review is run here: the ends are among the samples and the bracket is already narrow).
+#[test]
+fn alternating_pass_and_fail_is_reported() {
+    let point = |v: f64, pass: bool| holdoff::sweep::SweepPoint {
+        value_si: v,
+        value: format!("{v} m"),
+        worst_margin: Some(if pass { 1.6 } else { 1.4 }),
+        worst_item: Some("terminal".to_string()),
+        worst_gas_margin: None,
+        holdoff_voltage_v: None,
+        meets_design_factor: pass,
+    };
+    let sampled = vec![
+        point(0.04, false),
+        point(0.06, true),
+        point(0.08, false),
+        point(0.10, true),
+        point(0.12, true),
+    ];
+    let span = (0.04, 0.12, holdoff::units::Dimension::Length);
+    let least = holdoff::sweep::least_value_sampled("", "x", "p", span, 1.0, &sampled)
+        .expect("no review needed")
+        .expect("a value passes");
+    assert_eq!(least.crossings, 3);
+    assert_eq!(least.value_si, 0.06);
+    assert_eq!(least.evaluations, 0);
+    assert!(
+        least
+            .note
+            .as_deref()
+            .is_some_and(|n| n.contains("lowest crossing"))
+    );
+}

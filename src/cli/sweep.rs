@@ -4,7 +4,7 @@
 use anyhow::{Context, Result};
 use clap::Args;
 use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
-use holdoff::sweep::{least_value, range, sweep_with_progress};
+use holdoff::sweep::{least_value_sampled, range, sweep_with_progress};
 use serde::Serialize;
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -69,7 +69,7 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         b.finish_and_clear();
     }
     let least = if a.least {
-        least_value(&text, &file, &a.vary, span, 1e-3)?
+        least_value_sampled(&text, &file, &a.vary, span, 1e-3, &points)?
     } else {
         None
     };
@@ -78,6 +78,9 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         points,
         least,
     };
+    if let Some(note) = out.least.as_ref().and_then(|l| l.note.as_ref()) {
+        eprintln!("warning: {note}");
+    }
     holdoff::report::finite::ensure_finite(&out)?;
     if let Some(path) = &a.plot {
         // The axis in the engineer's unit of the quantity.
@@ -136,8 +139,8 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
                 num(l.worst_margin)
             ),
             None => println!(
-                "no value of {} up to {} meets the design factor",
-                a.vary, a.to
+                "no value of {} from {} to {} meets the design factor",
+                a.vary, a.from, a.to
             ),
         }
     }
