@@ -112,16 +112,17 @@ pub fn export_operator(
     let op = crate::solve::operator::Operator::assemble(&mesh, Scheme::Symmetric);
     let b = op.rhs(&[model.terminal_voltage]);
     std::fs::create_dir_all(dir)?;
-    let ip = op.matrix.indptr();
+    let matrix = op.to_csr();
+    let ip = matrix.indptr();
     let bytes_u32 = |v: &[u32]| v.iter().flat_map(|x| x.to_le_bytes()).collect::<Vec<u8>>();
     let bytes_f64 = |v: &[f64]| v.iter().flat_map(|x| x.to_le_bytes()).collect::<Vec<u8>>();
     std::fs::write(dir.join("indptr.u32"), bytes_u32(ip.raw_storage()))?;
-    std::fs::write(dir.join("indices.u32"), bytes_u32(op.matrix.indices()))?;
-    std::fs::write(dir.join("data.f64"), bytes_f64(op.matrix.data()))?;
+    std::fs::write(dir.join("indices.u32"), bytes_u32(matrix.indices()))?;
+    std::fs::write(dir.join("data.f64"), bytes_f64(matrix.data()))?;
     std::fs::write(dir.join("rhs.f64"), bytes_f64(&b))?;
     std::fs::write(
         dir.join("shape.txt"),
-        format!("{} {}\n", op.rows(), op.matrix.nnz()),
+        format!("{} {}\n", op.rows(), matrix.nnz()),
     )?;
     Ok(op.rows())
 }

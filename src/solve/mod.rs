@@ -135,8 +135,7 @@ impl Solver {
             Scheme::Symmetric => 6 * 8,
             Scheme::ShortleyWeller => 7 * 8 + 4,
         };
-        let memory_bytes =
-            self.op.matrix.nnz() * 12 + (n + 1) * 4 + self.mg.bytes() + vector_bytes * n;
+        let memory_bytes = self.op.bytes() + self.mg.bytes() + vector_bytes * n;
         let unknowns = self
             .op
             .fixed

@@ -342,29 +342,18 @@ impl Multigrid {
     /// The finest level, read from the operator's rows.
     fn fine_level(op: &Operator, nr: usize, nz: usize) -> Level {
         let mut l = Level::new(nr, nz, false);
-        let ip = op.matrix.indptr();
-        let ip = ip.raw_storage();
-        let idx = op.matrix.indices();
-        let val = op.matrix.data();
-        for k in 0..nr * nz {
+        use crate::solve::operator::{ST_C, ST_E, ST_N, ST_S, ST_W};
+        for (k, row) in op.stencil.iter().enumerate().take(nr * nz) {
             let (i, j) = (k % nr, k / nr);
             let p = l.p(i, j);
-            for q in ip[k] as usize..ip[k + 1] as usize {
-                let col = idx[q] as usize;
-                let slot = if col == k {
-                    Slot::C
-                } else if col + 1 == k {
-                    Slot::W
-                } else if col == k + 1 {
-                    Slot::E
-                } else if col + nr == k {
-                    Slot::S
-                } else if col == k + nr {
-                    Slot::N
-                } else {
-                    continue;
-                };
-                l.st[slot as usize][p] = val[q] as f32;
+            for (slot, at) in [
+                (Slot::C, ST_C),
+                (Slot::W, ST_W),
+                (Slot::E, ST_E),
+                (Slot::S, ST_S),
+                (Slot::N, ST_N),
+            ] {
+                l.st[slot as usize][p] = row[at] as f32;
             }
             l.mask[p] = u8::from(op.fixed[k] == crate::mesh::FREE);
         }
