@@ -28,8 +28,9 @@ pub const FREE: FixedId = u32::MAX - 1;
 pub const MAX_NODES: usize = 40_000_000;
 
 /// Bytes the field solve holds per grid node: operator, multigrid hierarchy and Krylov vectors
-/// (measured on the benchmark problems, `SolveInfo::memory_bytes` / nodes).
-pub const SOLVER_BYTES_PER_NODE: usize = 230;
+/// (measured on the benchmark problems, `SolveInfo::memory_bytes` / nodes: 159 at 4 M nodes;
+/// rounded up for smaller and less regular meshes).
+pub const SOLVER_BYTES_PER_NODE: usize = 180;
 
 /// Bytes the mesh itself holds per grid node: node class, cut slot, three permittivities
 /// (single precision: ε_r values carry far fewer figures than that), and
