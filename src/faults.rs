@@ -446,6 +446,8 @@ pub struct FaultReplay {
     pub electrodes: Vec<String>,
     pub capacitance_matrix_f: Vec<Vec<f64>>,
     pub capacitance_asymmetry: f64,
+    /// Each column as a uniform capacitive ladder (for comparison with hand estimates).
+    pub ladder_equivalents: Vec<LadderEquivalent>,
     pub spark_energy: Option<SparkEnergy>,
     /// The spark energy with the chosen column sections shorted, as during conditioning.
     pub spark_energy_conditioning: Option<SparkEnergy>,
@@ -461,6 +463,78 @@ pub struct FaultReplay {
     /// another string).
     pub shared_evaluations: usize,
     pub notes: Vec<String>,
+}
+
+/// A column seen as the uniform capacitive ladder of the hand estimates, from the solved
+/// capacitance matrix: series capacitance between neighbouring electrodes, shunt capacitance
+/// of each electrode to earth, and α = √(C_p/C_s) per gap.
+#[derive(Debug, Clone, Serialize)]
+pub struct LadderEquivalent {
+    pub column: usize,
+    pub name: String,
+    /// Mean mutual capacitance between neighbouring electrodes, F.
+    pub series_f: f64,
+    /// Mean capacitance of an electrode to earth (its row sum of the Maxwell matrix), F.
+    pub shunt_f: f64,
+    pub alpha_per_gap: f64,
+    /// α times the gap count: the hand estimates' steepness of the transient distribution.
+    pub alpha_n: f64,
+    /// The ladder's voltage across the gap at the `to` end just after that end falls to
+    /// earth, V: −V(N−1)/N + V·sinh(α(N−1))/sinh(αN) for a uniform chain of N gaps at end-to-end
+    /// voltage V (the node shift −V·sinh(αx)/sinh(αN), PRACTICE.md §2.5, added to the linear
+    /// profile). It keeps only neighbour and earth capacitances; the transient scenario uses
+    /// the whole matrix.
+    pub ladder_end_gap_v: f64,
+}
+
+/// The voltage across the end gap of a uniform capacitive ladder of `gaps` gaps at
+/// end-to-end voltage `v` just after that end falls to earth: −v(N−1)/N + v·sinh(α(N−1))/
+/// sinh(αN), with the ratio written as e^{−α}(1 − e^{−2α(N−1)})/(1 − e^{−2αN}) so that it stays
+/// finite for any αN.
+pub fn ladder_end_gap(v: f64, alpha: f64, gaps: f64) -> f64 {
+    let ratio = (-alpha).exp() * (1.0 - (-2.0 * alpha * (gaps - 1.0)).exp())
+        / (1.0 - (-2.0 * alpha * gaps).exp());
+    -v * (gaps - 1.0) / gaps + v * ratio
+}
+
+/// The ladder equivalents of every column whose electrodes are in the basis.
+pub fn ladder_equivalents(model: &Model, basis: &Basis) -> Vec<LadderEquivalent> {
+    let c = &basis.capacitance.c_f;
+    model
+        .columns
+        .iter()
+        .enumerate()
+        .filter_map(|(ci, col)| {
+            let e: Vec<usize> = col
+                .electrodes
+                .iter()
+                .filter_map(|&k| basis.conductor_electrode.get(k).copied().flatten())
+                .collect();
+            if e.len() < 2 || e.len() != col.electrodes.len() {
+                return None;
+            }
+            let series: Vec<f64> = e.windows(2).map(|w| -c[w[0]][w[1]]).collect();
+            let shunt: Vec<f64> = e.iter().map(|&i| c[i].iter().sum::<f64>()).collect();
+            let cs = series.iter().sum::<f64>() / series.len() as f64;
+            let cp = shunt.iter().sum::<f64>() / shunt.len() as f64;
+            if cs.is_nan() || cp.is_nan() || cs <= 0.0 || cp <= 0.0 {
+                return None;
+            }
+            let alpha = (cp / cs).sqrt();
+            let gaps = (col.electrodes.len() + 1) as f64;
+            let (v0, v1) = grading::column_ends(model, None, ci).unwrap_or((0.0, 0.0));
+            let ladder_end_gap_v = ladder_end_gap(v1 - v0, alpha, gaps);
+            Some(LadderEquivalent {
+                column: ci,
+                name: col.name.clone(),
+                series_f: cs,
+                shunt_f: cp,
+                alpha_per_gap: alpha,
+                alpha_n: alpha * gaps,
+                ladder_end_gap_v,
+            })
+        })
+        .collect()
 }
 
 /// Consecutive gaps of a column shorted together, as during conditioning: gaps `first_gap` to
@@ -1040,6 +1114,7 @@ pub fn replay(
         electrodes: basis.electrodes.iter().map(|e| e.name.clone()).collect(),
         capacitance_matrix_f: basis.capacitance.c_f.clone(),
         capacitance_asymmetry: basis.capacitance.asymmetry,
+        ladder_equivalents: ladder_equivalents(model, &basis),
         spark_energy,
         spark_energy_conditioning,
         networks,

@@ -359,3 +359,35 @@ fn a_basis_too_large_for_the_memory_is_refused() {
         Ok(_) => panic!("a 64 KiB budget was accepted"),
     }
 }
+
+/// The ladder's end-gap voltage just after a spark, against the hyperbolic distribution
+/// evaluated directly (node shift −V·sinh(αx)/sinh(αN) added to the linear profile, REFERENCES.md
+/// §9 [M], Kuffel et al. 2000 Ch. 3; check row 37): the overflow-safe form agrees, and the
+/// small column's equivalent ladder has positive capacitances.
+#[test]
+fn ladder_end_gap_matches_the_hyperbolic_distribution() {
+    for (alpha, n) in [(0.3f64, 27.0f64), (0.15, 80.0), (2.0 / 5.0, 5.0)] {
+        let v = 750e3;
+        let node = |x: f64| v * x / n - v * (alpha * x).sinh() / (alpha * n).sinh();
+        let direct = node(n) - node(n - 1.0);
+        let f = holdoff::faults::ladder_end_gap(v, alpha, n);
+        assert!(
+            (f - direct).abs() < 1e-9 * v,
+            "α {alpha} N {n}: {f} vs {direct}"
+        );
+    }
+    // Overflow-safe at αN far beyond f64's sinh range.
+    assert!(holdoff::faults::ladder_end_gap(1e6, 3.0, 400.0).is_finite());
+    let m = small();
+    let mesh = Mesh::build(&m).expect("mesh");
+    let basis = Basis::build(&m, &mesh, &SolverParams::default()).expect("basis");
+    let l = holdoff::faults::ladder_equivalents(&m, &basis);
+    assert_eq!(l.len(), 1);
+    assert!(l[0].series_f > 0.0 && l[0].shunt_f > 0.0);
+    assert!((l[0].alpha_n - 5.0 * l[0].alpha_per_gap).abs() < 1e-12);
+    assert!(
+        l[0].ladder_end_gap_v < 0.0,
+        "reversed: {}",
+        l[0].ladder_end_gap_v
+    );
+}

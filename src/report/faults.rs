@@ -53,6 +53,22 @@ pub fn resistor_cell(sc: &ScenarioResult) -> String {
     t
 }
 
+/// One column as the uniform capacitive ladder of the hand estimates.
+pub fn ladder_line(l: &crate::faults::LadderEquivalent) -> String {
+    format!(
+        "Column '{}' as a capacitive ladder: series {:.2} pF between neighbouring electrodes, \
+         {:.2} pF from each to earth, α = √(C_p/C_s) = {:.3} per gap, αN = {:.2}; the ladder puts \
+         {:.1} kV on the terminal-end gap just after a spark (it keeps only neighbour and earth \
+         capacitances; the transient scenario uses the whole matrix)",
+        l.name,
+        l.series_f * 1e12,
+        l.shunt_f * 1e12,
+        l.alpha_per_gap,
+        l.alpha_n,
+        l.ladder_end_gap_v / 1e3
+    )
+}
+
 fn pct(v: Option<f64>) -> String {
     v.map_or_else(|| "-".to_string(), |x| format!("{:+.2} %", 100.0 * x))
 }
@@ -122,6 +138,9 @@ pub fn render(s: &FaultSection, details: usize) -> String {
                 .map_or_else(|| "-".to_string(), |x| format!("{x:.2e}")),
             mc.max_gap_v / 1e3
         );
+    }
+    for l in &r.ladder_equivalents {
+        let _ = writeln!(out, "{}", ladder_line(l));
     }
     if let Some(e) = &r.spark_energy {
         let _ = writeln!(

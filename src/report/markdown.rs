@@ -301,6 +301,9 @@ pub fn render(
                     .map_or("-".into(), |m| format!("{m:.3}"))
             );
         }
+        for l in &f.ladder_equivalents {
+            let _ = writeln!(o, "\n{}.", cell(&crate::report::faults::ladder_line(l)));
+        }
         if let Some(se) = &f.spark_energy {
             let _ = writeln!(
                 o,
