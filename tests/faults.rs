@@ -391,3 +391,27 @@ fn ladder_end_gap_matches_the_hyperbolic_distribution() {
         l[0].ladder_end_gap_v
     );
 }
+
+/// `holdoff faults` exits 1 when a scenario falls below the design factor or a resistor exceeds
+/// its rating, and says which in its result line (the exit-code contract of `check`).
+#[test]
+fn faults_command_exits_1_on_an_exceeded_rating() {
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let file = tmp.path().join("rated.toml");
+    let text = small_text().replace(
+        r#"grading = { resistor = "1 GOhm", tolerance = "1 %", strings = 1 }"#,
+        r#"grading = { resistor = "1 GOhm", tolerance = "1 %", strings = 1, power_rating = "1 W" }"#,
+    );
+    std::fs::write(&file, text).expect("write design");
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+        .args(["faults", file.to_str().expect("path"), "--samples", "2"])
+        .output()
+        .expect("runs");
+    assert_eq!(out.status.code(), Some(1));
+    let stdout = String::from_utf8_lossy(&out.stdout);
+    assert!(stdout.contains("OVER RATING"), "{stdout}");
+    assert!(
+        stdout.contains("with a resistor over its rating"),
+        "{stdout}"
+    );
+}

@@ -5,7 +5,7 @@ use anyhow::{Context, Result};
 use clap::Args;
 use holdoff::faults::{ReplayOptions, Section, replay, scenario_count};
 use holdoff::mesh::Mesh;
-use holdoff::report::faults::{FaultSection, render};
+use holdoff::report::faults::{FaultSection, FaultVerdict, render};
 use holdoff::report::{sha256_hex, write_atomic};
 use holdoff::solve::SolverParams;
 use std::io::IsTerminal;
@@ -76,12 +76,19 @@ pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
+    let verdict = FaultVerdict::of(&r, model.checks.design_factor);
+    let code = if verdict.pass {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    };
     let section = FaultSection {
         title: model.title.clone(),
         file: file.clone(),
         sha256: sha256_hex(&text),
         basis_seconds: r.basis_seconds,
         scenario_seconds: r.scenario_seconds,
+        verdict,
         replay: r,
         seconds: t0.elapsed().as_secs_f64(),
     };
@@ -90,13 +97,13 @@ pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
         let json = serde_json::to_string_pretty(&section)?;
         if target == "-" {
             println!("{json}");
-            return Ok(ExitCode::SUCCESS);
+            return Ok(code);
         }
         write_atomic(Path::new(target), json.as_bytes())
             .with_context(|| format!("cannot write JSON {target}"))?;
     }
     print!("{}", render(&section, args.details));
-    Ok(ExitCode::SUCCESS)
+    Ok(code)
 }
 
 /// Parses COLUMN:FIRST-LAST (1-based) into a 0-based section.

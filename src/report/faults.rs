@@ -19,6 +19,76 @@ pub struct FaultSection {
     /// Of which the unit solves and the scenarios' field checks.
     pub basis_seconds: f64,
     pub scenario_seconds: f64,
+    /// The scenarios against the design factor and the resistor ratings.
+    pub verdict: FaultVerdict,
+}
+
+/// How many scenarios fall below the design factor or overstress a resistor.
+#[derive(Debug, Clone, Serialize)]
+pub struct FaultVerdict {
+    pub design_factor: f64,
+    /// Scenarios whose worst margin is below the design factor.
+    pub below_design_factor: Vec<String>,
+    /// Scenarios in which a resistor exceeds its voltage or power rating.
+    pub rating_exceeded: Vec<String>,
+    pub pass: bool,
+}
+
+impl FaultVerdict {
+    pub fn of(replay: &FaultReplay, design_factor: f64) -> FaultVerdict {
+        let below: Vec<String> = replay
+            .scenarios
+            .iter()
+            .filter(|s| s.worst_margin.is_some_and(|m| m < design_factor))
+            .map(|s| s.name.clone())
+            .collect();
+        let over: Vec<String> = replay
+            .scenarios
+            .iter()
+            .filter(|s| s.resistor_rating_exceeded)
+            .map(|s| s.name.clone())
+            .collect();
+        FaultVerdict {
+            design_factor,
+            pass: below.is_empty() && over.is_empty(),
+            below_design_factor: below,
+            rating_exceeded: over,
+        }
+    }
+
+    /// One line for the end of the report.
+    pub fn line(&self) -> String {
+        if self.pass {
+            return format!(
+                "Result: every scenario meets the design factor {} and no resistor exceeds its rating.",
+                self.design_factor
+            );
+        }
+        let list = |v: &[String]| {
+            let mut t = v.iter().take(3).cloned().collect::<Vec<_>>().join("; ");
+            if v.len() > 3 {
+                t.push_str(&format!("; and {} more", v.len() - 3));
+            }
+            t
+        };
+        let mut parts = Vec::new();
+        if !self.below_design_factor.is_empty() {
+            parts.push(format!(
+                "{} scenario(s) below the design factor {} ({})",
+                self.below_design_factor.len(),
+                self.design_factor,
+                list(&self.below_design_factor)
+            ));
+        }
+        if !self.rating_exceeded.is_empty() {
+            parts.push(format!(
+                "{} scenario(s) with a resistor over its rating ({})",
+                self.rating_exceeded.len(),
+                list(&self.rating_exceeded)
+            ));
+        }
+        format!("Result: {}.", parts.join("; "))
+    }
 }
 
 fn kind_label(k: Kind) -> &'static str {
@@ -187,6 +257,7 @@ pub fn render(s: &FaultSection, details: usize) -> String {
             let _ = writeln!(out, "- {n}");
         }
     }
+    let _ = writeln!(out, "\n{}", s.verdict.line());
     let _ = writeln!(
         out,
         "\n{} scenarios in {:.1} s ({:.1} s for {} unit solves, {:.1} s for the scenarios, {} \

@@ -311,6 +311,11 @@ pub fn render(
                 se.stored_j, se.released_fast_j
             );
         }
+        let _ = writeln!(
+            o,
+            "\n**{}**\n",
+            cell(&crate::report::faults::FaultVerdict::of(f, report.design_factor).line())
+        );
         for n in &f.notes {
             let _ = writeln!(o, "- {}", cell(n));
         }
