@@ -498,7 +498,11 @@ pub fn ladder_end_gap(v: f64, alpha: f64, gaps: f64) -> f64 {
 }
 
 /// The ladder equivalents of every column whose electrodes are in the basis.
-pub fn ladder_equivalents(model: &Model, basis: &Basis) -> Vec<LadderEquivalent> {
+pub fn ladder_equivalents(
+    model: &Model,
+    basis: &Basis,
+    stage_v: Option<&[f64]>,
+) -> Result<Vec<LadderEquivalent>, FaultError> {
     let c = &basis.capacitance.c_f;
     model
         .columns
@@ -522,9 +526,12 @@ pub fn ladder_equivalents(model: &Model, basis: &Basis) -> Vec<LadderEquivalent>
             }
             let alpha = (cp / cs).sqrt();
             let gaps = (col.electrodes.len() + 1) as f64;
-            let (v0, v1) = grading::column_ends(model, None, ci).unwrap_or((0.0, 0.0));
+            let (v0, v1) = match grading::column_ends(model, stage_v, ci) {
+                Ok(ends) => ends,
+                Err(e) => return Some(Err(e.into())),
+            };
             let ladder_end_gap_v = ladder_end_gap(v1 - v0, alpha, gaps);
-            Some(LadderEquivalent {
+            Some(Ok(LadderEquivalent {
                 column: ci,
                 name: col.name.clone(),
                 series_f: cs,
@@ -532,7 +539,7 @@ pub fn ladder_equivalents(model: &Model, basis: &Basis) -> Vec<LadderEquivalent>
                 alpha_per_gap: alpha,
                 alpha_n: alpha * gaps,
                 ladder_end_gap_v,
-            })
+            }))
         })
         .collect()
 }
@@ -1056,6 +1063,17 @@ pub fn replay(
         grading::potentials_with_nodes(model, stage_v, &node_v)?
     };
     let before = basis.electrode_potentials(&nominal_pot);
+    if !model
+        .conductors
+        .iter()
+        .any(|c| matches!(c.potential, PotentialSpec::Terminal { .. }))
+    {
+        notes.push(
+            "no conductor is tied to the terminal voltage (it is fed as \"stage:N\" or given in \
+             volts): the spark is taken from the conductor at the highest voltage"
+                .to_string(),
+        );
+    }
     let mut spark_energy = None;
     let mut spark_energy_conditioning = None;
     match transient_potentials(model, &basis, &before) {
@@ -1114,7 +1132,7 @@ pub fn replay(
         electrodes: basis.electrodes.iter().map(|e| e.name.clone()).collect(),
         capacitance_matrix_f: basis.capacitance.c_f.clone(),
         capacitance_asymmetry: basis.capacitance.asymmetry,
-        ladder_equivalents: ladder_equivalents(model, &basis),
+        ladder_equivalents: ladder_equivalents(model, &basis, stage_v)?,
         spark_energy,
         spark_energy_conditioning,
         networks,
@@ -1249,22 +1267,46 @@ pub fn transient_potentials(
         .iter()
         .map(|e| matches!(spec(e), Some(PotentialSpec::Grading { .. })))
         .collect();
-    let sparked: Vec<bool> = basis
+    let mut sparked: Vec<bool> = basis
         .electrodes
         .iter()
         .map(|e| matches!(spec(e), Some(PotentialSpec::Terminal { .. })))
         .collect();
-    if !sparked.iter().any(|s| *s) {
-        return Err(FaultError::Transient(
-            "no conductor is tied to the terminal".to_string(),
-        ));
-    }
+    choose_sparked(&mut sparked, &floating, before)?;
     let after_held: Vec<f64> = before
         .iter()
         .zip(&sparked)
         .map(|(v, s)| if *s { 0.0 } else { *v })
         .collect();
     fast_step(&basis.capacitance.c_f, &floating, before, &after_held)
+}
+
+/// The electrodes a terminal-to-tank spark takes to earth: those tied to the terminal voltage
+/// as marked in `sparked`; when none is (a terminal fed as "stage:N" or given in volts), the
+/// held electrodes at the highest voltage.
+fn choose_sparked(
+    sparked: &mut [bool],
+    floating: &[bool],
+    before: &[f64],
+) -> Result<(), FaultError> {
+    if sparked.iter().any(|s| *s) {
+        return Ok(());
+    }
+    let top = before
+        .iter()
+        .zip(floating)
+        .filter(|(_, f)| !**f)
+        .map(|(v, _)| v.abs())
+        .fold(0.0, f64::max);
+    if top <= 0.0 {
+        return Err(FaultError::Transient(
+            "no conductor apart from the grading electrodes is off earth potential".to_string(),
+        ));
+    }
+    for ((s, v), f) in sparked.iter_mut().zip(before).zip(floating) {
+        *s = !*f && (v.abs() - top).abs() <= 1e-9 * top;
+    }
+    Ok(())
 }
 
 /// Node potentials of every column from conductor potentials: node 0 the `from` end, the
@@ -1412,12 +1454,7 @@ pub fn spark_energy_with(
             }
         }
     }
-    if !sparked.iter().any(|s| *s) {
-        return Err(FaultError::Transient(
-            "no conductor is tied to the terminal (or the terminal is shorted to the tank)"
-                .to_string(),
-        ));
-    }
+    choose_sparked(&mut sparked, &floating, &v_before)?;
     let after_held: Vec<f64> = (0..ng)
         .map(|g| if sparked[g] { 0.0 } else { v_before[g] })
         .collect();

@@ -381,7 +381,7 @@ fn ladder_end_gap_matches_the_hyperbolic_distribution() {
     let m = small();
     let mesh = Mesh::build(&m).expect("mesh");
     let basis = Basis::build(&m, &mesh, &SolverParams::default()).expect("basis");
-    let l = holdoff::faults::ladder_equivalents(&m, &basis);
+    let l = holdoff::faults::ladder_equivalents(&m, &basis, None).expect("ends resolve");
     assert_eq!(l.len(), 1);
     assert!(l[0].series_f > 0.0 && l[0].shunt_f > 0.0);
     assert!((l[0].alpha_n - 5.0 * l[0].alpha_per_gap).abs() < 1e-12);
@@ -414,4 +414,37 @@ fn faults_command_exits_1_on_an_exceeded_rating() {
         stdout.contains("with a resistor over its rating"),
         "{stdout}"
     );
+}
+
+/// A terminal given in volts (or fed as "stage:N") instead of tied to the terminal voltage
+/// still sparks: the highest-voltage conductor collapses, and with the same potentials the
+/// transient is the same as for `potential = "terminal"`.
+#[test]
+fn a_terminal_in_volts_sparks_like_the_terminal() {
+    let options = ReplayOptions {
+        samples: 0,
+        ..Default::default()
+    };
+    let run = |text: &str| {
+        let m = holdoff::design::from_str(text, "t.toml").expect("valid design");
+        let mesh = Mesh::build(&m).expect("mesh");
+        replay(&m, &mesh, &SolverParams::default(), None, &options, &|_| {}).expect("replay")
+    };
+    let tied = run(&small_text());
+    let volts_text = small_text().replacen("potential = \"terminal\"", "potential = \"200 kV\"", 1);
+    assert_ne!(volts_text, small_text());
+    let volts = run(&volts_text);
+    let transient = |r: &holdoff::faults::FaultReplay| {
+        r.scenarios
+            .iter()
+            .find(|s| s.kind == Kind::Transient)
+            .expect("a transient")
+            .gap_voltages_v
+            .clone()
+    };
+    let (a, b) = (transient(&tied), transient(&volts));
+    for (x, y) in a[0].iter().zip(&b[0]) {
+        assert!((x - y).abs() < 1e-6 * 200e3, "{x} vs {y}");
+    }
+    assert!(volts.notes.iter().any(|n| n.contains("highest voltage")));
 }
