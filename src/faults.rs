@@ -438,6 +438,8 @@ pub struct SparkEnergy {
 /// What the fault replay computes.
 #[derive(Debug, Clone, Serialize)]
 pub struct FaultReplay {
+    /// The terminal voltage of the design, or, when no conductor is tied to it (a stage-fed
+    /// terminal), the highest conductor potential of the nominal state, V.
     pub terminal_voltage_v: f64,
     pub nominal_worst_margin: Option<f64>,
     /// Ranked worst first.
@@ -1125,7 +1127,19 @@ pub fn replay(
 
     rank(&mut results);
     Ok(FaultReplay {
-        terminal_voltage_v: model.terminal_voltage,
+        terminal_voltage_v: if model
+            .conductors
+            .iter()
+            .any(|c| matches!(c.potential, PotentialSpec::Terminal { .. }))
+        {
+            model.terminal_voltage
+        } else {
+            // A stage-fed terminal: the highest conductor potential of the nominal state.
+            nominal_pot
+                .iter()
+                .copied()
+                .fold(0.0, |a: f64, v| if v.abs() > a.abs() { v } else { a })
+        },
         nominal_worst_margin: nominal_worst,
         scenarios: results,
         monte_carlo,
