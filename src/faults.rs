@@ -50,6 +50,10 @@ pub enum FaultError {
     },
 }
 
+/// Runs of unit solves the basis makes side by side (fixed, so that the warm starts and hence
+/// the basis do not depend on the machine's thread count).
+const BASIS_STREAMS: usize = 2;
+
 /// Nodes summed together in one block of a superposition, so that the block of the result
 /// stays in cache while every unit solution streams through it.
 const SUM_BLOCK: usize = 4096;
@@ -97,24 +101,47 @@ impl Basis {
                 conductor_electrode[k] = Some(e);
             }
         }
-        let mut solver = Solver::new(mesh, *params);
+        // The unit solves run in BASIS_STREAMS contiguous runs side by side, each with its own
+        // operator and hierarchy and each solve warm-started from the previous one of its run.
+        // The split does not depend on the thread count, so the basis is the same everywhere.
+        let per = n.div_ceil(BASIS_STREAMS).max(1);
+        let runs: Vec<Vec<(usize, &Electrode)>> = groups
+            .iter()
+            .enumerate()
+            .collect::<Vec<_>>()
+            .chunks(per)
+            .map(|c| c.to_vec())
+            .collect();
+        type Unit = (usize, Vec<f64>, Vec<f64>, SolveInfo);
+        let solved: Vec<Vec<Unit>> = runs
+            .par_iter()
+            .map(|run| -> Result<Vec<Unit>, FaultError> {
+                let mut solver = Solver::new(mesh, *params);
+                let mut out: Vec<Unit> = Vec::with_capacity(run.len());
+                for &(j, g) in run {
+                    let mut pots = vec![0.0; model.conductors.len()];
+                    for &k in &g.conductors {
+                        pots[k] = 1.0;
+                    }
+                    let guess = out.last().map(|u| u.1.as_slice());
+                    let sol = solver.solve(&pots, guess)?;
+                    let q = conductor_charges(mesh, &sol.phi, &pots);
+                    out.push((j, sol.phi, q, sol.info));
+                }
+                Ok(out)
+            })
+            .collect::<Result<_, _>>()?;
         let mut c_f = vec![vec![0.0; n]; n];
         let mut phi: Vec<Vec<f64>> = Vec::with_capacity(n);
         let mut iterations = 0;
         let mut info = None;
-        for (j, g) in groups.iter().enumerate() {
-            let mut pots = vec![0.0; model.conductors.len()];
-            for &k in &g.conductors {
-                pots[k] = 1.0;
-            }
-            let sol = solver.solve(&pots, phi.last().map(|p| p.as_slice()))?;
-            iterations += sol.info.iterations;
-            let q = conductor_charges(mesh, &sol.phi, &pots);
+        for (j, unit_phi, q, unit_info) in solved.into_iter().flatten() {
+            iterations += unit_info.iterations;
             for (i, gi) in groups.iter().enumerate() {
                 c_f[i][j] = gi.conductors.iter().map(|&k| q[k]).sum();
             }
-            info = Some(sol.info);
-            phi.push(sol.phi);
+            info = Some(unit_info);
+            phi.push(unit_phi);
         }
         let Some(info) = info else {
             return Err(FaultError::Transient(
