@@ -239,16 +239,18 @@ pub(crate) fn read_column(
     let node_current = read_node_current(rd, raw, &at, electrodes);
     let (resistor, tolerance, strings, rating, power) = grading?;
     if resistor.is_none() {
-        // Currents and a leakage resistance need absolute resistor values to mean anything.
+        // Currents and a leakage resistance need absolute resistor values to mean anything;
+        // `leakage = "auto"` or `"none"` does not.
+        let keyword = matches!(
+            leakage,
+            Some(LeakageSpec::FromMaterials | LeakageSpec::None)
+        );
         let absolute = [
-            (&raw.node_current, "node_current"),
-            (&raw.leakage, "leakage"),
+            (raw.node_current.as_ref(), "node_current"),
+            (raw.leakage.as_ref().filter(|_| !keyword), "leakage"),
         ];
         for (leaf, key) in absolute {
-            if let Some(v) = leaf
-                && !(key == "leakage"
-                    && matches!(v.get_ref(), RawValue::Str(t) if matches!(t.trim(), "auto" | "none")))
-            {
+            if let Some(v) = leaf {
                 rd.push(
                     "missing-key",
                     at.key("grading.resistor"),

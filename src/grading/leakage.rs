@@ -124,16 +124,14 @@ fn resistance_between(shape: &Shape, rho: f64, za: f64, zb: f64) -> Option<f64> 
 pub fn from_materials(model: &Model, column: usize) -> ColumnLeakage {
     let planes = node_planes(model, column);
     let gaps = planes.len().saturating_sub(1);
+    let spans: Vec<(f64, f64)> = planes.windows(2).map(|w| (w[0], w[1])).collect();
     let mut paths = Vec::new();
     let mut notes = Vec::new();
     for d in &model.dielectrics {
-        let spans: Vec<Option<(f64, f64)>> =
-            planes.windows(2).map(|w| Some((w[0], w[1]))).collect();
         let Some(material) = &d.material else {
             // Only report insulators that reach along the column.
             let reaches = spans
                 .iter()
-                .flatten()
                 .any(|&(a, b)| resistance_between(&d.shape, 1.0, a, b).is_some());
             if reaches {
                 notes.push(format!(
@@ -149,7 +147,7 @@ pub fn from_materials(model: &Model, column: usize) -> ColumnLeakage {
         };
         let per_gap: Vec<Option<f64>> = spans
             .iter()
-            .map(|s| s.and_then(|(a, b)| resistance_between(&d.shape, rho, a, b)))
+            .map(|&(a, b)| resistance_between(&d.shape, rho, a, b))
             .collect();
         if per_gap.iter().any(Option::is_some) {
             paths.push(LeakagePath {
