@@ -106,7 +106,8 @@ fn opt(v: Option<f64>, digits: usize) -> String {
 }
 
 /// The resistor column of the scenario tables: the largest voltage on one resistor (clamped
-/// by the protective gaps) with its rating margin, and whether a rating is exceeded.
+/// by the protective gaps) with its rating margin (rating over stress, the lesser of the voltage
+/// and the power rating), and whether a rating is exceeded.
 pub fn resistor_cell(sc: &ScenarioResult) -> String {
     let rc = &sc.resistors;
     let mut t = format!("{:.1} kV", rc.clamped_max_v / 1e3);
@@ -115,7 +116,7 @@ pub fn resistor_cell(sc: &ScenarioResult) -> String {
         (a, b) => a.or(b),
     };
     if let Some(m) = m {
-        let _ = write!(t, " ({m:.2}× rating)");
+        let _ = write!(t, ", margin {m:.2}");
     }
     if sc.resistor_rating_exceeded {
         t.push_str(" OVER RATING");
@@ -140,7 +141,22 @@ pub fn ladder_line(l: &crate::faults::LadderEquivalent) -> String {
 }
 
 fn pct(v: Option<f64>) -> String {
-    v.map_or_else(|| "-".to_string(), |x| format!("{:+.2} %", 100.0 * x))
+    v.map_or_else(|| "-".to_string(), |x| signed_percent(x, 2))
+}
+
+/// A relative change as a signed percentage; a change that rounds to zero is shown as 0, so
+/// the table does not print "-0.00 %".
+pub fn signed_percent(x: f64, digits: usize) -> String {
+    let shown = format!("{:.digits$}", 100.0 * x);
+    if shown
+        .trim_start_matches('-')
+        .chars()
+        .all(|c| c == '0' || c == '.')
+    {
+        format!("{:.digits$} %", 0.0)
+    } else {
+        format!("{:+.digits$} %", 100.0 * x)
+    }
 }
 
 /// Renders the section for a terminal; `details` worst scenarios get their gap voltages.
@@ -172,7 +188,7 @@ pub fn render(s: &FaultSection, details: usize) -> String {
         "vs nominal",
         "max gap kV",
         "protective gap",
-        "resistor",
+        "resistor kV, rating margin",
     ]);
     for sc in &r.scenarios {
         t.add_row(vec![
@@ -306,18 +322,33 @@ fn detail(out: &mut String, sc: &ScenarioResult) {
             format!(" (column {} gap {})", c + 1, g + 1)
         })
     };
+    let clamped = if sc.fired_gaps.is_empty() {
+        String::new()
+    } else {
+        format!(
+            ", {:.2} kV{} with the protective gaps clamping",
+            rc.clamped_max_v / 1e3,
+            at(rc.clamped_max_at)
+        )
+    };
+    let dissipation = match (sc.kind, rc.max_power_w) {
+        (Kind::Transient, _) => {
+            "dissipation not assessed (a transient, not a steady state)".to_string()
+        }
+        (_, Some(p)) => format!(
+            "dissipation {p:.3} W (power margin {})",
+            opt(rc.power_margin, 3)
+        ),
+        (_, None) => "dissipation - (no power rating or resistance given)".to_string(),
+    };
     let _ = writeln!(
         out,
-        "   resistors: largest {:.2} kV{}, {:.2} kV{} with protective gaps clamping; rating margin {}; \
-         dissipation {} (power margin {}){}",
+        "   resistors: largest {:.2} kV{}{}; rating margin {}; {}{}",
         rc.max_v / 1e3,
         at(rc.max_at),
-        rc.clamped_max_v / 1e3,
-        at(rc.clamped_max_at),
+        clamped,
         opt(rc.rating_margin, 3),
-        rc.max_power_w
-            .map_or_else(|| "-".to_string(), |p| format!("{p:.3} W")),
-        opt(rc.power_margin, 3),
+        dissipation,
         if sc.resistor_rating_exceeded {
             "; OVER RATING"
         } else {

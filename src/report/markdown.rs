@@ -235,7 +235,7 @@ pub fn render(
         );
         let _ = writeln!(
             o,
-            "| rank | scenario | worst item | margin | vs nominal | max gap | protective gap | resistor |"
+            "| rank | scenario | worst item | margin | vs nominal | max gap | protective gap | largest resistor voltage, rating margin |"
         );
         let _ = writeln!(o, "|---:|---|---|---:|---:|---:|---|---|");
         for sc in f.scenarios.iter().take(15) {
@@ -247,7 +247,7 @@ pub fn render(
                 cell(sc.worst_item.as_deref().unwrap_or("-")),
                 sc.worst_margin.map_or("-".into(), |m| format!("{m:.3}")),
                 sc.change_from_nominal
-                    .map_or("-".into(), |c| format!("{:+.1} %", c * 100.0)),
+                    .map_or("-".into(), |c| crate::report::faults::signed_percent(c, 1)),
                 kv(sc.max_gap_v),
                 if sc.protective_gap_fired {
                     format!("fired ({})", sc.fired_gaps.len())
