@@ -38,14 +38,7 @@ fn capacitive_chain_reproduces_the_hyperbolic_distribution() {
     let cg = 10e-12;
     let cp = cg * (alpha / n as f64).powi(2);
     // Electrodes: nodes 1..=n (node 0 is the earthed end); node n is the terminal.
-    let mut c = vec![vec![0.0; n]; n];
-    for i in 0..n {
-        c[i][i] = cp + cg + if i + 1 < n { cg } else { 0.0 };
-        if i + 1 < n {
-            c[i][i + 1] = -cg;
-            c[i + 1][i] = -cg;
-        }
-    }
+    let c = chain(n, cg, cp);
     let v = 1e6;
     let before: Vec<f64> = (1..=n).map(|k| v * k as f64 / n as f64).collect();
     let floating: Vec<bool> = (1..=n).map(|k| k < n).collect();
@@ -70,6 +63,125 @@ fn capacitive_chain_reproduces_the_hyperbolic_distribution() {
     assert!((mid - 0.3240).abs() / 0.3240 < 0.02, "{mid}");
     let end_slope = (shift[n - 2] - shift[n - 1]) / v * n as f64;
     assert!((end_slope - 2.0746).abs() / 2.0746 < 0.02, "{end_slope}");
+}
+
+/// The uniform capacitive chain of the test above (N gaps, series C_g, C_p to ground per
+/// node), built as its Maxwell matrix with the terminal as electrode n − 1.
+fn chain(n: usize, cg: f64, cp: f64) -> Vec<Vec<f64>> {
+    let mut c = vec![vec![0.0; n]; n];
+    for i in 0..n {
+        c[i][i] = cp + cg + if i + 1 < n { cg } else { 0.0 };
+        if i + 1 < n {
+            c[i][i + 1] = -cg;
+            c[i + 1][i] = -cg;
+        }
+    }
+    c
+}
+
+fn charges(c: &[Vec<f64>], v: &[f64]) -> Vec<f64> {
+    c.iter()
+        .map(|row| row.iter().zip(v).map(|(a, b)| a * b).sum())
+        .collect()
+}
+
+/// A protective gap between two floating electrodes that conducts during the collapse: it
+/// holds V_b − V_a at its clamp, and the charge it passes leaves one electrode for the other,
+/// so the pair keeps its total charge (conservation of charge with Q = C V, Maxwell's
+/// capacitance coefficients). Two floating electrodes and the terminal of a three-gap chain,
+/// solved by hand from those two equations, within 1e-9 relative.
+#[test]
+fn a_conducting_gap_holds_its_clamp_and_shares_the_charge() {
+    use holdoff::faults::{GapLink, clamped_step};
+    let c = chain(3, 20e-12, 4e-12);
+    let v = 300e3;
+    let before = vec![v / 3.0, 2.0 * v / 3.0, v];
+    let floating = vec![true, true, false];
+    let after_held = vec![before[0], before[1], 0.0];
+    let bare = fast_step(&c, &floating, &before, &after_held).expect("solves");
+    let clamp = 0.5 * (bare[1] - bare[0]).abs();
+    assert!(
+        clamp > 1e3,
+        "the bare step must overshoot: {}",
+        bare[1] - bare[0]
+    );
+    let link = GapLink {
+        a: Some(0),
+        b: Some(1),
+        clamp_v: clamp,
+    };
+    let step = clamped_step(&c, &floating, &before, &after_held, &[link]).expect("solves");
+    assert_eq!(step.conducting, vec![0]);
+    let d = (bare[1] - bare[0]).signum() * clamp;
+    let q = charges(&c, &before);
+    // (C00 + C10) V1 + (C01 + C11) V2 = Q1 + Q2 with V2 = V1 + d and the terminal at 0.
+    let v1 = (q[0] + q[1] - (c[0][1] + c[1][1]) * d) / (c[0][0] + c[1][0] + c[0][1] + c[1][1]);
+    let v2 = v1 + d;
+    assert!(
+        (step.potentials[0] - v1).abs() <= 1e-9 * v,
+        "{} vs {v1}",
+        step.potentials[0]
+    );
+    assert!(
+        (step.potentials[1] - v2).abs() <= 1e-9 * v,
+        "{} vs {v2}",
+        step.potentials[1]
+    );
+    assert_eq!(step.potentials[2], 0.0);
+}
+
+/// The hyperbolic chain of REFERENCES.md §9 with a protective gap across every gap: the
+/// collapse fires a run of gaps from the terminal end (the largest voltages of the
+/// sinh(αx)/sinh(α) distribution), each conducting gap holds exactly its clamp, no gap is left
+/// over its clamp, and every electrode no conducting gap touches keeps its charge
+/// (conservation of charge, Q = C V).
+#[test]
+fn protective_gaps_cascade_from_the_terminal_end() {
+    use holdoff::faults::{GapLink, clamped_step};
+    let n = 40;
+    let alpha: f64 = 4.0;
+    let cg = 10e-12;
+    let c = chain(n, cg, cg * (alpha / n as f64).powi(2));
+    let v = 1e6;
+    let before: Vec<f64> = (1..=n).map(|k| v * k as f64 / n as f64).collect();
+    let floating: Vec<bool> = (1..=n).map(|k| k < n).collect();
+    let mut after_held = before.clone();
+    after_held[n - 1] = 0.0;
+    // Gap k between node k and k + 1 (node 0 is the earth); clamp 2 × the nominal V/N.
+    let clamp = 2.0 * v / n as f64;
+    let links: Vec<GapLink> = (0..n)
+        .map(|k| GapLink {
+            a: k.checked_sub(1),
+            b: Some(k),
+            clamp_v: clamp,
+        })
+        .collect();
+    let step = clamped_step(&c, &floating, &before, &after_held, &links).expect("solves");
+    let p = &step.potentials;
+    let gap = |k: usize| p[k] - if k == 0 { 0.0 } else { p[k - 1] };
+    assert!(step.conducting.len() >= 2, "{:?}", step.conducting);
+    assert!(step.over_in_loop.is_empty());
+    let first = step.conducting[0];
+    assert_eq!(
+        step.conducting,
+        (first..n).collect::<Vec<_>>(),
+        "a run to the terminal"
+    );
+    for k in 0..n {
+        if step.conducting.contains(&k) {
+            assert!(
+                (gap(k).abs() - clamp).abs() <= 1e-9 * clamp,
+                "gap {k}: {}",
+                gap(k)
+            );
+        } else {
+            assert!(gap(k).abs() <= clamp * (1.0 + 1e-9), "gap {k}: {}", gap(k));
+        }
+    }
+    let (q0, q1) = (charges(&c, &before), charges(&c, p));
+    for e in 0..first.saturating_sub(1) {
+        assert!((q1[e] - q0[e]).abs() <= 1e-9 * q0[e].abs(), "electrode {e}");
+    }
 }
 
 /// The field of a scenario formed from the unit-potential basis equals a direct solve of the
@@ -128,7 +240,13 @@ fn replay_is_repeatable_and_complete() {
     assert_eq!(count(Kind::Nominal), 1);
     assert_eq!(count(Kind::Open), 5);
     assert_eq!(count(Kind::Short), 5);
-    assert_eq!(count(Kind::Transient), 1);
+    let conducting = a
+        .scenarios
+        .iter()
+        .filter(|s| s.protective_gaps_conducting)
+        .count();
+    assert_eq!(count(Kind::Transient), 1 + conducting);
+    assert!(conducting <= 1);
     // Five worst-case gaps and the worst Monte Carlo draw.
     assert_eq!(count(Kind::Tolerance), 6);
     let mc = a.monte_carlo.as_ref().expect("draws");
@@ -154,7 +272,7 @@ fn replay_is_repeatable_and_complete() {
     let tr = a
         .scenarios
         .iter()
-        .find(|s| s.kind == Kind::Transient)
+        .find(|s| s.kind == Kind::Transient && !s.protective_gaps_conducting)
         .expect("transient");
     let last = *tr.gap_voltages_v[0].last().expect("gaps");
     assert!(last < 0.0, "{last}");
@@ -318,7 +436,7 @@ fn resistor_ratings_are_checked_against_dc_and_the_clamped_transient() {
     let tr = r
         .scenarios
         .iter()
-        .find(|s| s.kind == Kind::Transient)
+        .find(|s| s.kind == Kind::Transient && !s.protective_gaps_conducting)
         .expect("transient");
     let rc = &tr.resistors;
     assert!(
@@ -337,6 +455,15 @@ fn resistor_ratings_are_checked_against_dc_and_the_clamped_transient() {
         "no steady dissipation in a transient"
     );
     assert!(tr.resistor_rating_exceeded);
+    // With the gaps conducting, no gap of the column holds more than the top of the band.
+    let held = r
+        .scenarios
+        .iter()
+        .find(|s| s.protective_gaps_conducting)
+        .expect("the gaps conduct");
+    assert_eq!(held.kind, Kind::Transient);
+    assert!(held.max_gap_v <= 55e3 * (1.0 + 1e-9), "{}", held.max_gap_v);
+    assert!((held.max_gap_v - 55e3).abs() < 1.0, "{}", held.max_gap_v);
 }
 
 /// A basis that would not fit the memory budget is refused before any solve, with the
@@ -437,7 +564,7 @@ fn a_terminal_in_volts_sparks_like_the_terminal() {
     let transient = |r: &holdoff::faults::FaultReplay| {
         r.scenarios
             .iter()
-            .find(|s| s.kind == Kind::Transient)
+            .find(|s| s.kind == Kind::Transient && !s.protective_gaps_conducting)
             .expect("a transient")
             .gap_voltages_v
             .clone()

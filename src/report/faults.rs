@@ -124,6 +124,32 @@ pub fn resistor_cell(sc: &ScenarioResult) -> String {
     t
 }
 
+/// The spark transient with and without the protective gaps conducting, when both were
+/// formed.
+pub fn transient_line(r: &crate::faults::FaultReplay) -> Option<String> {
+    let of = |conducting: bool| {
+        r.scenarios
+            .iter()
+            .find(|s| s.kind == Kind::Transient && s.protective_gaps_conducting == conducting)
+    };
+    let (bare, held) = (of(false)?, of(true)?);
+    let worst = |s: &ScenarioResult| {
+        format!(
+            "{} ({})",
+            opt(s.worst_margin, 3),
+            s.worst_item.as_deref().unwrap_or("-")
+        )
+    };
+    Some(format!(
+        "Spark transient: worst margin {} with the column floating, {} once the protective gaps \
+         it drives past their band conduct (largest gap {:.1} kV, against {:.1} kV without them)",
+        worst(bare),
+        worst(held),
+        held.max_gap_v / 1e3,
+        bare.max_gap_v / 1e3
+    ))
+}
+
 /// One column as the uniform capacitive ladder of the hand estimates.
 pub fn ladder_line(l: &crate::faults::LadderEquivalent) -> String {
     format!(
@@ -235,6 +261,9 @@ pub fn render(s: &FaultSection, details: usize) -> String {
              the fast collapse of the terminal",
             e.stored_j, e.released_fast_j
         );
+    }
+    if let Some(l) = transient_line(r) {
+        let _ = writeln!(out, "{l}");
     }
 
     if let Some(e) = &r.spark_energy_conditioning {

@@ -274,7 +274,7 @@ pub fn render(
         if let Some(tr) = f
             .scenarios
             .iter()
-            .find(|sc| sc.kind == crate::faults::Kind::Transient)
+            .find(|sc| sc.kind == crate::faults::Kind::Transient && !sc.protective_gaps_conducting)
         {
             let rc = &tr.resistors;
             let _ = writeln!(
@@ -285,6 +285,9 @@ pub fn render(
                 rc.rating_margin
                     .map_or("- (no rating given)".into(), |m| format!("{m:.2}"))
             );
+        }
+        if let Some(l) = crate::report::faults::transient_line(f) {
+            let _ = writeln!(o, "\n{}.", cell(&l));
         }
         if let Some(mc) = &f.monte_carlo {
             let _ = writeln!(

@@ -25,6 +25,12 @@ use rayon::prelude::*;
 use serde::Serialize;
 use thiserror::Error;
 
+mod transient;
+pub use transient::{
+    ClampedStep, GapLink, clamped_step, clamped_transient_potentials, fast_step, gap_links,
+    node_electrode, spark_energy_with, transient_potentials,
+};
+
 #[derive(Debug, Error)]
 pub enum FaultError {
     #[error(transparent)]
@@ -259,55 +265,6 @@ fn quadratic(c: &[Vec<f64>], v: &[f64]) -> f64 {
     0.5 * e
 }
 
-/// Potentials of the electrodes just after some of them are stepped, with the others
-/// floating: `floating[e]` marks the electrodes whose charge is conserved; the held ones go to
-/// `after_held[e]`. From Q = C V: C_FF ΔV_F = −C_FH ΔV_H.
-pub fn fast_step(
-    c_f: &[Vec<f64>],
-    floating: &[bool],
-    before: &[f64],
-    after_held: &[f64],
-) -> Result<Vec<f64>, FaultError> {
-    let n = c_f.len();
-    if floating.len() != n || before.len() != n || after_held.len() != n {
-        return Err(FaultError::Transient(format!(
-            "{} electrodes in the capacitance matrix, but {} / {} / {} entries given",
-            n,
-            floating.len(),
-            before.len(),
-            after_held.len()
-        )));
-    }
-    let f: Vec<usize> = (0..n).filter(|&i| floating[i]).collect();
-    let mut after: Vec<f64> = (0..n)
-        .map(|i| {
-            if floating[i] {
-                before[i]
-            } else {
-                after_held[i]
-            }
-        })
-        .collect();
-    if f.is_empty() {
-        return Ok(after);
-    }
-    let m = f.len();
-    let a = nalgebra::DMatrix::from_fn(m, m, |i, j| c_f[f[i]][f[j]]);
-    let b = nalgebra::DVector::from_fn(m, |i, _| {
-        -(0..n)
-            .filter(|&h| !floating[h])
-            .map(|h| c_f[f[i]][h] * (after_held[h] - before[h]))
-            .sum::<f64>()
-    });
-    let dv = a.lu().solve(&b).ok_or_else(|| {
-        FaultError::Transient("the floating part of the capacitance matrix is singular".into())
-    })?;
-    for (i, &e) in f.iter().enumerate() {
-        after[e] = before[e] + dv[i];
-    }
-    Ok(after)
-}
-
 /// What a scenario changes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
@@ -370,6 +327,9 @@ pub struct ScenarioResult {
     /// True when a resistor's voltage (after any protective gap clamps, for the transient) or
     /// its dissipation exceeds its rating.
     pub resistor_rating_exceeded: bool,
+    /// True for the transient with the protective gaps conducting (`clamped_step`); false for
+    /// every other scenario, the bare transient included.
+    pub protective_gaps_conducting: bool,
 }
 
 /// The grading resistors of a scenario against their ratings.
@@ -430,6 +390,7 @@ impl ScenarioResult {
             protective_gap_margin: e.gap_margin,
             resistors: e.resistors.0,
             resistor_rating_exceeded: e.resistors.1,
+            protective_gaps_conducting: false,
         }
     }
 }
@@ -861,22 +822,20 @@ pub fn replay(
                 } else {
                     format!("{} gap {}", n.name, g + 1)
                 };
-                let mut open = networks.clone();
-                open[c] = n.with_open(g, s)?;
-                cases.push(Case {
-                    name: format!("open: {label}"),
-                    kind: Kind::Open,
-                    resistor: Some(r),
-                    networks: open,
-                });
-                let mut short = networks.clone();
-                short[c] = n.with_short(g, s)?;
-                cases.push(Case {
-                    name: format!("short: {label}"),
-                    kind: Kind::Short,
-                    resistor: Some(r),
-                    networks: short,
-                });
+                for (kind, word) in [(Kind::Open, "open"), (Kind::Short, "short")] {
+                    let mut changed = networks.clone();
+                    changed[c] = if kind == Kind::Open {
+                        n.with_open(g, s)?
+                    } else {
+                        n.with_short(g, s)?
+                    };
+                    cases.push(Case {
+                        name: format!("{word}: {label}"),
+                        kind,
+                        resistor: Some(r),
+                        networks: changed,
+                    });
+                }
             }
         }
     }
@@ -1117,27 +1076,32 @@ pub fn replay(
                     &options.shorted_sections,
                 )?);
             }
-            let conductor_v = basis.conductor_potentials(&after);
-            let node_v = column_nodes(model, &conductor_v);
-            let gap_v: Vec<Vec<f64>> = node_v
-                .iter()
-                .map(|v| v.windows(2).map(|w| w[1] - w[0]).collect())
-                .collect();
-            let (fired, gm) = fired_gaps(&networks, &node_v);
-            let mut work = template;
-            let worst = field_margins(model, &basis, &mut work, conductor_v, None)?;
-            let resistors = resistor_check(model, &networks, &gap_v, false);
-            results.push(ScenarioResult::assemble(
-                "transient: terminal-to-tank spark, just after".to_string(),
-                Kind::Transient,
-                None,
-                Evaluated {
+            let transient = |electrode_v: &[f64], work: &mut Analysis| -> Result<_, FaultError> {
+                let conductor_v = basis.conductor_potentials(electrode_v);
+                let node_v = column_nodes(model, &conductor_v);
+                let gap_v: Vec<Vec<f64>> = node_v
+                    .iter()
+                    .map(|v| v.windows(2).map(|w| w[1] - w[0]).collect())
+                    .collect();
+                let (fired, gm) = fired_gaps(&networks, &node_v);
+                let worst = field_margins(model, &basis, work, conductor_v, None)?;
+                let resistors = resistor_check(model, &networks, &gap_v, false);
+                Ok(Evaluated {
                     gap_v,
                     fired,
                     gap_margin: gm,
                     worst,
                     resistors,
-                },
+                })
+            };
+            let mut work = template;
+            let bare = transient(&after, &mut work)?;
+            let any_fired = !bare.fired.is_empty();
+            results.push(ScenarioResult::assemble(
+                "transient: terminal-to-tank spark, just after".to_string(),
+                Kind::Transient,
+                None,
+                bare,
                 &nominal_gaps,
                 nominal_worst,
             ));
@@ -1147,6 +1111,43 @@ pub fn replay(
                  acts; field criteria are the DC ones"
                     .to_string(),
             );
+            if any_fired {
+                match clamped_transient_potentials(model, &basis, &networks, &before) {
+                    Ok(step) if !step.conducting.is_empty() => {
+                        let mut sc = ScenarioResult::assemble(
+                            "transient: terminal-to-tank spark, protective gaps conducting"
+                                .to_string(),
+                            Kind::Transient,
+                            None,
+                            transient(&step.potentials, &mut work)?,
+                            &nominal_gaps,
+                            nominal_worst,
+                        );
+                        sc.protective_gaps_conducting = true;
+                        results.push(sc);
+                        notes.push(format!(
+                            "transient with protective gaps conducting: {} gap(s) that the \
+                             collapse drives past the top of their firing band conduct and hold \
+                             there (the most they let through; an arcing gap falls lower and \
+                             passes its share to its neighbours), the charge they pass moving \
+                             between the electrodes they bridge; resistors still idle",
+                            step.conducting.len()
+                        ));
+                        if !step.over_in_loop.is_empty() {
+                            notes.push(format!(
+                                "transient with protective gaps conducting: {} gap(s) stay over \
+                                 their clamp because the conducting gaps around them already \
+                                 fix their voltage (a section gap over per-gap gaps)",
+                                step.over_in_loop.len()
+                            ));
+                        }
+                    }
+                    Ok(_) => {}
+                    Err(e) => {
+                        notes.push(format!("no transient with protective gaps conducting: {e}"))
+                    }
+                }
+            }
         }
         Err(e) => notes.push(format!("no transient: {e}")),
     }
@@ -1291,65 +1292,6 @@ fn rank(results: &mut [ScenarioResult]) {
     }
 }
 
-/// Electrode potentials just after a terminal-to-tank spark: electrodes tied to the terminal
-/// (any fraction of it) go to 0; grading-node electrodes float; the rest hold.
-pub fn transient_potentials(
-    model: &Model,
-    basis: &Basis,
-    before: &[f64],
-) -> Result<Vec<f64>, FaultError> {
-    let spec = |e: &Electrode| {
-        e.conductors
-            .first()
-            .map(|&k| model.conductors[k].potential.clone())
-    };
-    let floating: Vec<bool> = basis
-        .electrodes
-        .iter()
-        .map(|e| matches!(spec(e), Some(PotentialSpec::Grading { .. })))
-        .collect();
-    let mut sparked: Vec<bool> = basis
-        .electrodes
-        .iter()
-        .map(|e| matches!(spec(e), Some(PotentialSpec::Terminal { .. })))
-        .collect();
-    choose_sparked(&mut sparked, &floating, before)?;
-    let after_held: Vec<f64> = before
-        .iter()
-        .zip(&sparked)
-        .map(|(v, s)| if *s { 0.0 } else { *v })
-        .collect();
-    fast_step(&basis.capacitance.c_f, &floating, before, &after_held)
-}
-
-/// The electrodes a terminal-to-tank spark takes to earth: those tied to the terminal voltage
-/// as marked in `sparked`; when none is (a terminal fed as "stage:N" or given in volts), the
-/// held electrodes at the highest voltage.
-fn choose_sparked(
-    sparked: &mut [bool],
-    floating: &[bool],
-    before: &[f64],
-) -> Result<(), FaultError> {
-    if sparked.iter().any(|s| *s) {
-        return Ok(());
-    }
-    let top = before
-        .iter()
-        .zip(floating)
-        .filter(|(_, f)| !**f)
-        .map(|(v, _)| v.abs())
-        .fold(0.0, f64::max);
-    if top <= 0.0 {
-        return Err(FaultError::Transient(
-            "no conductor apart from the grading electrodes is off earth potential".to_string(),
-        ));
-    }
-    for ((s, v), f) in sparked.iter_mut().zip(before).zip(floating) {
-        *s = !*f && (v.abs() - top).abs() <= 1e-9 * top;
-    }
-    Ok(())
-}
-
 /// Node potentials of every column from conductor potentials: node 0 the `from` end, the
 /// electrodes in order, the last node the `to` end (the tank when an end is missing).
 pub fn column_nodes(model: &Model, conductor_v: &[f64]) -> Vec<Vec<f64>> {
@@ -1364,145 +1306,4 @@ pub fn column_nodes(model: &Model, conductor_v: &[f64]) -> Vec<Vec<f64>> {
             v
         })
         .collect()
-}
-
-/// The energy of a terminal-to-tank spark with the given sections shorted: the DC state with
-/// their resistors shorted (the resistive division, protective gaps idle: a gap that would
-/// fire at that voltage shows in the scenarios), then the fast collapse with the electrodes of
-/// each section tied together (one node; tied to the tank or the terminal when the section
-/// reaches an end).
-pub fn spark_energy_with(
-    model: &Model,
-    basis: &Basis,
-    stage_v: Option<&[f64]>,
-    networks: &[Network],
-    sections: &[Section],
-) -> Result<SparkEnergy, FaultError> {
-    let mut nets = networks.to_vec();
-    for n in &mut nets {
-        n.protective.clear();
-    }
-    for sec in sections {
-        let Some(n) = nets.get(sec.column) else {
-            return Err(FaultError::Transient(format!(
-                "shorted section names column {}, but the design has {} columns",
-                sec.column + 1,
-                nets.len()
-            )));
-        };
-        if sec.first_gap > sec.last_gap || sec.last_gap >= n.gaps() {
-            return Err(FaultError::Transient(format!(
-                "shorted section of column {}: gaps {} to {} are not within 1 to {}",
-                sec.column + 1,
-                sec.first_gap + 1,
-                sec.last_gap + 1,
-                n.gaps()
-            )));
-        }
-        let mut m = n.clone();
-        for g in sec.first_gap..=sec.last_gap {
-            for st in 0..m.strings() {
-                m = m.with_short(g, st)?;
-            }
-        }
-        nets[sec.column] = m;
-    }
-    let sols = solve_networks(model, stage_v, &nets)?;
-    let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
-    let pots = grading::potentials_with_nodes(model, stage_v, &node_v)?;
-    let before = basis.electrode_potentials(&pots);
-    let stored = basis.energy_j(&before);
-
-    // Groups of electrodes tied by the sections; `ground` marks groups tied to the tank.
-    let ne = basis.electrodes.len();
-    let mut parent: Vec<usize> = (0..=ne).collect(); // index ne = the tank
-    fn find(p: &mut [usize], mut i: usize) -> usize {
-        while p[i] != i {
-            p[i] = p[p[i]];
-            i = p[i];
-        }
-        i
-    }
-    for sec in sections {
-        let col = &model.columns[sec.column];
-        let node_electrode = |k: usize| -> usize {
-            let cond = if k == 0 {
-                col.from
-            } else if k == col.electrodes.len() + 1 {
-                col.to
-            } else {
-                col.electrodes.get(k - 1).copied()
-            };
-            cond.and_then(|c| basis.conductor_electrode.get(c).copied().flatten())
-                .unwrap_or(ne)
-        };
-        let first = node_electrode(sec.first_gap);
-        for k in sec.first_gap + 1..=sec.last_gap + 1 {
-            let (a, b) = (
-                find(&mut parent, first),
-                find(&mut parent, node_electrode(k)),
-            );
-            if a != b {
-                // Keep the tank as the root of its group.
-                if a == ne {
-                    parent[b] = a;
-                } else {
-                    parent[a] = b;
-                }
-            }
-        }
-    }
-    let roots: Vec<usize> = (0..ne).map(|i| find(&mut parent, i)).collect();
-    let tank_root = find(&mut parent, ne);
-    let mut groups: Vec<usize> = Vec::new();
-    let mut group_of = vec![None; ne];
-    for i in 0..ne {
-        if roots[i] == tank_root {
-            continue;
-        }
-        let g = match groups.iter().position(|&r| r == roots[i]) {
-            Some(g) => g,
-            None => {
-                groups.push(roots[i]);
-                groups.len() - 1
-            }
-        };
-        group_of[i] = Some(g);
-    }
-    let ng = groups.len();
-    let mut c = vec![vec![0.0; ng]; ng];
-    let mut v_before = vec![0.0; ng];
-    let mut floating = vec![true; ng];
-    let mut sparked = vec![false; ng];
-    for i in 0..ne {
-        let Some(gi) = group_of[i] else { continue };
-        v_before[gi] = before[i];
-        let spec = basis.electrodes[i]
-            .conductors
-            .first()
-            .map(|&k| &model.conductors[k].potential);
-        match spec {
-            Some(PotentialSpec::Grading { .. }) => {}
-            Some(PotentialSpec::Terminal { .. }) => {
-                floating[gi] = false;
-                sparked[gi] = true;
-            }
-            _ => floating[gi] = false,
-        }
-        for (j, gj) in group_of.iter().enumerate() {
-            if let Some(gj) = *gj {
-                c[gi][gj] += basis.capacitance.c_f[i][j];
-            }
-        }
-    }
-    choose_sparked(&mut sparked, &floating, &v_before)?;
-    let after_held: Vec<f64> = (0..ng)
-        .map(|g| if sparked[g] { 0.0 } else { v_before[g] })
-        .collect();
-    let after = fast_step(&c, &floating, &v_before, &after_held)?;
-    Ok(SparkEnergy {
-        shorted_sections: sections.to_vec(),
-        stored_j: stored,
-        released_fast_j: stored - quadratic(&c, &after),
-    })
 }

@@ -1,0 +1,539 @@
+//! The fast transient after a terminal-to-tank spark, from the capacitance matrix of the
+//! electrodes: the terminal collapses in nanoseconds, the grading resistors act over R·C
+//! (milliseconds), so the column electrodes float with their charges conserved.
+//!
+//! Three forms: the bare collapse (`fast_step`, C_FF ΔV_F = −C_FH ΔV_H); the collapse with
+//! the protective gaps that it drives past their firing band conducting and holding at the top
+//! of the band (`clamped_step`, charge moving between the electrodes a gap bridges); and the
+//! energy a spark releases, also with column sections shorted as during conditioning.
+
+use super::{Basis, FaultError, Section, SparkEnergy, quadratic, solve_networks};
+use crate::grading::{self, Network};
+use crate::model::{Model, PotentialSpec};
+
+/// Potentials of the electrodes just after some of them are stepped, with the others
+/// floating: `floating[e]` marks the electrodes whose charge is conserved; the held ones go to
+/// `after_held[e]`. From Q = C V: C_FF ΔV_F = −C_FH ΔV_H.
+pub fn fast_step(
+    c_f: &[Vec<f64>],
+    floating: &[bool],
+    before: &[f64],
+    after_held: &[f64],
+) -> Result<Vec<f64>, FaultError> {
+    let n = c_f.len();
+    if floating.len() != n || before.len() != n || after_held.len() != n {
+        return Err(FaultError::Transient(format!(
+            "{} electrodes in the capacitance matrix, but {} / {} / {} entries given",
+            n,
+            floating.len(),
+            before.len(),
+            after_held.len()
+        )));
+    }
+    let f: Vec<usize> = (0..n).filter(|&i| floating[i]).collect();
+    let mut after: Vec<f64> = (0..n)
+        .map(|i| {
+            if floating[i] {
+                before[i]
+            } else {
+                after_held[i]
+            }
+        })
+        .collect();
+    if f.is_empty() {
+        return Ok(after);
+    }
+    let m = f.len();
+    let a = nalgebra::DMatrix::from_fn(m, m, |i, j| c_f[f[i]][f[j]]);
+    let b = nalgebra::DVector::from_fn(m, |i, _| {
+        -(0..n)
+            .filter(|&h| !floating[h])
+            .map(|h| c_f[f[i]][h] * (after_held[h] - before[h]))
+            .sum::<f64>()
+    });
+    let dv = a.lu().solve(&b).ok_or_else(|| {
+        FaultError::Transient("the floating part of the capacitance matrix is singular".into())
+    })?;
+    for (i, &e) in f.iter().enumerate() {
+        after[e] = before[e] + dv[i];
+    }
+    Ok(after)
+}
+
+/// Electrode potentials just after a terminal-to-tank spark: electrodes tied to the terminal
+/// (any fraction of it) go to 0; grading-node electrodes float; the rest hold.
+pub fn transient_potentials(
+    model: &Model,
+    basis: &Basis,
+    before: &[f64],
+) -> Result<Vec<f64>, FaultError> {
+    let (floating, after_held) = spark_state(model, basis, before)?;
+    fast_step(&basis.capacitance.c_f, &floating, before, &after_held)
+}
+
+/// Which electrodes float through a terminal-to-tank spark (the grading-node electrodes)
+/// and where the held ones go (the sparked ones to 0, the rest stay).
+fn spark_state(
+    model: &Model,
+    basis: &Basis,
+    before: &[f64],
+) -> Result<(Vec<bool>, Vec<f64>), FaultError> {
+    let spec = |e: &crate::capacitance::Electrode| {
+        e.conductors
+            .first()
+            .map(|&k| model.conductors[k].potential.clone())
+    };
+    let floating: Vec<bool> = basis
+        .electrodes
+        .iter()
+        .map(|e| matches!(spec(e), Some(PotentialSpec::Grading { .. })))
+        .collect();
+    let mut sparked: Vec<bool> = basis
+        .electrodes
+        .iter()
+        .map(|e| matches!(spec(e), Some(PotentialSpec::Terminal { .. })))
+        .collect();
+    choose_sparked(&mut sparked, &floating, before)?;
+    let after_held: Vec<f64> = before
+        .iter()
+        .zip(&sparked)
+        .map(|(v, s)| if *s { 0.0 } else { *v })
+        .collect();
+    Ok((floating, after_held))
+}
+
+/// The electrode of node `k` of column `column` (0 = its `from` end, the electrodes in
+/// order, then its `to` end); None for an earthed end or the tank.
+pub fn node_electrode(model: &Model, basis: &Basis, column: usize, k: usize) -> Option<usize> {
+    let col = model.columns.get(column)?;
+    let cond = if k == 0 {
+        col.from
+    } else if k == col.electrodes.len() + 1 {
+        col.to
+    } else {
+        col.electrodes.get(k - 1).copied()
+    };
+    cond.and_then(|c| basis.conductor_electrode.get(c).copied().flatten())
+}
+
+/// A protective gap between two electrodes as the transient sees it: `a` and `b` its ends
+/// (None = earth), `clamp_v` the most it holds (the top of its firing band).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GapLink {
+    pub a: Option<usize>,
+    pub b: Option<usize>,
+    pub clamp_v: f64,
+}
+
+/// What `clamped_step` gives: the electrode potentials and the links left conducting.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ClampedStep {
+    pub potentials: Vec<f64>,
+    /// Indices into the links of those holding at their clamp voltage.
+    pub conducting: Vec<usize>,
+    /// Links over their clamp that would close a loop of conducting links (their voltage is
+    /// set by the others, e.g. a section gap over per-gap gaps that all conduct).
+    pub over_in_loop: Vec<usize>,
+    /// Active-set passes taken.
+    pub passes: usize,
+}
+
+/// The fast step of `fast_step` with protective gaps: a link whose voltage the step drives
+/// past its clamp conducts and holds there, V_b − V_a = ±clamp, and the charge it passes
+/// leaves one end and reaches the other, so the floating electrodes it joins conserve their
+/// charge together (an end held by the spark or the tank takes any charge). Solved as the
+/// bordered system [C_FF B; Bᵀ 0][V_F; p] = [Q_F − C_FH V_H; −d] (Lagrange multipliers p, the
+/// charges passed), with an active set: links over their clamp join, links whose charge
+/// would flow against their voltage leave, until neither happens. A link that would close a
+/// loop of conducting links does not join (its voltage is fixed by the others); it is listed
+/// in `over_in_loop` when it ends over its clamp.
+pub fn clamped_step(
+    c_f: &[Vec<f64>],
+    floating: &[bool],
+    before: &[f64],
+    after_held: &[f64],
+    links: &[GapLink],
+) -> Result<ClampedStep, FaultError> {
+    let n = c_f.len();
+    if let Some(l) = links
+        .iter()
+        .find(|l| l.a.is_some_and(|a| a >= n) || l.b.is_some_and(|b| b >= n))
+    {
+        return Err(FaultError::Transient(format!(
+            "a protective gap joins electrode {:?} and {:?}, but there are {n} electrodes",
+            l.a, l.b
+        )));
+    }
+    if let Some(l) = links
+        .iter()
+        .find(|l| !(l.clamp_v.is_finite() && l.clamp_v > 0.0))
+    {
+        return Err(FaultError::Transient(format!(
+            "a protective gap clamps at {} V; a positive voltage is needed",
+            l.clamp_v
+        )));
+    }
+    let mut v = fast_step(c_f, floating, before, after_held)?;
+    let voltage = |v: &[f64], l: &GapLink| l.b.map_or(0.0, |b| v[b]) - l.a.map_or(0.0, |a| v[a]);
+    // A link matters when one end floats; both ends held, the spark fixes its voltage.
+    let free = |l: &GapLink| l.a.is_some_and(|a| floating[a]) || l.b.is_some_and(|b| floating[b]);
+    let f: Vec<usize> = (0..n).filter(|&i| floating[i]).collect();
+    let mut row = vec![usize::MAX; n];
+    for (r, &i) in f.iter().enumerate() {
+        row[i] = r;
+    }
+    let charge_before: Vec<f64> = f
+        .iter()
+        .map(|&i| c_f[i].iter().zip(before).map(|(c, x)| c * x).sum())
+        .collect();
+    // Conducting links with the sign of the voltage they hold.
+    let mut active: Vec<(usize, f64)> = Vec::new();
+    let max_passes = 4 * links.len() + 4;
+    for pass in 1..=max_passes {
+        let mut changed = false;
+        // Links joining, largest overshoot first, without closing a loop.
+        let mut over: Vec<(usize, f64)> = links
+            .iter()
+            .enumerate()
+            .filter(|(k, l)| free(l) && !active.iter().any(|(a, _)| a == k))
+            .filter_map(|(k, l)| {
+                let u = voltage(&v, l);
+                (u.abs() > l.clamp_v * (1.0 + 1e-9)).then_some((k, u.abs() / l.clamp_v))
+            })
+            .collect();
+        over.sort_by(|x, y| y.1.total_cmp(&x.1).then(x.0.cmp(&y.0)));
+        let mut forest = Forest::new(n + 1);
+        let node = |e: Option<usize>| e.map_or(n, |e| if floating[e] { e } else { n });
+        for &(k, _) in &active {
+            forest.join(node(links[k].a), node(links[k].b));
+        }
+        for (k, _) in over {
+            let l = &links[k];
+            if forest.join(node(l.a), node(l.b)) {
+                active.push((k, voltage(&v, l).signum()));
+                changed = true;
+            }
+        }
+        if (pass > 1 && !changed) || active.is_empty() {
+            let over_in_loop = links
+                .iter()
+                .enumerate()
+                .filter(|(k, l)| {
+                    free(l)
+                        && !active.iter().any(|(a, _)| a == k)
+                        && voltage(&v, l).abs() > l.clamp_v * (1.0 + 1e-6)
+                })
+                .map(|(k, _)| k)
+                .collect();
+            return Ok(ClampedStep {
+                potentials: v,
+                conducting: sorted(&active),
+                over_in_loop,
+                passes: pass,
+            });
+        }
+        let (next, passed) = bordered(c_f, &f, &row, &charge_before, after_held, links, &active)?;
+        v = next;
+        // A link passes charge p from b to a: with V_b − V_a held positive the current
+        // runs b → a, so p must be positive then (and negative for a negative hold).
+        let before_len = active.len();
+        let keep: Vec<(usize, f64)> = active
+            .iter()
+            .zip(&passed)
+            .filter(|((_, s), p)| *s * **p >= 0.0)
+            .map(|(a, _)| *a)
+            .collect();
+        if keep.len() != before_len {
+            active = keep;
+            v = if active.is_empty() {
+                fast_step(c_f, floating, before, after_held)?
+            } else {
+                bordered(c_f, &f, &row, &charge_before, after_held, links, &active)?.0
+            };
+        }
+    }
+    Err(FaultError::Transient(format!(
+        "the protective gaps found no consistent set of conducting gaps in {max_passes} passes"
+    )))
+}
+
+fn sorted(active: &[(usize, f64)]) -> Vec<usize> {
+    let mut k: Vec<usize> = active.iter().map(|(k, _)| *k).collect();
+    k.sort_unstable();
+    k
+}
+
+/// Solves the bordered system of `clamped_step` for the conducting links `active`: the
+/// potentials of every electrode and the charge each link passes.
+fn bordered(
+    c_f: &[Vec<f64>],
+    f: &[usize],
+    row: &[usize],
+    charge_before: &[f64],
+    after_held: &[f64],
+    links: &[GapLink],
+    active: &[(usize, f64)],
+) -> Result<(Vec<f64>, Vec<f64>), FaultError> {
+    let n = c_f.len();
+    let m = f.len();
+    let k = active.len();
+    let floats = |e: Option<usize>| e.filter(|&e| row[e] != usize::MAX);
+    let held = |e: Option<usize>| match e {
+        Some(e) if row[e] == usize::MAX => after_held[e],
+        _ => 0.0,
+    };
+    let mut a = nalgebra::DMatrix::<f64>::zeros(m + k, m + k);
+    let mut rhs = nalgebra::DVector::<f64>::zeros(m + k);
+    for (r, &i) in f.iter().enumerate() {
+        for (c, &j) in f.iter().enumerate() {
+            a[(r, c)] = c_f[i][j];
+        }
+        rhs[r] = charge_before[r]
+            - (0..n)
+                .filter(|&h| row[h] == usize::MAX)
+                .map(|h| c_f[i][h] * after_held[h])
+                .sum::<f64>();
+    }
+    for (t, &(li, sign)) in active.iter().enumerate() {
+        let l = &links[li];
+        // Row of Bᵀ: V_a − V_b = −d over the floating ends, the held ends on the right.
+        if let Some(e) = floats(l.a) {
+            a[(row[e], m + t)] += 1.0;
+            a[(m + t, row[e])] += 1.0;
+        }
+        if let Some(e) = floats(l.b) {
+            a[(row[e], m + t)] -= 1.0;
+            a[(m + t, row[e])] -= 1.0;
+        }
+        rhs[m + t] = -sign * l.clamp_v - held(l.a) + held(l.b);
+    }
+    let x = a.lu().solve(&rhs).ok_or_else(|| {
+        FaultError::Transient(
+            "the capacitance matrix with the conducting protective gaps is singular".into(),
+        )
+    })?;
+    let mut v: Vec<f64> = after_held.to_vec();
+    for (r, &i) in f.iter().enumerate() {
+        v[i] = x[r];
+    }
+    // C_FF V_F + B p = Q: electrode a gains −p... sign it so p > 0 is charge reaching a.
+    let passed: Vec<f64> = (0..k).map(|t| -x[m + t]).collect();
+    Ok((v, passed))
+}
+
+/// Union–find over the electrodes and one node for everything held, to keep the conducting
+/// links free of loops.
+struct Forest(Vec<usize>);
+
+impl Forest {
+    fn new(n: usize) -> Forest {
+        Forest((0..n).collect())
+    }
+    fn find(&mut self, mut i: usize) -> usize {
+        while self.0[i] != i {
+            self.0[i] = self.0[self.0[i]];
+            i = self.0[i];
+        }
+        i
+    }
+    /// Joins the sets of `a` and `b`; false when they were one already.
+    fn join(&mut self, a: usize, b: usize) -> bool {
+        let (x, y) = (self.find(a), self.find(b));
+        if x == y {
+            return false;
+        }
+        self.0[x] = y;
+        true
+    }
+}
+
+/// The protective gaps of every column as links between electrodes, clamping at the top of
+/// their firing band.
+pub fn gap_links(model: &Model, basis: &Basis, networks: &[Network]) -> Vec<GapLink> {
+    networks
+        .iter()
+        .flat_map(|n| {
+            n.protective.iter().map(move |p| GapLink {
+                a: node_electrode(model, basis, n.column, p.from_node),
+                b: node_electrode(model, basis, n.column, p.to_node),
+                clamp_v: p.firing_v * (1.0 + p.band),
+            })
+        })
+        .collect()
+}
+
+/// Electrode potentials just after a terminal-to-tank spark with the protective gaps that the
+/// collapse drives past their band conducting (`clamped_step` on the design's gaps).
+pub fn clamped_transient_potentials(
+    model: &Model,
+    basis: &Basis,
+    networks: &[Network],
+    before: &[f64],
+) -> Result<ClampedStep, FaultError> {
+    let (floating, after_held) = spark_state(model, basis, before)?;
+    clamped_step(
+        &basis.capacitance.c_f,
+        &floating,
+        before,
+        &after_held,
+        &gap_links(model, basis, networks),
+    )
+}
+
+/// The electrodes a terminal-to-tank spark takes to earth: those tied to the terminal voltage
+/// as marked in `sparked`; when none is (a terminal fed as "stage:N" or given in volts), the
+/// held electrodes at the highest voltage.
+fn choose_sparked(
+    sparked: &mut [bool],
+    floating: &[bool],
+    before: &[f64],
+) -> Result<(), FaultError> {
+    if sparked.iter().any(|s| *s) {
+        return Ok(());
+    }
+    let top = before
+        .iter()
+        .zip(floating)
+        .filter(|(_, f)| !**f)
+        .map(|(v, _)| v.abs())
+        .fold(0.0, f64::max);
+    if top <= 0.0 {
+        return Err(FaultError::Transient(
+            "no conductor apart from the grading electrodes is off earth potential".to_string(),
+        ));
+    }
+    for ((s, v), f) in sparked.iter_mut().zip(before).zip(floating) {
+        *s = !*f && (v.abs() - top).abs() <= 1e-9 * top;
+    }
+    Ok(())
+}
+
+/// The energy of a terminal-to-tank spark with the given sections shorted: the DC state with
+/// their resistors shorted (the resistive division, protective gaps idle: a gap that would
+/// fire at that voltage shows in the scenarios), then the fast collapse with the electrodes of
+/// each section tied together (one node; tied to the tank or the terminal when the section
+/// reaches an end).
+pub fn spark_energy_with(
+    model: &Model,
+    basis: &Basis,
+    stage_v: Option<&[f64]>,
+    networks: &[Network],
+    sections: &[Section],
+) -> Result<SparkEnergy, FaultError> {
+    let mut nets = networks.to_vec();
+    for n in &mut nets {
+        n.protective.clear();
+    }
+    for sec in sections {
+        let Some(n) = nets.get(sec.column) else {
+            return Err(FaultError::Transient(format!(
+                "shorted section names column {}, but the design has {} columns",
+                sec.column + 1,
+                nets.len()
+            )));
+        };
+        if sec.first_gap > sec.last_gap || sec.last_gap >= n.gaps() {
+            return Err(FaultError::Transient(format!(
+                "shorted section of column {}: gaps {} to {} are not within 1 to {}",
+                sec.column + 1,
+                sec.first_gap + 1,
+                sec.last_gap + 1,
+                n.gaps()
+            )));
+        }
+        let mut m = n.clone();
+        for g in sec.first_gap..=sec.last_gap {
+            for st in 0..m.strings() {
+                m = m.with_short(g, st)?;
+            }
+        }
+        nets[sec.column] = m;
+    }
+    let sols = solve_networks(model, stage_v, &nets)?;
+    let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
+    let pots = grading::potentials_with_nodes(model, stage_v, &node_v)?;
+    let before = basis.electrode_potentials(&pots);
+    let stored = basis.energy_j(&before);
+
+    // Groups of electrodes tied by the sections; `ground` marks groups tied to the tank.
+    let ne = basis.electrodes.len();
+    let mut parent: Vec<usize> = (0..=ne).collect(); // index ne = the tank
+    fn find(p: &mut [usize], mut i: usize) -> usize {
+        while p[i] != i {
+            p[i] = p[p[i]];
+            i = p[i];
+        }
+        i
+    }
+    for sec in sections {
+        let node_electrode = |k: usize| node_electrode(model, basis, sec.column, k).unwrap_or(ne);
+        let first = node_electrode(sec.first_gap);
+        for k in sec.first_gap + 1..=sec.last_gap + 1 {
+            let (a, b) = (
+                find(&mut parent, first),
+                find(&mut parent, node_electrode(k)),
+            );
+            if a != b {
+                // Keep the tank as the root of its group.
+                if a == ne {
+                    parent[b] = a;
+                } else {
+                    parent[a] = b;
+                }
+            }
+        }
+    }
+    let roots: Vec<usize> = (0..ne).map(|i| find(&mut parent, i)).collect();
+    let tank_root = find(&mut parent, ne);
+    let mut groups: Vec<usize> = Vec::new();
+    let mut group_of = vec![None; ne];
+    for i in 0..ne {
+        if roots[i] == tank_root {
+            continue;
+        }
+        let g = match groups.iter().position(|&r| r == roots[i]) {
+            Some(g) => g,
+            None => {
+                groups.push(roots[i]);
+                groups.len() - 1
+            }
+        };
+        group_of[i] = Some(g);
+    }
+    let ng = groups.len();
+    let mut c = vec![vec![0.0; ng]; ng];
+    let mut v_before = vec![0.0; ng];
+    let mut floating = vec![true; ng];
+    let mut sparked = vec![false; ng];
+    for i in 0..ne {
+        let Some(gi) = group_of[i] else { continue };
+        v_before[gi] = before[i];
+        let spec = basis.electrodes[i]
+            .conductors
+            .first()
+            .map(|&k| &model.conductors[k].potential);
+        match spec {
+            Some(PotentialSpec::Grading { .. }) => {}
+            Some(PotentialSpec::Terminal { .. }) => {
+                floating[gi] = false;
+                sparked[gi] = true;
+            }
+            _ => floating[gi] = false,
+        }
+        for (j, gj) in group_of.iter().enumerate() {
+            if let Some(gj) = *gj {
+                c[gi][gj] += basis.capacitance.c_f[i][j];
+            }
+        }
+    }
+    choose_sparked(&mut sparked, &floating, &v_before)?;
+    let after_held: Vec<f64> = (0..ng)
+        .map(|g| if sparked[g] { 0.0 } else { v_before[g] })
+        .collect();
+    let after = fast_step(&c, &floating, &v_before, &after_held)?;
+    Ok(SparkEnergy {
+        shorted_sections: sections.to_vec(),
+        stored_j: stored,
+        released_fast_j: stored - quadratic(&c, &after),
+    })
+}
