@@ -59,6 +59,10 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
             &|_| {},
         )?)
     };
+    // The note's fault section fails the run as `holdoff faults` would.
+    let faults_failed = faults.as_ref().is_some_and(|f| {
+        !holdoff::report::faults::FaultVerdict::of(f, model.checks.design_factor).pass
+    });
     let mut note = markdown::render(&report, &listing, &text, faults.as_ref());
     if ext == "html" {
         let map = plot::field_map(&model, &run.fine).map_err(anyhow::Error::msg)?;
@@ -80,7 +84,7 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
         a.out.display(),
         report.margins.len()
     );
-    Ok(if failed {
+    Ok(if failed || faults_failed {
         ExitCode::from(1)
     } else {
         ExitCode::SUCCESS
