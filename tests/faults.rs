@@ -251,6 +251,16 @@ fn replay_is_repeatable_and_complete() {
     assert_eq!(count(Kind::Tolerance), 6);
     let mc = a.monte_carlo.as_ref().expect("draws");
     assert_eq!(mc.draws, 8);
+    // No draw loads a gap more than the tolerance worst case of a series divider (Ohm's law):
+    // one resistor at +t, the other N − 1 at −t, (1 + t)·N / ((1 + t) + (N − 1)(1 − t)).
+    let (t, n) = (0.01, 5.0);
+    let bound = (1.0 + t) * n / ((1.0 + t) + (n - 1.0) * (1.0 - t));
+    assert!(
+        mc.gap_ratio_max > 1.0 && mc.gap_ratio_max <= bound,
+        "{}",
+        mc.gap_ratio_max
+    );
+    assert!(mc.gap_ratio_mean <= mc.gap_ratio_max);
     // Ranked worst first.
     for w in a.scenarios.windows(2) {
         if let (Some(x), Some(y)) = (w[0].worst_margin, w[1].worst_margin) {

@@ -410,6 +410,10 @@ pub struct MonteCarlo {
     /// Draw (0-based) with the smallest worst margin.
     pub worst_draw: Option<usize>,
     pub max_gap_v: f64,
+    /// The most loaded gap of each draw against its nominal DC voltage (the draw's
+    /// `max_gap_ratio_to_nominal`): mean and largest over the draws.
+    pub gap_ratio_mean: f64,
+    pub gap_ratio_max: f64,
 }
 
 /// Energies of a terminal-to-tank spark, J.
@@ -1039,6 +1043,14 @@ pub fn replay(
             worst_margin_std: std,
             worst_draw,
             max_gap_v: mc_results.iter().fold(0.0, |a, r| a.max(r.max_gap_v)),
+            gap_ratio_mean: mc_results
+                .iter()
+                .map(|r| r.max_gap_ratio_to_nominal)
+                .sum::<f64>()
+                / draws as f64,
+            gap_ratio_max: mc_results
+                .iter()
+                .fold(0.0, |a, r| a.max(r.max_gap_ratio_to_nominal)),
         })
     } else {
         None

@@ -239,7 +239,8 @@ pub fn render(s: &FaultSection, details: usize) -> String {
         let _ = writeln!(
             out,
             "\nMonte Carlo: {} draws, seed {} ({}): worst margin min {}, mean {}, max {}, \
-             std {}; largest gap {:.2} kV",
+             std {}; largest gap {:.2} kV; the most loaded gap of a draw at {:.4} × its nominal \
+             on average, {:.4} × at most",
             mc.draws,
             mc.seed,
             mc.distribution,
@@ -248,7 +249,9 @@ pub fn render(s: &FaultSection, details: usize) -> String {
             opt(mc.worst_margin_max, 4),
             mc.worst_margin_std
                 .map_or_else(|| "-".to_string(), |x| format!("{x:.2e}")),
-            mc.max_gap_v / 1e3
+            mc.max_gap_v / 1e3,
+            mc.gap_ratio_mean,
+            mc.gap_ratio_max
         );
     }
     for l in &r.ladder_equivalents {

@@ -292,7 +292,7 @@ pub fn render(
         if let Some(mc) = &f.monte_carlo {
             let _ = writeln!(
                 o,
-                "\nMonte Carlo, {} draws (seed {}, {}): worst margin {} to {}, mean {}.",
+                "\nMonte Carlo, {} draws (seed {}, {}): worst margin {} to {}, mean {}; the most loaded gap of a draw at {:.4} × its nominal on average, {:.4} × at most.",
                 mc.draws,
                 mc.seed,
                 cell(&mc.distribution),
@@ -301,7 +301,9 @@ pub fn render(
                 mc.worst_margin_max
                     .map_or("-".into(), |m| format!("{m:.3}")),
                 mc.worst_margin_mean
-                    .map_or("-".into(), |m| format!("{m:.3}"))
+                    .map_or("-".into(), |m| format!("{m:.3}")),
+                mc.gap_ratio_mean,
+                mc.gap_ratio_max
             );
         }
         for l in &f.ladder_equivalents {
