@@ -585,3 +585,42 @@ fn a_terminal_in_volts_sparks_like_the_terminal() {
     }
     assert!(volts.notes.iter().any(|n| n.contains("highest voltage")));
 }
+
+/// `--rows N` lists the worst N scenarios and says how many more there are; `--rows all`
+/// lists every one (the small column: nominal, 5 open, 5 short, 5 tolerance worst cases, the
+/// worst of 4 draws and the transients).
+#[test]
+fn faults_table_lists_the_worst_rows() {
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let file = tmp.path().join("small.toml");
+    std::fs::write(&file, small_text()).expect("write design");
+    let run = |rows: &str| {
+        let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+            .args(["faults", file.to_str().expect("path"), "--samples", "4"])
+            .args(["--rows", rows])
+            .output()
+            .expect("runs");
+        assert!(out.status.code().is_some_and(|c| c < 2), "{out:?}");
+        String::from_utf8_lossy(&out.stdout).into_owned()
+    };
+    let ranked = |text: &str| {
+        text.lines()
+            .filter(|l| l.starts_with('│') && l.contains(" ┆ "))
+            .filter(|l| {
+                l.trim_start_matches('│')
+                    .trim()
+                    .starts_with(|c: char| c.is_ascii_digit())
+            })
+            .count()
+    };
+    let short = run("3");
+    assert_eq!(ranked(&short), 3);
+    let all = run("all");
+    let n = ranked(&all);
+    assert!(n >= 18, "{n}");
+    assert!(
+        short.contains(&format!("… and {} more scenario(s)", n - 3)),
+        "{short}"
+    );
+    assert!(!all.contains("more scenario(s)"));
+}

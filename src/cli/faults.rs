@@ -32,6 +32,25 @@ pub struct FaultsArgs {
     /// How many of the worst scenarios to show in detail.
     #[arg(long, value_name = "N", default_value_t = 3)]
     pub details: usize,
+    /// How many of the ranked scenarios the table lists, or `all`.
+    #[arg(long, value_name = "N|all", default_value = "40", value_parser = parse_rows)]
+    pub rows: Rows,
+}
+
+/// The table's length: a count, or every scenario.
+#[derive(Debug, Clone, Copy)]
+pub struct Rows(pub Option<usize>);
+
+fn parse_rows(text: &str) -> std::result::Result<Rows, String> {
+    if text.trim().eq_ignore_ascii_case("all") {
+        return Ok(Rows(None));
+    }
+    text.trim()
+        .parse::<usize>()
+        .ok()
+        .filter(|n| *n >= 1)
+        .map(|n| Rows(Some(n)))
+        .ok_or_else(|| format!("--rows {text:?}: expected a whole number of at least 1, or all"))
 }
 
 pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
@@ -102,7 +121,7 @@ pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
         write_atomic(Path::new(target), json.as_bytes())
             .with_context(|| format!("cannot write JSON {target}"))?;
     }
-    print!("{}", render(&section, args.details));
+    print!("{}", render(&section, args.details, args.rows.0));
     Ok(code)
 }
 

@@ -186,7 +186,8 @@ pub fn signed_percent(x: f64, digits: usize) -> String {
 }
 
 /// Renders the section for a terminal; `details` worst scenarios get their gap voltages.
-pub fn render(s: &FaultSection, details: usize) -> String {
+/// `rows` limits the ranked table to the worst so many scenarios (None: every one).
+pub fn render(s: &FaultSection, details: usize, rows: Option<usize>) -> String {
     let r = &s.replay;
     let mut out = String::new();
     let _ = writeln!(out, "{}", s.title);
@@ -216,7 +217,8 @@ pub fn render(s: &FaultSection, details: usize) -> String {
         "protective gap",
         "resistor kV, rating margin",
     ]);
-    for sc in &r.scenarios {
+    let shown = rows.unwrap_or(r.scenarios.len()).min(r.scenarios.len());
+    for sc in &r.scenarios[..shown] {
         t.add_row(vec![
             Cell::new(sc.rank).set_alignment(CellAlignment::Right),
             Cell::new(&sc.name),
@@ -234,6 +236,22 @@ pub fn render(s: &FaultSection, details: usize) -> String {
         ]);
     }
     let _ = writeln!(out, "{t}");
+    let rest = &r.scenarios[shown..];
+    if !rest.is_empty() {
+        let m: Vec<f64> = rest.iter().filter_map(|sc| sc.worst_margin).collect();
+        let range = match (
+            m.iter().copied().reduce(f64::min),
+            m.iter().copied().reduce(f64::max),
+        ) {
+            (Some(a), Some(b)) => format!(", worst margins {a:.3} to {b:.3}"),
+            _ => String::new(),
+        };
+        let _ = writeln!(
+            out,
+            "… and {} more scenario(s){range}; --rows all lists them, --json gives every one",
+            rest.len()
+        );
+    }
 
     if let Some(mc) = &r.monte_carlo {
         let _ = writeln!(
