@@ -20,11 +20,12 @@ use crate::grading::{self, GradingError, Network, NetworkError, NetworkSolution}
 use crate::margin::{self, MarginError};
 use crate::mesh::Mesh;
 use crate::model::{Model, PotentialSpec};
-use crate::solve::{Solution, SolveError, SolveInfo, Solver, SolverParams};
+use crate::solve::{SolveError, SolveInfo, Solver, SolverParams};
 use rayon::prelude::*;
 use serde::Serialize;
 use thiserror::Error;
 
+mod scenarios;
 mod transient;
 pub use transient::{
     ClampedStep, GapLink, clamped_step, clamped_transient_potentials, fast_step, gap_links,
@@ -567,32 +568,6 @@ impl Default for ReplayOptions {
     }
 }
 
-/// SplitMix64 (Steele, Lea and Flood 2014): a small, seedable, portable generator, so that a
-/// seed gives the same draws on every platform.
-struct SplitMix64(u64);
-
-impl SplitMix64 {
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    /// Uniform in [0, 1).
-    fn next_f64(&mut self) -> f64 {
-        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
-
-/// One scenario to evaluate: either modified networks (DC) or electrode potentials (transient).
-struct Case {
-    name: String,
-    kind: Kind,
-    resistor: Option<ResistorRef>,
-    networks: Vec<Network>,
-}
-
 /// Per-column DC solution of a set of networks.
 fn solve_networks(
     model: &Model,
@@ -775,226 +750,28 @@ pub fn replay(
     if model.columns.is_empty() {
         return Err(FaultError::NoColumns);
     }
-    let mut notes = Vec::new();
     let networks: Vec<Network> = (0..model.columns.len())
         .map(|c| Network::from_column(model, c))
         .collect::<Result<_, _>>()?;
-    for n in &networks {
-        if n.relative {
-            notes.push(format!(
-                "column '{}' gives no resistor value: equal resistors stand in, so the division \
-                 is right but no currents are reported",
-                n.name
-            ));
-        }
-        if !n.protective.is_empty() {
-            notes.push(format!(
-                "column '{}': protective gaps clamp at their firing voltage; a gap counts as \
-                 fired from the bottom of its ±{:.0} % band (common practice, no source)",
-                n.name,
-                100.0 * n.protective[0].band
-            ));
-        }
-    }
-    notes.extend(network_notes(model, &networks));
+    let mut notes = network_notes(model, &networks);
     let t_basis = std::time::Instant::now();
     let basis = Basis::build(model, mesh, params)?;
     let basis_seconds = t_basis.elapsed().as_secs_f64();
     let t_scenarios = std::time::Instant::now();
     progress(0);
 
-    // The scenarios.
-    let mut cases = vec![Case {
-        name: "nominal".to_string(),
-        kind: Kind::Nominal,
-        resistor: None,
-        networks: networks.clone(),
-    }];
-    let mut index = 0;
-    for (c, n) in networks.iter().enumerate() {
-        for g in 0..n.gaps() {
-            for s in 0..n.strings() {
-                let r = ResistorRef {
-                    index,
-                    column: c,
-                    gap: g,
-                    string: s,
-                };
-                index += 1;
-                let label = if n.strings() > 1 {
-                    format!("{} gap {} string {}", n.name, g + 1, s + 1)
-                } else {
-                    format!("{} gap {}", n.name, g + 1)
-                };
-                for (kind, word) in [(Kind::Open, "open"), (Kind::Short, "short")] {
-                    let mut changed = networks.clone();
-                    changed[c] = if kind == Kind::Open {
-                        n.with_open(g, s)?
-                    } else {
-                        n.with_short(g, s)?
-                    };
-                    cases.push(Case {
-                        name: format!("{word}: {label}"),
-                        kind,
-                        resistor: Some(r),
-                        networks: changed,
-                    });
-                }
-            }
-        }
-    }
-    // Tolerance worst case for each gap: its resistors high, the rest of its column low.
-    for (c, n) in networks.iter().enumerate() {
-        let tol = model.columns[c].tolerance.unwrap_or(0.0);
-        if tol <= 0.0 {
-            continue;
-        }
-        for g in 0..n.gaps() {
-            let factors: Vec<Vec<f64>> = (0..n.gaps())
-                .map(|k| vec![if k == g { 1.0 + tol } else { 1.0 - tol }; n.strings()])
-                .collect();
-            let mut t = networks.clone();
-            t[c] = n.scaled(&factors)?;
-            cases.push(Case {
-                name: format!("tolerance worst case: {} gap {} high", n.name, g + 1),
-                kind: Kind::Tolerance,
-                resistor: None,
-                networks: t,
-            });
-        }
-    }
-    let n_fixed = cases.len();
-    // Monte Carlo draws, uniform within ±tolerance, drawn in order from the seed.
-    let mut rng = SplitMix64(options.seed);
-    let any_tol = model
-        .columns
-        .iter()
-        .any(|c| c.tolerance.unwrap_or(0.0) > 0.0);
-    let draws = if any_tol { options.samples } else { 0 };
-    if options.samples > 0 && !any_tol {
-        notes.push("no column gives a resistor tolerance: no Monte Carlo draws".to_string());
-    }
-    for d in 0..draws {
-        let mut t = networks.clone();
-        for (c, n) in networks.iter().enumerate() {
-            let tol = model.columns[c].tolerance.unwrap_or(0.0);
-            let factors: Vec<Vec<f64>> = (0..n.gaps())
-                .map(|_| {
-                    (0..n.strings())
-                        .map(|_| 1.0 + tol * (2.0 * rng.next_f64() - 1.0))
-                        .collect()
-                })
-                .collect();
-            t[c] = n.scaled(&factors)?;
-        }
-        cases.push(Case {
-            name: format!("tolerance draw {}", d + 1),
-            kind: Kind::Tolerance,
-            resistor: None,
-            networks: t,
-        });
-    }
-
-    // The insulator sites are geometry: found once here, shared by every worker's copy.
-    let _ = mesh.insulator_sites(model, 0);
-    // A work analysis per worker thread, formed from the basis.
-    let template = Analysis {
-        mesh: mesh.clone(),
-        potentials: Vec::new(),
-        solution: Solution {
-            phi: Vec::new(),
-            info: basis.info.clone(),
-        },
-        samples: Vec::new(),
-        peaks: Vec::new(),
-        probes: Vec::new(),
-        energy_j: 0.0,
-    };
+    let set = scenarios::cases(model, &networks, options, &mut notes)?;
     let done = std::sync::atomic::AtomicUsize::new(0);
     let tick = || {
         let k = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
         progress(k);
     };
-    // The networks of every case (cheap), then the field checks once per distinct set of
-    // conductor potentials: with parallel strings, the same resistor failing in either string
-    // gives the same potentials, and is evaluated once.
-    type Prepared = (Vec<Vec<f64>>, Vec<Vec<f64>>, Vec<f64>);
-    let prepared: Vec<Prepared> = cases
-        .par_iter()
-        .map(|case| -> Result<Prepared, FaultError> {
-            let sols = solve_networks(model, stage_v, &case.networks)?;
-            let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
-            let gap_v: Vec<Vec<f64>> = sols.iter().map(|s| s.gap_v.clone()).collect();
-            let potentials = grading::potentials_with_nodes(model, stage_v, &node_v)?;
-            Ok((node_v, gap_v, potentials))
-        })
-        .collect::<Result<_, _>>()?;
-    let mut first_of: std::collections::HashMap<Vec<u64>, usize> = std::collections::HashMap::new();
-    let mut distinct: Vec<usize> = Vec::new();
-    let slot: Vec<usize> = prepared
-        .iter()
-        .enumerate()
-        .map(|(ci, p)| {
-            let key: Vec<u64> = p.2.iter().map(|v| v.to_bits()).collect();
-            *first_of.entry(key).or_insert_with(|| {
-                distinct.push(ci);
-                distinct.len() - 1
-            })
-        })
-        .collect();
-    // The nominal field (case 0), from which every scenario's sum starts.
-    let nominal_ev = basis.electrode_potentials(&prepared[0].2);
-    let nominal_phi = basis.field(&nominal_ev);
-    let worst: Vec<Worst> = distinct
-        .par_iter()
-        .map_init(
-            || Analysis {
-                mesh: template.mesh.clone(),
-                potentials: Vec::new(),
-                solution: template.solution.clone(),
-                samples: Vec::new(),
-                peaks: Vec::new(),
-                probes: Vec::new(),
-                energy_j: 0.0,
-            },
-            |work, &ci| -> Result<Worst, FaultError> {
-                let w = field_margins(
-                    model,
-                    &basis,
-                    work,
-                    prepared[ci].2.clone(),
-                    Some((&nominal_phi, &nominal_ev)),
-                )?;
-                tick();
-                Ok(w)
-            },
-        )
-        .collect::<Result<_, _>>()?;
-    let shared_evaluations = cases.len() - distinct.len();
-    // The repeats count as done.
-    for _ in distinct.len()..cases.len() {
-        tick();
-    }
-    let raw: Vec<Evaluated> = cases
-        .iter()
-        .zip(prepared)
-        .zip(&slot)
-        .map(|((case, (node_v, gap_v, _)), &k)| {
-            let (fired, gm) = fired_gaps(&case.networks, &node_v);
-            let resistors = resistor_check(model, &case.networks, &gap_v, true);
-            Evaluated {
-                gap_v,
-                fired,
-                gap_margin: gm,
-                worst: worst[k].clone(),
-                resistors,
-            }
-        })
-        .collect();
-
+    let (raw, shared_evaluations) =
+        scenarios::evaluate(model, mesh, &basis, stage_v, &set.cases, &tick)?;
     let nominal_gaps = raw[0].gap_v.clone();
     let nominal_worst = raw[0].worst.0;
-    let mut results: Vec<ScenarioResult> = cases
+    let mut results: Vec<ScenarioResult> = set
+        .cases
         .iter()
         .zip(raw)
         .map(|(case, e)| {
@@ -1008,161 +785,32 @@ pub fn replay(
             )
         })
         .collect();
+    let monte_carlo = scenarios::monte_carlo(&mut results, set.fixed, options.seed);
 
-    // Monte Carlo: summarise the draws and keep the worst one as a scenario.
-    let mc_results: Vec<ScenarioResult> = results.split_off(n_fixed);
-    let monte_carlo = if draws > 0 {
-        let m: Vec<f64> = mc_results.iter().filter_map(|r| r.worst_margin).collect();
-        let mean = (!m.is_empty()).then(|| m.iter().sum::<f64>() / m.len() as f64);
-        let std = mean.map(|mu| {
-            (m.iter().map(|x| (x - mu).powi(2)).sum::<f64>() / m.len().max(1) as f64).sqrt()
-        });
-        let worst_draw = mc_results
-            .iter()
-            .enumerate()
-            .filter_map(|(k, r)| r.worst_margin.map(|x| (k, x)))
-            .min_by(|a, b| a.1.total_cmp(&b.1))
-            .map(|(k, _)| k);
-        if let Some(k) = worst_draw {
-            let mut w = mc_results[k].clone();
-            w.name = format!(
-                "tolerance Monte Carlo: worst of {draws} draws (draw {})",
-                k + 1
-            );
-            results.push(w);
-        }
-        Some(MonteCarlo {
-            draws,
-            seed: options.seed,
-            distribution: "each resistor uniform within ±tolerance, independent \
-                           (common practice, no source)"
-                .to_string(),
-            worst_margin_min: m.iter().copied().reduce(f64::min),
-            worst_margin_mean: mean,
-            worst_margin_max: m.iter().copied().reduce(f64::max),
-            worst_margin_std: std,
-            worst_draw,
-            max_gap_v: mc_results.iter().fold(0.0, |a, r| a.max(r.max_gap_v)),
-            gap_ratio_mean: mc_results
-                .iter()
-                .map(|r| r.max_gap_ratio_to_nominal)
-                .sum::<f64>()
-                / draws as f64,
-            gap_ratio_max: mc_results
-                .iter()
-                .fold(0.0, |a, r| a.max(r.max_gap_ratio_to_nominal)),
-        })
-    } else {
-        None
-    };
-
-    // The fast transient after a terminal-to-tank spark.
     let nominal_pot = {
         let sols = solve_networks(model, stage_v, &networks)?;
         let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
         grading::potentials_with_nodes(model, stage_v, &node_v)?
     };
     let before = basis.electrode_potentials(&nominal_pot);
-    if !model
-        .conductors
-        .iter()
-        .any(|c| matches!(c.potential, PotentialSpec::Terminal { .. }))
-    {
-        notes.push(
-            "no conductor is tied to the terminal voltage (it is fed as \"stage:N\" or given in \
-             volts): the spark is taken from the conductor at the highest voltage"
-                .to_string(),
-        );
-    }
-    let mut spark_energy = None;
-    let mut spark_energy_conditioning = None;
-    match transient_potentials(model, &basis, &before) {
-        Ok(after) => {
-            spark_energy = Some(spark_energy_with(model, &basis, stage_v, &networks, &[])?);
-            if !options.shorted_sections.is_empty() {
-                spark_energy_conditioning = Some(spark_energy_with(
-                    model,
-                    &basis,
-                    stage_v,
-                    &networks,
-                    &options.shorted_sections,
-                )?);
-            }
-            let transient = |electrode_v: &[f64], work: &mut Analysis| -> Result<_, FaultError> {
-                let conductor_v = basis.conductor_potentials(electrode_v);
-                let node_v = column_nodes(model, &conductor_v);
-                let gap_v: Vec<Vec<f64>> = node_v
-                    .iter()
-                    .map(|v| v.windows(2).map(|w| w[1] - w[0]).collect())
-                    .collect();
-                let (fired, gm) = fired_gaps(&networks, &node_v);
-                let worst = field_margins(model, &basis, work, conductor_v, None)?;
-                let resistors = resistor_check(model, &networks, &gap_v, false);
-                Ok(Evaluated {
-                    gap_v,
-                    fired,
-                    gap_margin: gm,
-                    worst,
-                    resistors,
-                })
-            };
-            let mut work = template;
-            let bare = transient(&after, &mut work)?;
-            let any_fired = !bare.fired.is_empty();
-            results.push(ScenarioResult::assemble(
-                "transient: terminal-to-tank spark, just after".to_string(),
-                Kind::Transient,
-                None,
-                bare,
-                &nominal_gaps,
-                nominal_worst,
-            ));
-            notes.push(
-                "transient: potentials just after the terminal collapses, column electrodes \
-                 floating with their charges conserved, before any protective gap or resistor \
-                 acts; field criteria are the DC ones"
-                    .to_string(),
-            );
-            if any_fired {
-                match clamped_transient_potentials(model, &basis, &networks, &before) {
-                    Ok(step) if !step.conducting.is_empty() => {
-                        let mut sc = ScenarioResult::assemble(
-                            "transient: terminal-to-tank spark, protective gaps conducting"
-                                .to_string(),
-                            Kind::Transient,
-                            None,
-                            transient(&step.potentials, &mut work)?,
-                            &nominal_gaps,
-                            nominal_worst,
-                        );
-                        sc.protective_gaps_conducting = true;
-                        results.push(sc);
-                        notes.push(format!(
-                            "transient with protective gaps conducting: {} gap(s) that the \
-                             collapse drives past the top of their firing band conduct and hold \
-                             there (the most they let through; an arcing gap falls lower and \
-                             passes its share to its neighbours), the charge they pass moving \
-                             between the electrodes they bridge; resistors still idle",
-                            step.conducting.len()
-                        ));
-                        if !step.over_in_loop.is_empty() {
-                            notes.push(format!(
-                                "transient with protective gaps conducting: {} gap(s) stay over \
-                                 their clamp because the conducting gaps around them already \
-                                 fix their voltage (a section gap over per-gap gaps)",
-                                step.over_in_loop.len()
-                            ));
-                        }
-                    }
-                    Ok(_) => {}
-                    Err(e) => {
-                        notes.push(format!("no transient with protective gaps conducting: {e}"))
-                    }
-                }
-            }
-        }
-        Err(e) => notes.push(format!("no transient: {e}")),
-    }
+    let spark = transient::scenarios(
+        model,
+        &basis,
+        &networks,
+        &before,
+        &mut scenarios::work_analysis(mesh, &basis),
+        (&nominal_gaps, nominal_worst),
+    )?;
+    // A spark's energy, when anything can spark.
+    let (spark_energy, spark_energy_conditioning) = if spark.scenarios.is_empty() {
+        (None, None)
+    } else {
+        let (e, c) =
+            transient::energies(model, &basis, stage_v, &networks, &options.shorted_sections)?;
+        (Some(e), c)
+    };
+    results.extend(spark.scenarios);
+    notes.extend(spark.notes);
     progress(done.load(std::sync::atomic::Ordering::Relaxed) + 1);
 
     rank(&mut results);
@@ -1201,6 +849,23 @@ pub fn replay(
 /// What the replay assumes about leakage, ratings and node currents, per column.
 fn network_notes(model: &Model, networks: &[Network]) -> Vec<String> {
     let mut notes = Vec::new();
+    for n in networks {
+        if n.relative {
+            notes.push(format!(
+                "column '{}' gives no resistor value: equal resistors stand in, so the division \
+                 is right but no currents are reported",
+                n.name
+            ));
+        }
+        if !n.protective.is_empty() {
+            notes.push(format!(
+                "column '{}': protective gaps clamp at their firing voltage; a gap counts as \
+                 fired from the bottom of its ±{:.0} % band (common practice, no source)",
+                n.name,
+                100.0 * n.protective[0].band
+            ));
+        }
+    }
     for n in networks {
         let Some(col) = model.columns.get(n.column) else {
             continue;

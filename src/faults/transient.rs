@@ -7,7 +7,11 @@
 //! of the band (`clamped_step`, charge moving between the electrodes a gap bridges); and the
 //! energy a spark releases, also with column sections shorted as during conditioning.
 
-use super::{Basis, FaultError, Section, SparkEnergy, quadratic, solve_networks};
+use super::{
+    Basis, Evaluated, FaultError, Kind, ScenarioResult, Section, SparkEnergy, column_nodes,
+    field_margins, fired_gaps, quadratic, resistor_check, solve_networks,
+};
+use crate::analysis::Analysis;
 use crate::grading::{self, Network};
 use crate::model::{Model, PotentialSpec};
 
@@ -536,4 +540,157 @@ pub fn spark_energy_with(
         stored_j: stored,
         released_fast_j: stored - quadratic(&c, &after),
     })
+}
+
+/// The transient scenarios of a replay and what they assume.
+pub(super) struct Spark {
+    pub scenarios: Vec<ScenarioResult>,
+    pub notes: Vec<String>,
+}
+
+/// The fast transient after a terminal-to-tank spark from the nominal electrode potentials
+/// `before`: the bare collapse, and the collapse with the protective gaps it drives past their
+/// band conducting when any are. `nominal` is the nominal gap voltages and worst margin. No
+/// scenario (and a note) when nothing can spark.
+pub(super) fn scenarios(
+    model: &Model,
+    basis: &Basis,
+    networks: &[Network],
+    before: &[f64],
+    work: &mut Analysis,
+    nominal: (&[Vec<f64>], Option<f64>),
+) -> Result<Spark, FaultError> {
+    let mut out = Vec::new();
+    let mut notes = Vec::new();
+    if !model
+        .conductors
+        .iter()
+        .any(|c| matches!(c.potential, PotentialSpec::Terminal { .. }))
+    {
+        notes.push(
+            "no conductor is tied to the terminal voltage (it is fed as \"stage:N\" or given in \
+             volts): the spark is taken from the conductor at the highest voltage"
+                .to_string(),
+        );
+    }
+    let after = match transient_potentials(model, basis, before) {
+        Ok(after) => after,
+        Err(e) => {
+            notes.push(format!("no transient: {e}"));
+            return Ok(Spark {
+                scenarios: out,
+                notes,
+            });
+        }
+    };
+    let scenario = |name: &str, e: Evaluated| {
+        ScenarioResult::assemble(
+            name.to_string(),
+            Kind::Transient,
+            None,
+            e,
+            nominal.0,
+            nominal.1,
+        )
+    };
+    let bare = evaluate(model, basis, networks, &after, work)?;
+    let any_fired = !bare.fired.is_empty();
+    out.push(scenario(
+        "transient: terminal-to-tank spark, just after",
+        bare,
+    ));
+    notes.push(
+        "transient: potentials just after the terminal collapses, column electrodes floating \
+         with their charges conserved, before any protective gap or resistor acts; field \
+         criteria are the DC ones"
+            .to_string(),
+    );
+    if !any_fired {
+        return Ok(Spark {
+            scenarios: out,
+            notes,
+        });
+    }
+    match clamped_transient_potentials(model, basis, networks, before) {
+        Ok(step) if !step.conducting.is_empty() => {
+            let mut sc = scenario(
+                "transient: terminal-to-tank spark, protective gaps conducting",
+                evaluate(model, basis, networks, &step.potentials, work)?,
+            );
+            sc.protective_gaps_conducting = true;
+            out.push(sc);
+            notes.push(format!(
+                "transient with protective gaps conducting: {} gap(s) that the collapse drives \
+                 past the top of their firing band conduct and hold there (the most they let \
+                 through; an arcing gap falls lower and passes its share to its neighbours), the \
+                 charge they pass moving between the electrodes they bridge; resistors still idle",
+                step.conducting.len()
+            ));
+            if !step.over_in_loop.is_empty() {
+                notes.push(format!(
+                    "transient with protective gaps conducting: {} gap(s) stay over their clamp \
+                     because the conducting gaps around them already fix their voltage (a \
+                     section gap over per-gap gaps)",
+                    step.over_in_loop.len()
+                ));
+            }
+        }
+        Ok(_) => {}
+        Err(e) => notes.push(format!("no transient with protective gaps conducting: {e}")),
+    }
+    Ok(Spark {
+        scenarios: out,
+        notes,
+    })
+}
+
+/// Gap voltages, protective gaps, field margins and resistor stresses of electrode potentials
+/// just after a spark (no steady dissipation).
+fn evaluate(
+    model: &Model,
+    basis: &Basis,
+    networks: &[Network],
+    electrode_v: &[f64],
+    work: &mut Analysis,
+) -> Result<Evaluated, FaultError> {
+    let conductor_v = basis.conductor_potentials(electrode_v);
+    let node_v = column_nodes(model, &conductor_v);
+    let gap_v: Vec<Vec<f64>> = node_v
+        .iter()
+        .map(|v| v.windows(2).map(|w| w[1] - w[0]).collect())
+        .collect();
+    let (fired, gap_margin) = fired_gaps(networks, &node_v);
+    let worst = field_margins(model, basis, work, conductor_v, None)?;
+    let resistors = resistor_check(model, networks, &gap_v, false);
+    Ok(Evaluated {
+        gap_v,
+        fired,
+        gap_margin,
+        worst,
+        resistors,
+    })
+}
+
+/// The energy of a terminal-to-tank spark as designed and, when `shorted_sections` are
+/// given, with them shorted.
+pub(super) fn energies(
+    model: &Model,
+    basis: &Basis,
+    stage_v: Option<&[f64]>,
+    networks: &[Network],
+    shorted_sections: &[Section],
+) -> Result<(SparkEnergy, Option<SparkEnergy>), FaultError> {
+    let designed = spark_energy_with(model, basis, stage_v, networks, &[])?;
+    let conditioning = if shorted_sections.is_empty() {
+        None
+    } else {
+        Some(spark_energy_with(
+            model,
+            basis,
+            stage_v,
+            networks,
+            shorted_sections,
+        )?)
+    };
+    Ok((designed, conditioning))
 }

@@ -1,0 +1,303 @@
+//! The DC scenarios of a fault replay: which networks to solve (nominal, each resistor open
+//! and shorted, the tolerance worst cases and the seeded Monte Carlo draws), their field
+//! checks formed from the basis in parallel (identical potentials once), and the spread of
+//! the draws.
+
+use super::{
+    Basis, Evaluated, FaultError, Kind, MonteCarlo, ReplayOptions, ResistorRef, ScenarioResult,
+    Worst, field_margins, fired_gaps, resistor_check, solve_networks,
+};
+use crate::analysis::Analysis;
+use crate::grading::{self, Network};
+use crate::mesh::Mesh;
+use crate::model::Model;
+use crate::solve::Solution;
+use rayon::prelude::*;
+
+/// SplitMix64 (Steele, Lea and Flood 2014): a small, seedable, portable generator, so that a
+/// seed gives the same draws on every platform.
+struct SplitMix64(u64);
+
+impl SplitMix64 {
+    fn next_u64(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+    /// Uniform in [0, 1).
+    fn next_f64(&mut self) -> f64 {
+        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
+    }
+}
+
+/// One DC scenario to evaluate: the modified networks of every column.
+pub(super) struct Case {
+    pub name: String,
+    pub kind: Kind,
+    pub resistor: Option<ResistorRef>,
+    pub networks: Vec<Network>,
+}
+
+/// The scenarios of a replay: `cases[..fixed]` the fixed ones, the rest the Monte Carlo draws.
+pub(super) struct Cases {
+    pub cases: Vec<Case>,
+    pub fixed: usize,
+}
+
+/// Every DC scenario of the networks, in a fixed order (the draws from the seed in turn).
+pub(super) fn cases(
+    model: &Model,
+    networks: &[Network],
+    options: &ReplayOptions,
+    notes: &mut Vec<String>,
+) -> Result<Cases, FaultError> {
+    let mut cases = vec![Case {
+        name: "nominal".to_string(),
+        kind: Kind::Nominal,
+        resistor: None,
+        networks: networks.to_vec(),
+    }];
+    let mut index = 0;
+    for (c, n) in networks.iter().enumerate() {
+        for g in 0..n.gaps() {
+            for s in 0..n.strings() {
+                let r = ResistorRef {
+                    index,
+                    column: c,
+                    gap: g,
+                    string: s,
+                };
+                index += 1;
+                let label = if n.strings() > 1 {
+                    format!("{} gap {} string {}", n.name, g + 1, s + 1)
+                } else {
+                    format!("{} gap {}", n.name, g + 1)
+                };
+                for (kind, word) in [(Kind::Open, "open"), (Kind::Short, "short")] {
+                    let mut changed = networks.to_vec();
+                    changed[c] = if kind == Kind::Open {
+                        n.with_open(g, s)?
+                    } else {
+                        n.with_short(g, s)?
+                    };
+                    cases.push(Case {
+                        name: format!("{word}: {label}"),
+                        kind,
+                        resistor: Some(r),
+                        networks: changed,
+                    });
+                }
+            }
+        }
+    }
+    // Tolerance worst case for each gap: its resistors high, the rest of its column low.
+    for (c, n) in networks.iter().enumerate() {
+        let tol = model.columns[c].tolerance.unwrap_or(0.0);
+        if tol <= 0.0 {
+            continue;
+        }
+        for g in 0..n.gaps() {
+            let factors: Vec<Vec<f64>> = (0..n.gaps())
+                .map(|k| vec![if k == g { 1.0 + tol } else { 1.0 - tol }; n.strings()])
+                .collect();
+            let mut t = networks.to_vec();
+            t[c] = n.scaled(&factors)?;
+            cases.push(Case {
+                name: format!("tolerance worst case: {} gap {} high", n.name, g + 1),
+                kind: Kind::Tolerance,
+                resistor: None,
+                networks: t,
+            });
+        }
+    }
+    let fixed = cases.len();
+    // Monte Carlo draws, uniform within ±tolerance, drawn in order from the seed.
+    let mut rng = SplitMix64(options.seed);
+    let any_tol = model
+        .columns
+        .iter()
+        .any(|c| c.tolerance.unwrap_or(0.0) > 0.0);
+    let draws = if any_tol { options.samples } else { 0 };
+    if options.samples > 0 && !any_tol {
+        notes.push("no column gives a resistor tolerance: no Monte Carlo draws".to_string());
+    }
+    for d in 0..draws {
+        let mut t = networks.to_vec();
+        for (c, n) in networks.iter().enumerate() {
+            let tol = model.columns[c].tolerance.unwrap_or(0.0);
+            let factors: Vec<Vec<f64>> = (0..n.gaps())
+                .map(|_| {
+                    (0..n.strings())
+                        .map(|_| 1.0 + tol * (2.0 * rng.next_f64() - 1.0))
+                        .collect()
+                })
+                .collect();
+            t[c] = n.scaled(&factors)?;
+        }
+        cases.push(Case {
+            name: format!("tolerance draw {}", d + 1),
+            kind: Kind::Tolerance,
+            resistor: None,
+            networks: t,
+        });
+    }
+
+    Ok(Cases { cases, fixed })
+}
+
+/// A work analysis on `mesh` for one worker thread, its fields formed from the basis.
+pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
+    Analysis {
+        mesh: mesh.clone(),
+        potentials: Vec::new(),
+        solution: Solution {
+            phi: Vec::new(),
+            info: basis.info.clone(),
+        },
+        samples: Vec::new(),
+        peaks: Vec::new(),
+        probes: Vec::new(),
+        energy_j: 0.0,
+    }
+}
+
+/// The networks of every case (cheap), then the field checks once per distinct set of
+/// conductor potentials, in parallel; `tick` is called once per case. Also gives how many
+/// cases shared an identical one's evaluation.
+pub(super) fn evaluate(
+    model: &Model,
+    mesh: &Mesh,
+    basis: &Basis,
+    stage_v: Option<&[f64]>,
+    cases: &[Case],
+    tick: &(dyn Fn() + Sync),
+) -> Result<(Vec<Evaluated>, usize), FaultError> {
+    // The insulator sites are geometry: found once here, shared by every worker's copy.
+    let _ = mesh.insulator_sites(model, 0);
+    // The networks of every case (cheap), then the field checks once per distinct set of
+    // conductor potentials: with parallel strings, the same resistor failing in either string
+    // gives the same potentials, and is evaluated once.
+    type Prepared = (Vec<Vec<f64>>, Vec<Vec<f64>>, Vec<f64>);
+    let prepared: Vec<Prepared> = cases
+        .par_iter()
+        .map(|case| -> Result<Prepared, FaultError> {
+            let sols = solve_networks(model, stage_v, &case.networks)?;
+            let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
+            let gap_v: Vec<Vec<f64>> = sols.iter().map(|s| s.gap_v.clone()).collect();
+            let potentials = grading::potentials_with_nodes(model, stage_v, &node_v)?;
+            Ok((node_v, gap_v, potentials))
+        })
+        .collect::<Result<_, _>>()?;
+    let mut first_of: std::collections::HashMap<Vec<u64>, usize> = std::collections::HashMap::new();
+    let mut distinct: Vec<usize> = Vec::new();
+    let slot: Vec<usize> = prepared
+        .iter()
+        .enumerate()
+        .map(|(ci, p)| {
+            let key: Vec<u64> = p.2.iter().map(|v| v.to_bits()).collect();
+            *first_of.entry(key).or_insert_with(|| {
+                distinct.push(ci);
+                distinct.len() - 1
+            })
+        })
+        .collect();
+    // The nominal field (case 0), from which every scenario's sum starts.
+    let nominal_ev = basis.electrode_potentials(&prepared[0].2);
+    let nominal_phi = basis.field(&nominal_ev);
+    let worst: Vec<Worst> = distinct
+        .par_iter()
+        .map_init(
+            || work_analysis(mesh, basis),
+            |work, &ci| -> Result<Worst, FaultError> {
+                let w = field_margins(
+                    model,
+                    basis,
+                    work,
+                    prepared[ci].2.clone(),
+                    Some((&nominal_phi, &nominal_ev)),
+                )?;
+                tick();
+                Ok(w)
+            },
+        )
+        .collect::<Result<_, _>>()?;
+    let shared_evaluations = cases.len() - distinct.len();
+    // The repeats count as done.
+    for _ in distinct.len()..cases.len() {
+        tick();
+    }
+    let raw: Vec<Evaluated> = cases
+        .iter()
+        .zip(prepared)
+        .zip(&slot)
+        .map(|((case, (node_v, gap_v, _)), &k)| {
+            let (fired, gm) = fired_gaps(&case.networks, &node_v);
+            let resistors = resistor_check(model, &case.networks, &gap_v, true);
+            Evaluated {
+                gap_v,
+                fired,
+                gap_margin: gm,
+                worst: worst[k].clone(),
+                resistors,
+            }
+        })
+        .collect();
+
+    Ok((raw, shared_evaluations))
+}
+
+/// Summarises the draws (`results[fixed..]`, taken off) and keeps the worst one as a scenario.
+pub(super) fn monte_carlo(
+    results: &mut Vec<ScenarioResult>,
+    fixed: usize,
+    seed: u64,
+) -> Option<MonteCarlo> {
+    let mc_results: Vec<ScenarioResult> = results.split_off(fixed);
+    let draws = mc_results.len();
+    if draws > 0 {
+        let m: Vec<f64> = mc_results.iter().filter_map(|r| r.worst_margin).collect();
+        let mean = (!m.is_empty()).then(|| m.iter().sum::<f64>() / m.len() as f64);
+        let std = mean.map(|mu| {
+            (m.iter().map(|x| (x - mu).powi(2)).sum::<f64>() / m.len().max(1) as f64).sqrt()
+        });
+        let worst_draw = mc_results
+            .iter()
+            .enumerate()
+            .filter_map(|(k, r)| r.worst_margin.map(|x| (k, x)))
+            .min_by(|a, b| a.1.total_cmp(&b.1))
+            .map(|(k, _)| k);
+        if let Some(k) = worst_draw {
+            let mut w = mc_results[k].clone();
+            w.name = format!(
+                "tolerance Monte Carlo: worst of {draws} draws (draw {})",
+                k + 1
+            );
+            results.push(w);
+        }
+        Some(MonteCarlo {
+            draws,
+            seed,
+            distribution: "each resistor uniform within ±tolerance, independent \
+                           (common practice, no source)"
+                .to_string(),
+            worst_margin_min: m.iter().copied().reduce(f64::min),
+            worst_margin_mean: mean,
+            worst_margin_max: m.iter().copied().reduce(f64::max),
+            worst_margin_std: std,
+            worst_draw,
+            max_gap_v: mc_results.iter().fold(0.0, |a, r| a.max(r.max_gap_v)),
+            gap_ratio_mean: mc_results
+                .iter()
+                .map(|r| r.max_gap_ratio_to_nominal)
+                .sum::<f64>()
+                / draws as f64,
+            gap_ratio_max: mc_results
+                .iter()
+                .fold(0.0, |a, r| a.max(r.max_gap_ratio_to_nominal)),
+        })
+    } else {
+        None
+    }
+}
