@@ -130,6 +130,38 @@ fn a_conducting_gap_holds_its_clamp_and_shares_the_charge() {
     assert_eq!(step.potentials[2], 0.0);
 }
 
+/// The capacitance a spark across one gap sees, with the other electrodes floating: in a
+/// series chain of N equal capacitors C between two held ends, the gap's own C in parallel
+/// with the other N − 1 in series through the held ends, C·N/(N − 1) (capacitors in series and
+/// in parallel: Hayt, Kemmerly and Durbin, Engineering Circuit Analysis, the chapter on
+/// capacitors and inductors; recalled from memory), within 1e-12 relative, for an inner gap
+/// and an end gap.
+#[test]
+fn transfer_capacitance_of_a_series_chain() {
+    use holdoff::faults::transfer_capacitance;
+    let n = 8;
+    let cs = 25e-12;
+    // Electrodes: the N − 1 inner nodes; both ends of the chain are held.
+    let m = n - 1;
+    let c = nalgebra::DMatrix::from_fn(m, m, |i, j| {
+        if i == j {
+            2.0 * cs
+        } else if i.abs_diff(j) == 1 {
+            -cs
+        } else {
+            0.0
+        }
+    });
+    let lu = c.lu();
+    let row: Vec<Option<usize>> = (0..m).map(Some).collect();
+    let exact = cs * n as f64 / (n as f64 - 1.0);
+    let inner = transfer_capacitance(&lu, &row, Some(2), Some(3)).expect("floats");
+    assert!((inner - exact).abs() <= 1e-12 * exact, "{inner} vs {exact}");
+    let end = transfer_capacitance(&lu, &row, None, Some(0)).expect("floats");
+    assert!((end - exact).abs() <= 1e-12 * exact, "{end} vs {exact}");
+    assert_eq!(transfer_capacitance(&lu, &row, None, None), None);
+}
+
 /// The hyperbolic chain of REFERENCES.md §9 with a protective gap across every gap: the
 /// collapse fires a run of gaps from the terminal end (the largest voltages of the
 /// sinh(αx)/sinh(α) distribution), each conducting gap holds exactly its clamp, no gap is left
@@ -277,6 +309,16 @@ fn replay_is_repeatable_and_complete() {
     assert!(open.protective_gap_fired);
     let g = open.resistor.expect("resistor").gap;
     assert!((open.gap_voltages_v[0][g] - 60e3).abs() < 1.0);
+    // The gap then fires over and over, passing the chain current (200 − 60) kV / 4 GOhm =
+    // 35 uA on average (Ohm's law); each spark dumps at most ½·C·V_f², and the mean power is
+    // ½·I·V_f.
+    let rep = open.repetitive_firing.first().expect("repetitive firing");
+    assert_eq!(open.repetitive_firing.len(), 1);
+    assert!((rep.current_a - 35e-6).abs() < 1e-10, "{}", rep.current_a);
+    assert!(rep.capacitance_f > 0.0);
+    assert!((rep.energy_per_spark_j - 0.5 * rep.capacitance_f * 60e3 * 60e3).abs() < 1e-12);
+    assert!((rep.power_w - 0.5 * 35e-6 * 60e3).abs() < 1e-6);
+    assert!((rep.rate_hz * rep.capacitance_f * 60e3 - rep.current_a).abs() < 1e-12);
     // The transient reverses the gap next to the terminal (the floating electrodes keep
     // their potential while the terminal falls to 0).
     let tr = a

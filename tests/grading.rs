@@ -104,6 +104,18 @@ fn protective_gap_clamps_an_open_resistor() {
     assert_eq!(s.fired.iter().filter(|f| **f).count(), 1);
     assert!(rel(s.gap_v[3], 15e3) < 1e-5, "{}", s.gap_v[3]);
     assert!(rel(s.gap_v[0], 85e3 / 9.0) < 1e-5, "{}", s.gap_v[0]);
+    // The fired gap carries the whole chain current, (V − V_f)/((N − 1)·R) (Ohm's and
+    // Kirchhoff's current law); the idle ones none.
+    let chain = 85e3 / (9.0 * 1e9);
+    assert!(
+        rel(s.protective_current_a[3], chain) < 1e-5,
+        "{}",
+        s.protective_current_a[3]
+    );
+    assert_eq!(
+        s.protective_current_a.iter().filter(|i| **i != 0.0).count(),
+        1
+    );
 }
 
 /// A section gap across several gaps clamps their sum; current drawn at a node (beam or

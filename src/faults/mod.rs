@@ -25,8 +25,10 @@ use rayon::prelude::*;
 use serde::Serialize;
 use thiserror::Error;
 
+mod firing;
 mod scenarios;
 mod transient;
+pub use firing::{RepetitiveFiring, transfer_capacitance};
 pub use transient::{
     ClampedStep, GapLink, clamped_step, clamped_transient_potentials, fast_step, gap_links,
     node_electrode, spark_energy_with, transient_potentials,
@@ -328,6 +330,8 @@ pub struct ScenarioResult {
     /// True when a resistor's voltage (after any protective gap clamps, for the transient) or
     /// its dissipation exceeds its rating.
     pub resistor_rating_exceeded: bool,
+    /// Protective gaps that hold a DC fault and so fire over and over (DC scenarios only).
+    pub repetitive_firing: Vec<RepetitiveFiring>,
     /// True for the transient with the protective gaps conducting (`clamped_step`); false for
     /// every other scenario, the bare transient included.
     pub protective_gaps_conducting: bool,
@@ -359,6 +363,7 @@ struct Evaluated {
     gap_margin: Option<f64>,
     worst: Worst,
     resistors: (ResistorCheck, bool),
+    repetitive: Vec<RepetitiveFiring>,
 }
 
 impl ScenarioResult {
@@ -391,6 +396,7 @@ impl ScenarioResult {
             protective_gap_margin: e.gap_margin,
             resistors: e.resistors.0,
             resistor_rating_exceeded: e.resistors.1,
+            repetitive_firing: e.repetitive,
             protective_gaps_conducting: false,
         }
     }
@@ -766,8 +772,16 @@ pub fn replay(
         let k = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
         progress(k);
     };
-    let (raw, shared_evaluations) =
-        scenarios::evaluate(model, mesh, &basis, stage_v, &set.cases, &tick)?;
+    let gap_capacitance = firing::gap_capacitances(model, &basis, &networks);
+    let (raw, shared_evaluations) = scenarios::evaluate(
+        model,
+        mesh,
+        &basis,
+        stage_v,
+        &set.cases,
+        &gap_capacitance,
+        &tick,
+    )?;
     let nominal_gaps = raw[0].gap_v.clone();
     let nominal_worst = raw[0].worst.0;
     let mut results: Vec<ScenarioResult> = set

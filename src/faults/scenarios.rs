@@ -5,10 +5,10 @@
 
 use super::{
     Basis, Evaluated, FaultError, Kind, MonteCarlo, ReplayOptions, ResistorRef, ScenarioResult,
-    Worst, field_margins, fired_gaps, resistor_check, solve_networks,
+    Worst, field_margins, fired_gaps, firing, resistor_check, solve_networks,
 };
 use crate::analysis::Analysis;
-use crate::grading::{self, Network};
+use crate::grading::{self, Network, NetworkSolution};
 use crate::mesh::Mesh;
 use crate::model::Model;
 use crate::solve::Solution;
@@ -164,7 +164,8 @@ pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
 }
 
 /// The networks of every case (cheap), then the field checks once per distinct set of
-/// conductor potentials, in parallel; `tick` is called once per case. Also gives how many
+/// conductor potentials, in parallel; `tick` is called once per case. `gap_capacitance` is
+/// the capacitance across each protective gap (`firing::gap_capacitances`). Also gives how many
 /// cases shared an identical one's evaluation.
 pub(super) fn evaluate(
     model: &Model,
@@ -172,6 +173,7 @@ pub(super) fn evaluate(
     basis: &Basis,
     stage_v: Option<&[f64]>,
     cases: &[Case],
+    gap_capacitance: &[Vec<Option<f64>>],
     tick: &(dyn Fn() + Sync),
 ) -> Result<(Vec<Evaluated>, usize), FaultError> {
     // The insulator sites are geometry: found once here, shared by every worker's copy.
@@ -179,15 +181,14 @@ pub(super) fn evaluate(
     // The networks of every case (cheap), then the field checks once per distinct set of
     // conductor potentials: with parallel strings, the same resistor failing in either string
     // gives the same potentials, and is evaluated once.
-    type Prepared = (Vec<Vec<f64>>, Vec<Vec<f64>>, Vec<f64>);
+    type Prepared = (Vec<NetworkSolution>, Vec<f64>);
     let prepared: Vec<Prepared> = cases
         .par_iter()
         .map(|case| -> Result<Prepared, FaultError> {
             let sols = solve_networks(model, stage_v, &case.networks)?;
             let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
-            let gap_v: Vec<Vec<f64>> = sols.iter().map(|s| s.gap_v.clone()).collect();
             let potentials = grading::potentials_with_nodes(model, stage_v, &node_v)?;
-            Ok((node_v, gap_v, potentials))
+            Ok((sols, potentials))
         })
         .collect::<Result<_, _>>()?;
     let mut first_of: std::collections::HashMap<Vec<u64>, usize> = std::collections::HashMap::new();
@@ -196,7 +197,7 @@ pub(super) fn evaluate(
         .iter()
         .enumerate()
         .map(|(ci, p)| {
-            let key: Vec<u64> = p.2.iter().map(|v| v.to_bits()).collect();
+            let key: Vec<u64> = p.1.iter().map(|v| v.to_bits()).collect();
             *first_of.entry(key).or_insert_with(|| {
                 distinct.push(ci);
                 distinct.len() - 1
@@ -204,7 +205,7 @@ pub(super) fn evaluate(
         })
         .collect();
     // The nominal field (case 0), from which every scenario's sum starts.
-    let nominal_ev = basis.electrode_potentials(&prepared[0].2);
+    let nominal_ev = basis.electrode_potentials(&prepared[0].1);
     let nominal_phi = basis.field(&nominal_ev);
     let worst: Vec<Worst> = distinct
         .par_iter()
@@ -215,7 +216,7 @@ pub(super) fn evaluate(
                     model,
                     basis,
                     work,
-                    prepared[ci].2.clone(),
+                    prepared[ci].1.clone(),
                     Some((&nominal_phi, &nominal_ev)),
                 )?;
                 tick();
@@ -232,7 +233,9 @@ pub(super) fn evaluate(
         .iter()
         .zip(prepared)
         .zip(&slot)
-        .map(|((case, (node_v, gap_v, _)), &k)| {
+        .map(|((case, (sols, _)), &k)| {
+            let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
+            let gap_v: Vec<Vec<f64>> = sols.iter().map(|s| s.gap_v.clone()).collect();
             let (fired, gm) = fired_gaps(&case.networks, &node_v);
             let resistors = resistor_check(model, &case.networks, &gap_v, true);
             Evaluated {
@@ -241,6 +244,7 @@ pub(super) fn evaluate(
                 gap_margin: gm,
                 worst: worst[k].clone(),
                 resistors,
+                repetitive: firing::repetitive_firing(&case.networks, &sols, gap_capacitance),
             }
         })
         .collect();

@@ -87,11 +87,7 @@ fn spark_state(
             .first()
             .map(|&k| model.conductors[k].potential.clone())
     };
-    let floating: Vec<bool> = basis
-        .electrodes
-        .iter()
-        .map(|e| matches!(spec(e), Some(PotentialSpec::Grading { .. })))
-        .collect();
+    let floating = floating_electrodes(model, basis);
     let mut sparked: Vec<bool> = basis
         .electrodes
         .iter()
@@ -104,6 +100,20 @@ fn spark_state(
         .map(|(v, s)| if *s { 0.0 } else { *v })
         .collect();
     Ok((floating, after_held))
+}
+
+/// The electrodes that float through a fast event: those of the grading nodes (their
+/// resistors act over R·C, milliseconds).
+pub fn floating_electrodes(model: &Model, basis: &Basis) -> Vec<bool> {
+    basis
+        .electrodes
+        .iter()
+        .map(|e| {
+            e.conductors.first().is_some_and(|&k| {
+                matches!(model.conductors[k].potential, PotentialSpec::Grading { .. })
+            })
+        })
+        .collect()
 }
 
 /// The electrode of node `k` of column `column` (0 = its `from` end, the electrodes in
@@ -668,6 +678,7 @@ fn evaluate(
         gap_margin,
         worst,
         resistors,
+        repetitive: Vec::new(),
     })
 }
 

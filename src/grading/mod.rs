@@ -241,6 +241,9 @@ pub struct NetworkSolution {
     pub fired: Vec<bool>,
     /// Current through each resistor, A: `[gap][string]`, positive from node g+1 to node g.
     pub resistor_current_a: Vec<Vec<f64>>,
+    /// Mean current through each protective gap, A (0 when idle), positive from its upper
+    /// node to its lower: a clamped gap passes it as a train of sparks.
+    pub protective_current_a: Vec<f64>,
     /// Clamp iterations (active-set passes).
     pub iterations: usize,
 }
@@ -510,7 +513,7 @@ impl Network {
         let mut active: Vec<Option<f64>> = vec![None; self.protective.len()];
         let max_iter = 4 * self.protective.len() + 8;
         let mut iterations = 0;
-        let node_v = loop {
+        let (node_v, active) = loop {
             iterations += 1;
             let v = self.solve_linear(&g_gap, g_floor, g_clamp, &active, v_from, v_to)?;
             let mut changed = false;
@@ -529,9 +532,20 @@ impl Network {
                 }
             }
             if !changed || iterations >= max_iter {
-                break v;
+                break (v, active);
             }
         };
+        // The clamp branch carries g_clamp (v_to − v_from − s·V_f).
+        let protective_current_a = self
+            .protective
+            .iter()
+            .zip(&active)
+            .map(|(p, a)| {
+                a.map_or(0.0, |s| {
+                    g_clamp * (node_v[p.to_node] - node_v[p.from_node] - s * p.firing_v)
+                })
+            })
+            .collect();
         let gap_v: Vec<f64> = (0..gaps).map(|g| node_v[g + 1] - node_v[g]).collect();
         let resistor_current_a = self
             .resistors_ohm
@@ -544,6 +558,7 @@ impl Network {
             gap_v,
             fired: active.iter().map(Option::is_some).collect(),
             resistor_current_a,
+            protective_current_a,
             iterations,
         })
     }

@@ -150,6 +150,43 @@ pub fn transient_line(r: &crate::faults::FaultReplay) -> Option<String> {
     ))
 }
 
+/// A gap's repetitive firing in words.
+fn repetition(r: &crate::faults::RepetitiveFiring) -> String {
+    format!(
+        "fires over and over on {:.1} µA: at least {:.1} sparks/s of at most {:.1} mJ \
+         ({:.1} pF across it), at least {:.2} W",
+        r.current_a * 1e6,
+        r.rate_hz,
+        r.energy_per_spark_j * 1e3,
+        r.capacitance_f * 1e12,
+        r.power_w
+    )
+}
+
+/// The DC scenarios in which a protective gap holds the fault and fires over and over, with
+/// the most energetic spark among them.
+pub fn repetition_line(r: &crate::faults::FaultReplay) -> Option<String> {
+    let with: Vec<&ScenarioResult> = r
+        .scenarios
+        .iter()
+        .filter(|s| !s.repetitive_firing.is_empty())
+        .collect();
+    let (sc, worst) = with
+        .iter()
+        .flat_map(|s| s.repetitive_firing.iter().map(move |f| (*s, f)))
+        .max_by(|a, b| a.1.energy_per_spark_j.total_cmp(&b.1.energy_per_spark_j))?;
+    Some(format!(
+        "Repetitive firing: in {} DC scenario(s) a protective gap holds the fault; the most \
+         energetic, {} (column {} nodes {}–{}), {} (the spark taken to quench at 0 V)",
+        with.len(),
+        sc.name,
+        worst.column + 1,
+        worst.from_node,
+        worst.to_node,
+        repetition(worst)
+    ))
+}
+
 /// One column as the uniform capacitive ladder of the hand estimates.
 pub fn ladder_line(l: &crate::faults::LadderEquivalent) -> String {
     format!(
@@ -286,6 +323,9 @@ pub fn render(s: &FaultSection, details: usize, rows: Option<usize>) -> String {
     if let Some(l) = transient_line(r) {
         let _ = writeln!(out, "{l}");
     }
+    if let Some(l) = repetition_line(r) {
+        let _ = writeln!(out, "{l}");
+    }
 
     if let Some(e) = &r.spark_energy_conditioning {
         let list: Vec<String> = e
@@ -406,9 +446,14 @@ fn detail(out: &mut String, sc: &ScenarioResult) {
         }
     );
     for f in &sc.fired_gaps {
+        let repeats = sc
+            .repetitive_firing
+            .iter()
+            .find(|r| (r.column, r.from_node, r.to_node) == (f.column, f.from_node, f.to_node))
+            .map_or_else(String::new, |r| format!("; {}", repetition(r)));
         let _ = writeln!(
             out,
-            "   protective gap column {} nodes {}–{} at {:.1} kV (firing {:.1} kV)",
+            "   protective gap column {} nodes {}–{} at {:.1} kV (firing {:.1} kV){repeats}",
             f.column + 1,
             f.from_node,
             f.to_node,

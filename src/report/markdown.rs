@@ -286,7 +286,13 @@ pub fn render(
                     .map_or("- (no rating given)".into(), |m| format!("{m:.2}"))
             );
         }
-        if let Some(l) = crate::report::faults::transient_line(f) {
+        for l in [
+            crate::report::faults::transient_line(f),
+            crate::report::faults::repetition_line(f),
+        ]
+        .into_iter()
+        .flatten()
+        {
             let _ = writeln!(o, "\n{}.", cell(&l));
         }
         if let Some(mc) = &f.monte_carlo {

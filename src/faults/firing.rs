@@ -1,0 +1,125 @@
+//! Repetitive firing of a protective gap that holds a DC fault, such as an open resistor under
+//! it: the column current charges the capacitance across the gap to its firing voltage, the
+//! gap sparks and discharges it, and the cycle repeats (a failed resistor under a gap shows as
+//! repetitive sparking, not as a clean open).
+//!
+//! The capacitance across the gap is the one a spark sees, nanoseconds long: the other column
+//! electrodes float with their charges conserved, the terminal and the tank hold. From the
+//! Maxwell matrix, C = q / (ΔV_b − ΔV_a) for a charge q moved from end a to end b. The spark is
+//! taken to quench at 0 V, so the energy of one spark, ½·C·V_f², is an upper bound, and the
+//! rate I/(C·V_f) and the mean power ½·I·V_f lower bounds; an arc floor V_min gives
+//! ½·C·(V_f² − V_min²), I/(C·(V_f − V_min)) and ½·I·(V_f + V_min) (the power at most I·V_f).
+
+use super::{Basis, node_electrode};
+use crate::grading::{Network, NetworkSolution};
+use crate::model::Model;
+use serde::Serialize;
+
+/// A protective gap firing over and over in a DC scenario.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RepetitiveFiring {
+    pub column: usize,
+    pub from_node: usize,
+    pub to_node: usize,
+    /// Mean current the gap passes, A.
+    pub current_a: f64,
+    /// Capacitance across the gap with the other column electrodes floating, F.
+    pub capacitance_f: f64,
+    /// Energy of one spark, ½·C·V_f² (upper bound), J.
+    pub energy_per_spark_j: f64,
+    /// Sparks per second, I/(C·V_f) (lower bound), Hz.
+    pub rate_hz: f64,
+    /// Mean power in the sparks, ½·I·V_f (lower bound), W.
+    pub power_w: f64,
+}
+
+/// Capacitance across electrodes `a` and `b` (None = earth) just after a fast charge
+/// transfer between them, the electrodes marked `floating` keeping their charges and the rest
+/// holding: C = q/(ΔV_b − ΔV_a) with ΔV_F = C_FF⁻¹·Δq. None when neither end floats.
+pub fn transfer_capacitance(
+    c_ff: &nalgebra::LU<f64, nalgebra::Dyn, nalgebra::Dyn>,
+    row: &[Option<usize>],
+    a: Option<usize>,
+    b: Option<usize>,
+) -> Option<f64> {
+    let (ra, rb) = (a.and_then(|e| row[e]), b.and_then(|e| row[e]));
+    if ra.is_none() && rb.is_none() {
+        return None;
+    }
+    let m = row.iter().flatten().count();
+    let mut q = nalgebra::DVector::<f64>::zeros(m);
+    if let Some(r) = ra {
+        q[r] -= 1.0;
+    }
+    if let Some(r) = rb {
+        q[r] += 1.0;
+    }
+    let dv = c_ff.solve(&q)?;
+    let at = |r: Option<usize>| r.map_or(0.0, |r| dv[r]);
+    let c = 1.0 / (at(rb) - at(ra));
+    (c.is_finite() && c > 0.0).then_some(c)
+}
+
+/// The capacitance across every protective gap of every column (`[network][gap]`), formed
+/// once per replay: the Maxwell matrix does not change between DC scenarios. None where
+/// neither end floats or the matrix is singular.
+pub fn gap_capacitances(
+    model: &Model,
+    basis: &Basis,
+    networks: &[Network],
+) -> Vec<Vec<Option<f64>>> {
+    let floating = super::transient::floating_electrodes(model, basis);
+    let mut row = vec![None; floating.len()];
+    let f: Vec<usize> = (0..floating.len()).filter(|&i| floating[i]).collect();
+    for (r, &i) in f.iter().enumerate() {
+        row[i] = Some(r);
+    }
+    let c = &basis.capacitance.c_f;
+    // A singular matrix leaves every gap without a capacitance (and no repetition figures).
+    let lu = nalgebra::DMatrix::from_fn(f.len(), f.len(), |i, j| c[f[i]][f[j]]).lu();
+    networks
+        .iter()
+        .map(|n| {
+            n.protective
+                .iter()
+                .map(|p| {
+                    transfer_capacitance(
+                        &lu,
+                        &row,
+                        node_electrode(model, basis, n.column, p.from_node),
+                        node_electrode(model, basis, n.column, p.to_node),
+                    )
+                })
+                .collect()
+        })
+        .collect()
+}
+
+/// The protective gaps clamped in a DC solution, as repetitive firing.
+pub fn repetitive_firing(
+    networks: &[Network],
+    solutions: &[NetworkSolution],
+    capacitance: &[Vec<Option<f64>>],
+) -> Vec<RepetitiveFiring> {
+    let mut out = Vec::new();
+    for ((n, s), caps) in networks.iter().zip(solutions).zip(capacitance) {
+        for ((p, &i), c) in n.protective.iter().zip(&s.protective_current_a).zip(caps) {
+            let (current, vf) = (i.abs(), p.firing_v);
+            let Some(c) = *c else { continue };
+            if current <= 0.0 || vf <= 0.0 {
+                continue;
+            }
+            out.push(RepetitiveFiring {
+                column: n.column,
+                from_node: p.from_node,
+                to_node: p.to_node,
+                current_a: current,
+                capacitance_f: c,
+                energy_per_spark_j: 0.5 * c * vf * vf,
+                rate_hz: current / (c * vf),
+                power_w: 0.5 * current * vf,
+            });
+        }
+    }
+    out
+}
