@@ -181,6 +181,9 @@ pub struct Column {
     pub resistor_rating_v: Option<f64>,
     /// Dissipation rating of one resistor, W, when given.
     pub resistor_power_w: Option<f64>,
+    /// Short-pulse (impulse) voltage rating of one resistor, V, when given: the spark
+    /// transient is checked against it (against the DC rating when it is not given).
+    pub resistor_impulse_v: Option<f64>,
     /// Protective spark gaps, when given.
     pub protective_gap: Option<ProtectiveSpec>,
     /// Insulator leakage across each gap.

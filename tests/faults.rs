@@ -516,6 +516,30 @@ fn resistor_ratings_are_checked_against_dc_and_the_clamped_transient() {
     assert_eq!(held.kind, Kind::Transient);
     assert!(held.max_gap_v <= 55e3 * (1.0 + 1e-9), "{}", held.max_gap_v);
     assert!((held.max_gap_v - 55e3).abs() < 1.0, "{}", held.max_gap_v);
+
+    // An impulse rating of 80 kV takes over from the 50 kV DC rating for the transient only:
+    // margin 80/55, not exceeded; the DC scenarios keep the 50 kV rating.
+    let pulsed = text.replace(
+        r#"power_rating = "1 W""#,
+        r#"power_rating = "1 W", impulse_rating = "80 kV""#,
+    );
+    assert_ne!(pulsed, text);
+    let m = holdoff::design::from_str(&pulsed, "pulsed.toml").expect("valid design");
+    let r = replay(&m, &mesh, &SolverParams::default(), None, &options, &|_| {}).expect("replay");
+    let tr = r
+        .scenarios
+        .iter()
+        .find(|s| s.kind == Kind::Transient && !s.protective_gaps_conducting)
+        .expect("transient");
+    assert!((tr.resistors.rating_margin.expect("rated") - 80.0 / 55.0).abs() < 1e-6);
+    assert!(!tr.resistor_rating_exceeded);
+    let nominal = r
+        .scenarios
+        .iter()
+        .find(|s| s.kind == Kind::Nominal)
+        .expect("nominal");
+    assert!((nominal.resistors.rating_margin.expect("rated") - 1.25).abs() < 1e-4);
+    assert!(r.notes.iter().any(|n| n.contains("impulse rating 80.0 kV")));
 }
 
 /// A basis that would not fit the memory budget is refused before any solve, with the

@@ -47,6 +47,7 @@ pub(crate) struct ColumnSpec {
     pub strings: usize,
     pub rating_v: Option<f64>,
     pub power_rating_w: Option<f64>,
+    pub impulse_rating_v: Option<f64>,
     pub protective: Option<ProtectiveSpec>,
     pub leakage: LeakageSpec,
     /// Current drawn to ground at each electrode, A (one per electrode).
@@ -237,7 +238,8 @@ pub(crate) fn read_column(
     let protective = read_protective(rd, raw, &at, gaps);
     let leakage = read_leakage(rd, raw, &at);
     let node_current = read_node_current(rd, raw, &at, electrodes);
-    let (resistor, tolerance, strings, rating, power) = grading?;
+    let grading = grading?;
+    let (resistor, tolerance, strings) = (grading.resistor, grading.tolerance, grading.strings);
     if resistor.is_none() {
         // Currents and a leakage resistance need absolute resistor values to mean anything;
         // `leakage = "auto"` or `"none"` does not.
@@ -279,8 +281,9 @@ pub(crate) fn read_column(
         resistor_ohm: resistor,
         tolerance,
         strings,
-        rating_v: rating,
-        power_rating_w: power,
+        rating_v: grading.rating,
+        power_rating_w: grading.power,
+        impulse_rating_v: grading.impulse,
         protective: protective?,
         leakage: leakage?,
         node_current_a: node_current?,
@@ -289,14 +292,29 @@ pub(crate) fn read_column(
     })
 }
 
-/// What `grading = { .. }` gives: resistor, tolerance, strings, voltage rating, power rating.
-type GradingKeys = (Option<f64>, Option<f64>, usize, Option<f64>, Option<f64>);
+/// The keys of a column's `grading` table.
+struct GradingKeys {
+    resistor: Option<f64>,
+    tolerance: Option<f64>,
+    strings: usize,
+    rating: Option<f64>,
+    power: Option<f64>,
+    impulse: Option<f64>,
+}
 
-/// Reads `grading = { resistor, tolerance, strings, rating, power_rating }`; every key is
-/// optional (no resistor value = equal resistors, the division without currents).
+/// Reads `grading = { resistor, tolerance, strings, rating, power_rating, impulse_rating }`;
+/// every key is optional (no resistor value = equal resistors, the division without
+/// currents).
 fn read_grading(rd: &mut Reader, raw: &RawColumn, at: &At) -> Option<GradingKeys> {
     let Some(g) = &raw.grading else {
-        return Some((None, None, 1, None, None));
+        return Some(GradingKeys {
+            resistor: None,
+            tolerance: None,
+            strings: 1,
+            rating: None,
+            power: None,
+            impulse: None,
+        });
     };
     let gat = At::new(at.key("grading"), g.span());
     let g = g.get_ref();
@@ -318,6 +336,7 @@ fn read_grading(rd: &mut Reader, raw: &RawColumn, at: &At) -> Option<GradingKeys
     let res = positive(rd, &g.resistor, "resistor", Dimension::Resistance);
     let rating = positive(rd, &g.rating, "rating", Dimension::Voltage);
     let power = positive(rd, &g.power_rating, "power_rating", Dimension::Power);
+    let impulse = positive(rd, &g.impulse_rating, "impulse_rating", Dimension::Voltage);
     let tol = rd.opt_quantity(&g.tolerance, &gat, "tolerance", Dimension::Ratio);
     let tol = rd.check(
         tol,
@@ -333,9 +352,12 @@ fn read_grading(rd: &mut Reader, raw: &RawColumn, at: &At) -> Option<GradingKeys
         Some(v) => rd.count(v, &gat.key("strings"), 1),
         None => Some(1),
     };
-    if (g.rating.is_some() || g.power_rating.is_some())
-        && g.resistor.is_none()
-        && let Some(v) = g.rating.as_ref().or(g.power_rating.as_ref())
+    if g.resistor.is_none()
+        && let Some(v) = g
+            .rating
+            .as_ref()
+            .or(g.power_rating.as_ref())
+            .or(g.impulse_rating.as_ref())
     {
         rd.push(
             "missing-key",
@@ -351,7 +373,14 @@ fn read_grading(rd: &mut Reader, raw: &RawColumn, at: &At) -> Option<GradingKeys
         ok = false;
     }
     let strings = strings?;
-    ok.then_some((res, tol, strings, rating, power))
+    ok.then_some(GradingKeys {
+        resistor: res,
+        tolerance: tol,
+        strings,
+        rating,
+        power,
+        impulse,
+    })
 }
 
 /// Reads `protective_gap = { firing, band, span }`. `gaps` is the column's gap count when

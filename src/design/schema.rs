@@ -299,7 +299,7 @@ pub struct RawTubeElectrode {
 }
 
 /// `grading = { resistor = "..", tolerance = "1 %", strings = 1, rating = "..",
-/// power_rating = ".." }`.
+/// power_rating = "..", impulse_rating = ".." }`.
 #[derive(Debug, Default, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct RawGrading {
@@ -310,6 +310,8 @@ pub struct RawGrading {
     pub rating: Leaf,
     /// Dissipation rating of one resistor.
     pub power_rating: Leaf,
+    /// Short-pulse (impulse) voltage rating of one resistor, for the spark transient.
+    pub impulse_rating: Leaf,
 }
 
 /// `protective_gap = { firing = "..", band = "10 %", span = 1 }`.

@@ -341,6 +341,7 @@ pub(crate) fn validate(
             strings: spec.strings,
             resistor_rating_v: spec.rating_v,
             resistor_power_w: spec.power_rating_w,
+            resistor_impulse_v: spec.impulse_rating_v,
             protective_gap: spec.protective,
             leakage: spec.leakage,
             node_current_a: spec.node_current_a.clone(),

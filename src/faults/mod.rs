@@ -348,7 +348,8 @@ pub struct ResistorCheck {
     /// most that gap's clamp voltage. Equal to `max_v` without protective gaps.
     pub clamped_max_v: f64,
     pub clamped_max_at: Option<(usize, usize)>,
-    /// Voltage rating ÷ clamped voltage, smallest over the columns that give a rating.
+    /// Voltage rating ÷ clamped voltage, smallest over the columns that give a rating (for
+    /// the transient the impulse rating, or the DC rating when none is given).
     pub rating_margin: Option<f64>,
     /// Largest steady dissipation of one resistor, W (DC scenarios only).
     pub max_power_w: Option<f64>,
@@ -632,7 +633,14 @@ fn resistor_check(
     let mut max_power: Option<f64> = None;
     for (n, gv) in networks.iter().zip(gap_v) {
         let col = model.columns.get(n.column);
-        let rating = col.and_then(|c| c.resistor_rating_v);
+        // A spark's transient is short: the impulse rating holds there when one is given.
+        let rating = col.and_then(|c| {
+            if steady {
+                c.resistor_rating_v
+            } else {
+                c.resistor_impulse_v.or(c.resistor_rating_v)
+            }
+        });
         let power_rating = col.and_then(|c| c.resistor_power_w);
         for (g, &v) in gv.iter().enumerate() {
             let a = v.abs();
@@ -931,6 +939,22 @@ fn network_notes(model: &Model, networks: &[Network]) -> Vec<String> {
                     notes.extend(l.notes.iter().map(|x| format!("column '{}': {x}", n.name)));
                 }
             }
+        }
+        match (col.resistor_impulse_v, col.resistor_rating_v) {
+            (Some(i), _) => notes.push(format!(
+                "column '{}': resistor voltages just after a spark are checked against the \
+                 impulse rating {:.1} kV",
+                n.name,
+                i / 1e3
+            )),
+            (None, Some(r)) => notes.push(format!(
+                "column '{}' gives no impulse rating: resistor voltages just after a spark are \
+                 checked against the DC rating {:.1} kV (conservative; add \
+                 grading.impulse_rating from the resistor's pulse data)",
+                n.name,
+                r / 1e3
+            )),
+            (None, None) => {}
         }
         if col.resistor_rating_v.is_none() && col.resistor_power_w.is_none() {
             notes.push(format!(
