@@ -366,9 +366,15 @@ pub fn render(s: &FaultSection, details: usize, rows: Option<usize>) -> String {
     let _ = writeln!(out, "\n{}", s.verdict.line());
     let _ = writeln!(
         out,
-        "\n{} scenarios in {:.1} s ({:.1} s for {} unit solves, {:.1} s for the scenarios, {} \
+        "\n{} scenarios{} in {:.1} s ({:.1} s for {} unit solves, {:.1} s for the scenarios, {} \
          shared with an identical one); capacitance matrix of {} electrodes (asymmetry {:.1e})",
         r.scenarios.len(),
+        r.monte_carlo
+            .as_ref()
+            .map_or_else(String::new, |mc| format!(
+                " and {} Monte Carlo draws (the worst kept as a scenario)",
+                mc.draws
+            )),
         s.seconds,
         s.basis_seconds,
         r.electrodes.len(),
