@@ -202,6 +202,9 @@ pub struct ProtectiveSpec {
     pub band: f64,
     /// Gaps bridged by each protective gap (1 = one across every gap).
     pub span: usize,
+    /// Voltage a fired gap falls to before its arc goes out, V, when given (below the firing
+    /// voltage); the repetitive-firing figures take 0 V and say so otherwise.
+    pub arc_floor_v: Option<f64>,
 }
 
 /// How the insulator leakage in parallel with each gap is set.

@@ -26,6 +26,17 @@ fn small() -> holdoff::model::Model {
     holdoff::design::from_str(&small_text(), "small.toml").expect("valid design")
 }
 
+/// The fault replay of a design text without Monte Carlo draws.
+fn replay_text(text: &str) -> holdoff::faults::FaultReplay {
+    let m = holdoff::design::from_str(text, "variant.toml").expect("valid design");
+    let mesh = Mesh::build(&m).expect("mesh");
+    let options = ReplayOptions {
+        samples: 0,
+        ..Default::default()
+    };
+    replay(&m, &mesh, &SolverParams::default(), None, &options, &|_| {}).expect("replay")
+}
+
 /// A uniform chain of N gaps, series capacitance C_g per gap and C_p from each node to
 /// ground, hit by a −V step at its HV end with the nodes floating: the shift of node x is
 /// −V·sinh(αx)/sinh(α), α = √(C_e/C_s) with C_e = N·C_p and C_s = C_g/N (REFERENCES.md §9
@@ -467,13 +478,7 @@ fn resistor_ratings_are_checked_against_dc_and_the_clamped_transient() {
         )
         .replace(r#"firing = "60 kV""#, r#"firing = "50 kV""#);
     assert_ne!(text, small);
-    let m = holdoff::design::from_str(&text, "rated.toml").expect("valid design");
-    let mesh = Mesh::build(&m).expect("mesh");
-    let options = ReplayOptions {
-        samples: 0,
-        ..Default::default()
-    };
-    let r = replay(&m, &mesh, &SolverParams::default(), None, &options, &|_| {}).expect("replay");
+    let r = replay_text(&text);
     let nominal = r
         .scenarios
         .iter()
@@ -524,8 +529,7 @@ fn resistor_ratings_are_checked_against_dc_and_the_clamped_transient() {
         r#"power_rating = "1 W", impulse_rating = "80 kV""#,
     );
     assert_ne!(pulsed, text);
-    let m = holdoff::design::from_str(&pulsed, "pulsed.toml").expect("valid design");
-    let r = replay(&m, &mesh, &SolverParams::default(), None, &options, &|_| {}).expect("replay");
+    let r = replay_text(&pulsed);
     let tr = r
         .scenarios
         .iter()
@@ -689,4 +693,43 @@ fn faults_table_lists_the_worst_rows() {
         "{short}"
     );
     assert!(!all.contains("more scenario(s)"));
+}
+
+/// With an arc floor V_min the gap is a relaxation oscillator between V_min and V_f: each spark
+/// releases ½·C·(V_f² − V_min²), the column current recharges C by V_f − V_min between sparks,
+/// and the mean power is ½·I·(V_f + V_min) (the relaxation oscillator of a passive gap,
+/// PRACTICE §2.3, published practice; energy of a capacitor W = ½CV², charge Q = CV). Open resistor of the small
+/// column: I = (200 − 60) kV / 4 GOhm = 35 uA (Ohm's law).
+#[test]
+fn arc_floor_sets_the_relaxation_figures() {
+    let text = small_text().replace(
+        r#"protective_gap = { firing = "60 kV" }"#,
+        r#"protective_gap = { firing = "60 kV", arc_floor = "10 kV" }"#,
+    );
+    assert_ne!(text, small_text());
+    let r = replay_text(&text);
+    let open = r
+        .scenarios
+        .iter()
+        .find(|s| s.kind == Kind::Open)
+        .expect("open");
+    let f = open.repetitive_firing.first().expect("repetitive firing");
+    let (vf, vm, c) = (60e3, 10e3, f.capacitance_f);
+    assert!(f.arc_floor_given && f.arc_floor_v == vm);
+    assert!((f.current_a - 35e-6).abs() < 1e-10);
+    let i = f.current_a;
+    assert!((f.energy_per_spark_j - 0.5 * c * (vf * vf - vm * vm)).abs() <= 1e-12);
+    assert!((f.rate_hz - i / (c * (vf - vm))).abs() <= 1e-9 * f.rate_hz);
+    assert!((f.power_w - 0.5 * i * (vf + vm)).abs() <= 1e-9);
+    // A floor at or above the firing voltage is refused, naming the key.
+    let bad = small_text().replace(
+        r#"protective_gap = { firing = "60 kV" }"#,
+        r#"protective_gap = { firing = "60 kV", arc_floor = "60 kV" }"#,
+    );
+    let err = holdoff::design::from_str(&bad, "bad.toml").expect_err("refused");
+    let msg = format!("{err:?}");
+    assert!(
+        msg.contains("arc_floor") && msg.contains("below the firing voltage"),
+        "{msg}"
+    );
 }

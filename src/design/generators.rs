@@ -440,10 +440,26 @@ fn read_protective(
             _ => Some(k),
         }),
     };
+    let arc_floor = match &p.arc_floor {
+        None => Some(None),
+        Some(v) => {
+            let a = rd.quantity(v, &pat.key("arc_floor"), Dimension::Voltage);
+            let below = firing.unwrap_or(f64::INFINITY);
+            rd.check(
+                a,
+                Some(v),
+                &pat.key("arc_floor"),
+                |x| (0.0..below).contains(&x),
+                "must be at least 0 V and below the firing voltage",
+            )
+            .map(Some)
+        }
+    };
     Some(Some(ProtectiveSpec {
         firing_v: firing?,
         band: band?,
         span: span?,
+        arc_floor_v: arc_floor?,
     }))
 }
 

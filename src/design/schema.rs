@@ -323,6 +323,8 @@ pub struct RawProtectiveGap {
     pub band: Leaf,
     /// Gaps bridged by each protective gap (1 = one across every gap).
     pub span: Leaf,
+    /// Voltage a fired gap falls to before its arc goes out (the arc-sustaining floor).
+    pub arc_floor: Leaf,
 }
 
 /// `[multiplier]`.

@@ -5,10 +5,11 @@
 //!
 //! The capacitance across the gap is the one a spark sees, nanoseconds long: the other column
 //! electrodes float with their charges conserved, the terminal and the tank hold. From the
-//! Maxwell matrix, C = q / (ΔV_b − ΔV_a) for a charge q moved from end a to end b. The spark is
-//! taken to quench at 0 V, so the energy of one spark, ½·C·V_f², is an upper bound, and the
-//! rate I/(C·V_f) and the mean power ½·I·V_f lower bounds; an arc floor V_min gives
-//! ½·C·(V_f² − V_min²), I/(C·(V_f − V_min)) and ½·I·(V_f + V_min) (the power at most I·V_f).
+//! Maxwell matrix, C = q / (ΔV_b − ΔV_a) for a charge q moved from end a to end b. Each spark
+//! falls to the arc floor V_min (`protective_gap.arc_floor`) and releases ½·C·(V_f² − V_min²);
+//! the gap fires I/(C·(V_f − V_min)) times a second and dissipates ½·I·(V_f + V_min) on average.
+//! Without a floor it is taken as 0 V: the energy of a spark is then an upper bound, the rate
+//! and the power lower bounds (the power at most I·V_f).
 
 use super::{Basis, node_electrode};
 use crate::grading::{Network, NetworkSolution};
@@ -25,11 +26,14 @@ pub struct RepetitiveFiring {
     pub current_a: f64,
     /// Capacitance across the gap with the other column electrodes floating, F.
     pub capacitance_f: f64,
-    /// Energy of one spark, ½·C·V_f² (upper bound), J.
+    /// Voltage each spark falls to, V, and whether the design gives it (0 V when not).
+    pub arc_floor_v: f64,
+    pub arc_floor_given: bool,
+    /// Energy of one spark, ½·C·(V_f² − V_min²), J.
     pub energy_per_spark_j: f64,
-    /// Sparks per second, I/(C·V_f) (lower bound), Hz.
+    /// Sparks per second, I/(C·(V_f − V_min)), Hz.
     pub rate_hz: f64,
-    /// Mean power in the sparks, ½·I·V_f (lower bound), W.
+    /// Mean power in the sparks, ½·I·(V_f + V_min), W.
     pub power_w: f64,
 }
 
@@ -97,16 +101,23 @@ pub fn gap_capacitances(
 
 /// The protective gaps clamped in a DC solution, as repetitive firing.
 pub fn repetitive_firing(
+    model: &Model,
     networks: &[Network],
     solutions: &[NetworkSolution],
     capacitance: &[Vec<Option<f64>>],
 ) -> Vec<RepetitiveFiring> {
     let mut out = Vec::new();
     for ((n, s), caps) in networks.iter().zip(solutions).zip(capacitance) {
+        let floor = model
+            .columns
+            .get(n.column)
+            .and_then(|c| c.protective_gap.as_ref())
+            .and_then(|p| p.arc_floor_v);
+        let vm = floor.unwrap_or(0.0);
         for ((p, &i), c) in n.protective.iter().zip(&s.protective_current_a).zip(caps) {
             let (current, vf) = (i.abs(), p.firing_v);
             let Some(c) = *c else { continue };
-            if current <= 0.0 || vf <= 0.0 {
+            if current <= 0.0 || vf <= vm {
                 continue;
             }
             out.push(RepetitiveFiring {
@@ -115,9 +126,11 @@ pub fn repetitive_firing(
                 to_node: p.to_node,
                 current_a: current,
                 capacitance_f: c,
-                energy_per_spark_j: 0.5 * c * vf * vf,
-                rate_hz: current / (c * vf),
-                power_w: 0.5 * current * vf,
+                arc_floor_v: vm,
+                arc_floor_given: floor.is_some(),
+                energy_per_spark_j: 0.5 * c * (vf * vf - vm * vm),
+                rate_hz: current / (c * (vf - vm)),
+                power_w: 0.5 * current * (vf + vm),
             });
         }
     }

@@ -244,7 +244,12 @@ pub(super) fn evaluate(
                 gap_margin: gm,
                 worst: worst[k].clone(),
                 resistors,
-                repetitive: firing::repetitive_firing(&case.networks, &sols, gap_capacitance),
+                repetitive: firing::repetitive_firing(
+                    model,
+                    &case.networks,
+                    &sols,
+                    gap_capacitance,
+                ),
             }
         })
         .collect();

@@ -152,9 +152,14 @@ pub fn transient_line(r: &crate::faults::FaultReplay) -> Option<String> {
 
 /// A gap's repetitive firing in words.
 fn repetition(r: &crate::faults::RepetitiveFiring) -> String {
+    let (least, most) = if r.arc_floor_given {
+        ("", "")
+    } else {
+        ("at least ", "at most ")
+    };
     format!(
-        "fires over and over on {:.1} µA: at least {:.1} sparks/s of at most {:.1} mJ \
-         ({:.1} pF across it), at least {:.2} W",
+        "fires over and over on {:.1} µA: {least}{:.1} sparks/s of {most}{:.1} mJ ({:.1} pF \
+         across it), {least}{:.2} W",
         r.current_a * 1e6,
         r.rate_hz,
         r.energy_per_spark_j * 1e3,
@@ -177,13 +182,23 @@ pub fn repetition_line(r: &crate::faults::FaultReplay) -> Option<String> {
         .max_by(|a, b| a.1.energy_per_spark_j.total_cmp(&b.1.energy_per_spark_j))?;
     Some(format!(
         "Repetitive firing: in {} DC scenario(s) a protective gap holds the fault; the most \
-         energetic, {} (column {} nodes {}–{}), {} (the spark taken to quench at 0 V)",
+         energetic, {} (column {} nodes {}–{}), {} ({})",
         with.len(),
         sc.name,
         worst.column + 1,
         worst.from_node,
         worst.to_node,
-        repetition(worst)
+        repetition(worst),
+        if worst.arc_floor_given {
+            format!(
+                "each spark falling to the {:.1} kV arc floor",
+                worst.arc_floor_v / 1e3
+            )
+        } else {
+            "each spark taken to fall to 0 V; give protective_gap.arc_floor for the figures \
+             themselves"
+                .to_string()
+        }
     ))
 }
 
