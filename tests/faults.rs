@@ -434,6 +434,8 @@ fn faults_command_writes_json() {
             "worst_margin",
             "worst_item",
             "protective_gap_fired",
+            "protective_gaps_conducting",
+            "repetitive_firing",
         ] {
             assert!(s.get(key).is_some(), "missing {key}");
         }
