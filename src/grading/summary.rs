@@ -25,6 +25,8 @@ pub struct ProtectiveSummary {
     pub setting_ratio: f64,
     /// Whether any protective gap is clamped (fired) in the nominal state.
     pub fired_at_nominal: bool,
+    /// Voltage a fired gap falls to before its arc goes out, V, when given.
+    pub arc_floor_v: Option<f64>,
 }
 
 /// The nominal DC state of one column's grading network.
@@ -48,6 +50,8 @@ pub struct ColumnSummary {
     pub resistor_power_w_max: Option<f64>,
     pub rating_v: Option<f64>,
     pub power_rating_w: Option<f64>,
+    /// Short-pulse rating of one resistor, V, when given (for the spark transient).
+    pub impulse_rating_v: Option<f64>,
     /// Rating ÷ the largest value (None without a rating).
     pub rating_margin: Option<f64>,
     pub power_margin: Option<f64>,
@@ -155,6 +159,7 @@ fn summarize_column(
             count: net.protective.len(),
             setting_ratio,
             fired_at_nominal: sol.fired.iter().any(|f| *f),
+            arc_floor_v: p.arc_floor_v,
         }
     });
     if protective.as_ref().is_some_and(|p| p.fired_at_nominal) {
@@ -201,6 +206,7 @@ fn summarize_column(
         resistor_power_w_max,
         rating_v: col.resistor_rating_v,
         power_rating_w: col.resistor_power_w,
+        impulse_rating_v: col.resistor_impulse_v,
         rating_margin,
         power_margin,
         protective,

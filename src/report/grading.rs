@@ -32,13 +32,19 @@ pub fn lines(s: &ColumnSummary) -> (String, Vec<String>) {
         format_si(s.gap_v_max, Dimension::Voltage),
         opt_si(s.chain_current_a, Dimension::Current)
     ));
-    let rating = match (s.rating_v, s.rating_margin) {
+    let mut rating = match (s.rating_v, s.rating_margin) {
         (Some(r), Some(m)) => format!(
             "{} rating, {m:.2} × margin",
             format_si(r, Dimension::Voltage)
         ),
         _ => "no voltage rating given".to_string(),
     };
+    if let Some(i) = s.impulse_rating_v {
+        rating.push_str(&format!(
+            "; {} impulse rating",
+            format_si(i, Dimension::Voltage)
+        ));
+    }
     let power = match (s.resistor_power_w_max, s.power_rating_w, s.power_margin) {
         (Some(p), Some(r), Some(m)) => format!(
             "{} dissipated against {} rating, {m:.2} × margin",
@@ -57,7 +63,7 @@ pub fn lines(s: &ColumnSummary) -> (String, Vec<String>) {
     ));
     d.push(match &s.protective {
         Some(p) => format!(
-            "protective gaps: {}, {}, firing {} ± {:.0} %, {:.2} × the nominal span voltage{}",
+            "protective gaps: {}, {}, firing {} ± {:.0} %{}, {:.2} × the nominal span voltage{}",
             p.count,
             if p.span == 1 {
                 "one across every gap".to_string()
@@ -66,6 +72,10 @@ pub fn lines(s: &ColumnSummary) -> (String, Vec<String>) {
             },
             format_si(p.firing_v, Dimension::Voltage),
             100.0 * p.band,
+            p.arc_floor_v.map_or_else(String::new, |a| format!(
+                ", arc floor {}",
+                format_si(a, Dimension::Voltage)
+            )),
             p.setting_ratio,
             if p.fired_at_nominal {
                 "; one fires at nominal"
