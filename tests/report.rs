@@ -50,6 +50,13 @@ fn note_has_its_sections_and_the_numbers_of_check() {
         assert!(a.contains(section), "missing {section}");
     }
     assert!(a.contains("not a certification"));
+    // The fault section carries the spark transient with and without the protective gaps,
+    // and the repetitive firing of a gap over an open resistor.
+    assert!(
+        a.contains("Spark transient: worst margin"),
+        "transient line"
+    );
+    assert!(a.contains("Repetitive firing:"), "repetitive firing line");
     // The same numbers as check --json.
     let out = holdoff()
         .args(["check", "examples/demo_750kv.toml", "--json", "-"])
