@@ -157,7 +157,7 @@ impl<'a> FieldMap<'a> {
                     // Outward from the metal, i.e. towards the centre.
                     let dr = -p.r;
                     let dz = inner_radius - p.z;
-                    let n = dr.hypot(dz).max(f64::MIN_POSITIVE);
+                    let n = crate::geometry::magnitude(dr, dz).max(f64::MIN_POSITIVE);
                     Point::new(dr / n, dz / n)
                 }
                 Tank::Cylinder { .. } => Point::new(0.0, 0.0),
@@ -459,7 +459,7 @@ impl FieldMap<'_> {
                         Medium::Gas
                     },
                     e_tangential: (f.field[0] * tangent[0] + f.field[1] * tangent[1]).abs(),
-                    e: f.field[0].hypot(f.field[1]),
+                    e: crate::geometry::magnitude(f.field[0], f.field[1]),
                 }
             })
             .collect()

@@ -15,7 +15,7 @@
 //! stopping point is refined by bisection on the last step.
 
 use crate::field::{FieldMap, Medium, SurfaceSample};
-use crate::geometry::Point;
+use crate::geometry::{Point, magnitude};
 use crate::mesh::{FREE, FixedId, TANK};
 use serde::Serialize;
 
@@ -158,7 +158,7 @@ impl Tracer<'_, '_> {
         let q = Point::new(p.r.abs(), p.z);
         let f = self.fm.at(q);
         let (er, ez) = (f.field[0] * p.r.signum(), f.field[1]);
-        let e = er.hypot(ez);
+        let e = magnitude(er, ez);
         if !(e.is_finite() && e > 0.0) {
             return None;
         }
@@ -247,7 +247,7 @@ impl Tracer<'_, '_> {
             err[c] =
                 h * (E1 * k1[c] + E3 * k3[c] + E4 * k4[c] + E5 * k5[c] + E6 * k6[c] + E7 * k7[c]);
         }
-        Some((next, k7, err[0].hypot(err[1])))
+        Some((next, k7, magnitude(err[0], err[1])))
     }
 }
 
@@ -339,7 +339,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
             let q = Point::new(p.r + hi * (target.r - p.r), p.z + hi * (target.z - p.z));
             end = tracer.end_at(q).unwrap_or(LineEnd::Stalled);
             end_point = q;
-            s += hi * (target.r - p.r).hypot(target.z - p.z);
+            s += hi * magnitude(target.r - p.r, target.z - p.z);
             break;
         }
         let Some((next, k_next, err)) = stepped else {
@@ -364,7 +364,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
         let f = fm.at(Point::new(p.r.abs(), p.z));
         line.samples.push(LineSample {
             s_m: s,
-            e_v_per_m: f.field[0].hypot(f.field[1]),
+            e_v_per_m: magnitude(f.field[0], f.field[1]),
             at: Point::new(p.r.abs(), p.z),
             potential_v: f.potential_v,
         });
@@ -391,7 +391,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
     {
         line.samples.push(LineSample {
             s_m: s,
-            e_v_per_m: f_end.field[0].hypot(f_end.field[1]),
+            e_v_per_m: magnitude(f_end.field[0], f_end.field[1]),
             at: end_point,
             potential_v: v_end,
         });
