@@ -633,7 +633,10 @@ pub(super) fn scenarios(
                 "transient with protective gaps conducting: {} gap(s) that the collapse drives \
                  past the top of their firing band conduct and hold there (the most they let \
                  through; an arcing gap falls lower and passes its share to its neighbours), the \
-                 charge they pass moving between the electrodes they bridge; resistors still idle",
+                 charge they pass moving between the electrodes they bridge; resistors still \
+                 idle. The bare transient still counts against the design factor: a gap fires \
+                 only after its statistical and formative time lags, so the insulators may see \
+                 the unclamped distribution first (common practice)",
                 step.conducting.len()
             ));
             if !step.over_in_loop.is_empty() {
