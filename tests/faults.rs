@@ -425,6 +425,12 @@ fn faults_command_writes_json() {
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
     let scenarios = v["scenarios"].as_array().expect("scenarios");
     assert!(!scenarios.is_empty());
+    let cautions = v["cautions"].as_array().expect("cautions");
+    assert!(
+        cautions
+            .iter()
+            .any(|c| c["topic"] == "status of these results")
+    );
     for s in scenarios {
         for key in [
             "name",
@@ -695,6 +701,9 @@ fn faults_table_lists_the_worst_rows() {
         "{short}"
     );
     assert!(!all.contains("more scenario(s)"));
+    // The run ends with the high-voltage cautions and the deferral to local codes.
+    assert!(short.contains("\nCautions\n- lethal voltage:"), "{short}");
+    assert!(short.contains("take precedence"));
 }
 
 /// With an arc floor V_min the gap is a relaxation oscillator between V_min and V_f: each spark

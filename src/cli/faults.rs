@@ -5,8 +5,8 @@ use anyhow::{Context, Result};
 use clap::Args;
 use holdoff::faults::{ReplayOptions, Section, replay, scenario_count};
 use holdoff::mesh::Mesh;
-use holdoff::report::faults::{FaultSection, FaultVerdict, render};
-use holdoff::report::{sha256_hex, write_atomic};
+use holdoff::report::faults::{FaultSection, render};
+use holdoff::report::write_atomic;
 use holdoff::solve::SolverParams;
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
@@ -95,21 +95,11 @@ pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
-    let verdict = FaultVerdict::of(&r, model.checks.design_factor);
-    let code = if verdict.pass {
+    let section = FaultSection::new(&model, &file, &text, r, t0.elapsed().as_secs_f64());
+    let code = if section.verdict.pass {
         ExitCode::SUCCESS
     } else {
         ExitCode::from(1)
-    };
-    let section = FaultSection {
-        title: model.title.clone(),
-        file: file.clone(),
-        sha256: sha256_hex(&text),
-        basis_seconds: r.basis_seconds,
-        scenario_seconds: r.scenario_seconds,
-        verdict,
-        replay: r,
-        seconds: t0.elapsed().as_secs_f64(),
     };
     holdoff::report::finite::ensure_finite(&section)?;
     if let Some(target) = &args.json {

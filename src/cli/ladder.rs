@@ -42,22 +42,14 @@ pub fn run(args: &LadderArgs) -> Result<ExitCode> {
     println!("{}\n", model.title);
     print!("{}", render(&section));
     println!("\nCautions");
-    for c in cautions(&CautionInputs {
-        terminal_voltage_v: section.output_no_load_v,
-        stored_energy_j: Some((
+    for c in cautions(&CautionInputs::for_model(
+        &model,
+        section.output_no_load_v,
+        Some((
             section.stored_energy_j,
             "stage capacitors of the multiplier at load".to_string(),
         )),
-        gas: model
-            .gas
-            .as_ref()
-            .map(|g| (g.species.clone(), g.pressure_pa)),
-        sf6: model.gas.as_ref().is_some_and(|g| {
-            g.components
-                .iter()
-                .any(|(s, f)| s.eq_ignore_ascii_case("SF6") && *f > 0.0)
-        }),
-    }) {
+    )) {
         println!("- {}: {}", c.topic, c.text);
     }
     Ok(ExitCode::SUCCESS)

@@ -24,6 +24,51 @@ pub struct CautionInputs {
     pub sf6: bool,
 }
 
+impl CautionInputs {
+    /// The inputs for a run on `model` with the terminal at `terminal_voltage_v`: the gas
+    /// from the design, the stored energy as given.
+    pub fn for_model(
+        model: &crate::model::Model,
+        terminal_voltage_v: f64,
+        stored_energy_j: Option<(f64, String)>,
+    ) -> CautionInputs {
+        let gas = model.gas.as_ref();
+        CautionInputs {
+            terminal_voltage_v,
+            stored_energy_j,
+            gas: gas.map(|g| (g.species.clone(), g.pressure_pa)),
+            sf6: gas.is_some_and(|g| {
+                g.components
+                    .iter()
+                    .any(|(s, f)| s.eq_ignore_ascii_case("SF6") && *f > 0.0)
+            }),
+        }
+    }
+}
+
+/// The stored energy of a run: the electrostatic energy of the solved field (J) plus the
+/// multiplier stack's at no load when the design has one, with what it covers.
+pub fn stored_energy(model: &crate::model::Model, field_energy_j: f64) -> (f64, String) {
+    match model
+        .multiplier
+        .as_ref()
+        .and_then(multiplier_stored_energy_j)
+    {
+        Some(stack) => (
+            stack + field_energy_j,
+            format!(
+                "multiplier stack {:.1} J at no load (1/2 C V^2, stage capacitors at 2 Vm) plus {:.1} J electrostatic energy of the solved field",
+                stack, field_energy_j
+            ),
+        ),
+        None => (
+            field_energy_j,
+            "electrostatic energy of the solved field, 1/2 integral of eps E^2; no multiplier is modelled"
+                .to_string(),
+        ),
+    }
+}
+
 fn fmt_energy(j: f64) -> String {
     if j >= 1e3 {
         format!("{:.3} kJ", j / 1e3)

@@ -21,6 +21,42 @@ pub struct FaultSection {
     pub scenario_seconds: f64,
     /// The scenarios against the design factor and the resistor ratings.
     pub verdict: FaultVerdict,
+    /// The high-voltage cautions that end the run (stored energy from the electrode
+    /// capacitances at nominal, plus the multiplier stack when modelled).
+    pub cautions: Vec<crate::report::cautions::Caution>,
+}
+
+impl FaultSection {
+    /// The section of a replay of `model`, its verdict against the design factor and its
+    /// cautions.
+    pub fn new(
+        model: &crate::model::Model,
+        file: &str,
+        text: &str,
+        replay: FaultReplay,
+        seconds: f64,
+    ) -> FaultSection {
+        use crate::report::cautions::{CautionInputs, cautions, stored_energy};
+        let stored = replay
+            .spark_energy
+            .as_ref()
+            .map(|e| stored_energy(model, e.stored_j));
+        FaultSection {
+            title: model.title.clone(),
+            file: file.to_string(),
+            sha256: crate::report::sha256_hex(text),
+            basis_seconds: replay.basis_seconds,
+            scenario_seconds: replay.scenario_seconds,
+            verdict: FaultVerdict::of(&replay, model.checks.design_factor),
+            cautions: cautions(&CautionInputs::for_model(
+                model,
+                replay.terminal_voltage_v,
+                stored,
+            )),
+            replay,
+            seconds,
+        }
+    }
 }
 
 /// How many scenarios fall below the design factor or overstress a resistor.
@@ -398,6 +434,10 @@ pub fn render(s: &FaultSection, details: usize, rows: Option<usize>) -> String {
         r.electrodes.len(),
         r.capacitance_asymmetry
     );
+    let _ = writeln!(out, "\nCautions");
+    for c in &s.cautions {
+        let _ = writeln!(out, "- {}: {}", c.topic, c.text);
+    }
     out
 }
 

@@ -135,29 +135,6 @@ pub struct Report {
     pub cautions: Vec<Caution>,
 }
 
-/// The stored energy the cautions quote, J, with what it covers: the multiplier stack's no-load
-/// energy plus the field energy when the multiplier is modelled, else the field energy alone.
-fn stored_energy(model: &Model, field_energy_j: f64) -> (f64, String) {
-    match model
-        .multiplier
-        .as_ref()
-        .and_then(cautions::multiplier_stored_energy_j)
-    {
-        Some(stack) => (
-            stack + field_energy_j,
-            format!(
-                "multiplier stack {:.1} J at no load (1/2 C V^2, stage capacitors at 2 Vm) plus {:.1} J electrostatic energy of the solved field",
-                stack, field_energy_j
-            ),
-        ),
-        None => (
-            field_energy_j,
-            "electrostatic energy of the solved field, 1/2 integral of eps E^2; no multiplier is modelled"
-                .to_string(),
-        ),
-    }
-}
-
 /// SHA-256 of the design text, hex.
 pub fn sha256_hex(text: &str) -> String {
     let digest = Sha256::digest(text.as_bytes());
@@ -204,17 +181,11 @@ impl Report {
                 field_magnitude_v_per_m: p.field.field[0].hypot(p.field.field[1]),
             })
             .collect();
-        let gas = model.gas.as_ref();
-        let cautions = cautions::cautions(&CautionInputs {
-            terminal_voltage_v: model.terminal_voltage,
-            stored_energy_j: Some(stored_energy(model, fine.energy_j)),
-            gas: gas.map(|g| (g.species.clone(), g.pressure_pa)),
-            sf6: gas.is_some_and(|g| {
-                g.components
-                    .iter()
-                    .any(|(s, f)| s.eq_ignore_ascii_case("SF6") && *f > 0.0)
-            }),
-        });
+        let cautions = cautions::cautions(&CautionInputs::for_model(
+            model,
+            model.terminal_voltage,
+            Some(cautions::stored_energy(model, fine.energy_j)),
+        ));
         Report {
             tool: ToolInfo {
                 name: "holdoff",
