@@ -60,9 +60,10 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
         )?)
     };
     // The note's fault section fails the run as `holdoff faults` would.
-    let faults_failed = faults.as_ref().is_some_and(|f| {
-        !holdoff::report::faults::FaultVerdict::of(f, model.checks.design_factor).pass
-    });
+    let fault_verdict = faults
+        .as_ref()
+        .map(|f| holdoff::report::faults::FaultVerdict::of(f, model.checks.design_factor));
+    let faults_failed = fault_verdict.as_ref().is_some_and(|v| !v.pass);
     let mut note = markdown::render(&report, &listing, &text, faults.as_ref());
     if ext == "html" {
         let map = plot::field_map(&model, &run.fine).map_err(anyhow::Error::msg)?;
@@ -84,6 +85,12 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
         a.out.display(),
         report.margins.len()
     );
+    if failed {
+        println!("Margins: some row is below the design factor (section 4 of the note).");
+    }
+    if let Some(v) = &fault_verdict {
+        println!("Grading faults (section 5b of the note): {}", v.line());
+    }
     Ok(if failed || faults_failed {
         ExitCode::from(1)
     } else {
