@@ -744,3 +744,22 @@ fn arc_floor_sets_the_relaxation_figures() {
         "{msg}"
     );
 }
+
+/// Without a resistor value the division is known but not the currents, so an open resistor
+/// still fires its protective gap but no repetition rate or spark energy is claimed.
+#[test]
+fn no_repetition_figures_without_resistor_values() {
+    let text = small_text().replace(
+        r#"grading = { resistor = "1 GOhm", tolerance = "1 %", strings = 1 }"#,
+        r#"grading = { tolerance = "1 %", strings = 1 }"#,
+    );
+    assert_ne!(text, small_text());
+    let r = replay_text(&text);
+    let open = r
+        .scenarios
+        .iter()
+        .find(|s| s.kind == Kind::Open)
+        .expect("open");
+    assert!(open.protective_gap_fired);
+    assert!(open.repetitive_firing.is_empty());
+}

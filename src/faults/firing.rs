@@ -99,7 +99,8 @@ pub fn gap_capacitances(
         .collect()
 }
 
-/// The protective gaps clamped in a DC solution, as repetitive firing.
+/// The protective gaps clamped in a DC solution, as repetitive firing (none for a column
+/// that gives no resistor value: its currents are not known).
 pub fn repetitive_firing(
     model: &Model,
     networks: &[Network],
@@ -108,6 +109,10 @@ pub fn repetitive_firing(
 ) -> Vec<RepetitiveFiring> {
     let mut out = Vec::new();
     for ((n, s), caps) in networks.iter().zip(solutions).zip(capacitance) {
+        // Without resistor values the network's currents are in arbitrary units.
+        if n.relative {
+            continue;
+        }
         let floor = model
             .columns
             .get(n.column)
