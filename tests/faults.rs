@@ -37,6 +37,15 @@ fn replay_text(text: &str) -> holdoff::faults::FaultReplay {
     replay(&m, &mesh, &SolverParams::default(), None, &options, &|_| {}).expect("replay")
 }
 
+/// The first (worst-ranked) scenario of a kind; for the transient, the bare one (the column
+/// floating, before any protective gap conducts).
+fn first(r: &holdoff::faults::FaultReplay, kind: Kind) -> &holdoff::faults::ScenarioResult {
+    r.scenarios
+        .iter()
+        .find(|s| s.kind == kind && !s.protective_gaps_conducting)
+        .expect("a scenario of that kind")
+}
+
 /// A uniform chain of N gaps, series capacitance C_g per gap and C_p from each node to
 /// ground, hit by a −V step at its HV end with the nodes floating: the shift of node x is
 /// −V·sinh(αx)/sinh(α), α = √(C_e/C_s) with C_e = N·C_p and C_s = C_g/N (REFERENCES.md §9
@@ -312,11 +321,7 @@ fn replay_is_repeatable_and_complete() {
     }
     // An open resistor in a single string with a 60 kV gap across it: 200 kV would sit
     // across the open gap, so the protective gap fires and holds 60 kV (Kirchhoff).
-    let open = a
-        .scenarios
-        .iter()
-        .find(|s| s.kind == Kind::Open)
-        .expect("open");
+    let open = first(&a, Kind::Open);
     assert!(open.protective_gap_fired);
     let g = open.resistor.expect("resistor").gap;
     assert!((open.gap_voltages_v[0][g] - 60e3).abs() < 1.0);
@@ -332,11 +337,7 @@ fn replay_is_repeatable_and_complete() {
     assert!((rep.rate_hz * rep.capacitance_f * 60e3 - rep.current_a).abs() < 1e-12);
     // The transient reverses the gap next to the terminal (the floating electrodes keep
     // their potential while the terminal falls to 0).
-    let tr = a
-        .scenarios
-        .iter()
-        .find(|s| s.kind == Kind::Transient && !s.protective_gaps_conducting)
-        .expect("transient");
+    let tr = first(&a, Kind::Transient);
     let last = *tr.gap_voltages_v[0].last().expect("gaps");
     assert!(last < 0.0, "{last}");
     // A different seed draws differently.
@@ -487,22 +488,14 @@ fn resistor_ratings_are_checked_against_dc_and_the_clamped_transient() {
         .replace(r#"firing = "60 kV""#, r#"firing = "50 kV""#);
     assert_ne!(text, small);
     let r = replay_text(&text);
-    let nominal = r
-        .scenarios
-        .iter()
-        .find(|s| s.kind == Kind::Nominal)
-        .expect("nominal");
+    let nominal = first(&r, Kind::Nominal);
     let rc = &nominal.resistors;
     assert!((rc.max_v - 40e3).abs() < 1.0, "{}", rc.max_v);
     assert!((rc.rating_margin.expect("rated") - 1.25).abs() < 1e-4);
     assert!((rc.max_power_w.expect("power") - 1.6).abs() < 1e-4);
     assert!((rc.power_margin.expect("rated") - 0.625).abs() < 1e-4);
     assert!(nominal.resistor_rating_exceeded);
-    let tr = r
-        .scenarios
-        .iter()
-        .find(|s| s.kind == Kind::Transient && !s.protective_gaps_conducting)
-        .expect("transient");
+    let tr = first(&r, Kind::Transient);
     let rc = &tr.resistors;
     assert!(
         rc.max_v > 55e3,
@@ -538,18 +531,10 @@ fn resistor_ratings_are_checked_against_dc_and_the_clamped_transient() {
     );
     assert_ne!(pulsed, text);
     let r = replay_text(&pulsed);
-    let tr = r
-        .scenarios
-        .iter()
-        .find(|s| s.kind == Kind::Transient && !s.protective_gaps_conducting)
-        .expect("transient");
+    let tr = first(&r, Kind::Transient);
     assert!((tr.resistors.rating_margin.expect("rated") - 80.0 / 55.0).abs() < 1e-6);
     assert!(!tr.resistor_rating_exceeded);
-    let nominal = r
-        .scenarios
-        .iter()
-        .find(|s| s.kind == Kind::Nominal)
-        .expect("nominal");
+    let nominal = first(&r, Kind::Nominal);
     assert!((nominal.resistors.rating_margin.expect("rated") - 1.25).abs() < 1e-4);
     assert!(r.notes.iter().any(|n| n.contains("impulse rating 80.0 kV")));
 }
@@ -649,14 +634,8 @@ fn a_terminal_in_volts_sparks_like_the_terminal() {
     let volts_text = small_text().replacen("potential = \"terminal\"", "potential = \"200 kV\"", 1);
     assert_ne!(volts_text, small_text());
     let volts = run(&volts_text);
-    let transient = |r: &holdoff::faults::FaultReplay| {
-        r.scenarios
-            .iter()
-            .find(|s| s.kind == Kind::Transient && !s.protective_gaps_conducting)
-            .expect("a transient")
-            .gap_voltages_v
-            .clone()
-    };
+    let transient =
+        |r: &holdoff::faults::FaultReplay| first(r, Kind::Transient).gap_voltages_v.clone();
     let (a, b) = (transient(&tied), transient(&volts));
     for (x, y) in a[0].iter().zip(&b[0]) {
         assert!((x - y).abs() < 1e-6 * 200e3, "{x} vs {y}");
@@ -719,11 +698,7 @@ fn arc_floor_sets_the_relaxation_figures() {
     );
     assert_ne!(text, small_text());
     let r = replay_text(&text);
-    let open = r
-        .scenarios
-        .iter()
-        .find(|s| s.kind == Kind::Open)
-        .expect("open");
+    let open = first(&r, Kind::Open);
     let f = open.repetitive_firing.first().expect("repetitive firing");
     let (vf, vm, c) = (60e3, 10e3, f.capacitance_f);
     assert!(f.arc_floor_given && f.arc_floor_v == vm);
@@ -755,11 +730,7 @@ fn no_repetition_figures_without_resistor_values() {
     );
     assert_ne!(text, small_text());
     let r = replay_text(&text);
-    let open = r
-        .scenarios
-        .iter()
-        .find(|s| s.kind == Kind::Open)
-        .expect("open");
+    let open = first(&r, Kind::Open);
     assert!(open.protective_gap_fired);
     assert!(open.repetitive_firing.is_empty());
 }
