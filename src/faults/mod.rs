@@ -30,8 +30,7 @@ mod scenarios;
 mod transient;
 pub use firing::{RepetitiveFiring, transfer_capacitance};
 pub use transient::{
-    ClampedStep, GapLink, clamped_step, clamped_transient_potentials, fast_step, gap_links,
-    node_electrode, spark_energy_with, transient_potentials,
+    ClampedStep, GapLink, clamped_step, fast_step, gap_links, node_electrode, spark_energy_with,
 };
 
 #[derive(Debug, Error)]
@@ -652,7 +651,7 @@ fn resistor_check(
                 .protective
                 .iter()
                 .filter(|p| p.from_node <= g && g < p.to_node)
-                .map(|p| p.firing_v * (1.0 + p.band))
+                .map(|p| p.firing_high_v())
                 .reduce(f64::min);
             let c = clamp.map_or(a, |f| a.min(f));
             if c > out.clamped_max_v {

@@ -64,17 +64,6 @@ pub fn fast_step(
     Ok(after)
 }
 
-/// Electrode potentials just after a terminal-to-tank spark: electrodes tied to the terminal
-/// (any fraction of it) go to 0; grading-node electrodes float; the rest hold.
-pub fn transient_potentials(
-    model: &Model,
-    basis: &Basis,
-    before: &[f64],
-) -> Result<Vec<f64>, FaultError> {
-    let (floating, after_held) = spark_state(model, basis, before)?;
-    fast_step(&basis.capacitance.c_f, &floating, before, &after_held)
-}
-
 /// Which electrodes float through a terminal-to-tank spark (the grading-node electrodes)
 /// and where the held ones go (the sparked ones to 0, the rest stay).
 fn spark_state(
@@ -82,16 +71,14 @@ fn spark_state(
     basis: &Basis,
     before: &[f64],
 ) -> Result<(Vec<bool>, Vec<f64>), FaultError> {
-    let spec = |e: &crate::capacitance::Electrode| {
-        e.conductors
-            .first()
-            .map(|&k| model.conductors[k].potential.clone())
-    };
     let floating = floating_electrodes(model, basis);
-    let mut sparked: Vec<bool> = basis
-        .electrodes
-        .iter()
-        .map(|e| matches!(spec(e), Some(PotentialSpec::Terminal { .. })))
+    let mut sparked: Vec<bool> = (0..basis.electrodes.len())
+        .map(|e| {
+            matches!(
+                electrode_spec(model, basis, e),
+                Some(PotentialSpec::Terminal { .. })
+            )
+        })
         .collect();
     choose_sparked(&mut sparked, &floating, before)?;
     let after_held: Vec<f64> = before
@@ -105,15 +92,22 @@ fn spark_state(
 /// The electrodes that float through a fast event: those of the grading nodes (their
 /// resistors act over R·C, milliseconds).
 pub fn floating_electrodes(model: &Model, basis: &Basis) -> Vec<bool> {
-    basis
-        .electrodes
-        .iter()
+    (0..basis.electrodes.len())
         .map(|e| {
-            e.conductors.first().is_some_and(|&k| {
-                matches!(model.conductors[k].potential, PotentialSpec::Grading { .. })
-            })
+            matches!(
+                electrode_spec(model, basis, e),
+                Some(PotentialSpec::Grading { .. })
+            )
         })
         .collect()
+}
+
+/// How electrode `e` is held: the potential of its first conductor.
+fn electrode_spec<'m>(model: &'m Model, basis: &Basis, e: usize) -> Option<&'m PotentialSpec> {
+    basis.electrodes[e]
+        .conductors
+        .first()
+        .map(|&k| &model.conductors[k].potential)
 }
 
 /// The electrode of node `k` of column `column` (0 = its `from` end, the electrodes in
@@ -335,8 +329,8 @@ fn bordered(
     Ok((v, passed))
 }
 
-/// Union–find over the electrodes and one node for everything held, to keep the conducting
-/// links free of loops.
+/// Union–find over the electrodes and one extra node (everything held, or the tank): keeps
+/// the conducting links free of loops, and groups the electrodes a shorted section ties.
 struct Forest(Vec<usize>);
 
 impl Forest {
@@ -370,28 +364,10 @@ pub fn gap_links(model: &Model, basis: &Basis, networks: &[Network]) -> Vec<GapL
             n.protective.iter().map(move |p| GapLink {
                 a: node_electrode(model, basis, n.column, p.from_node),
                 b: node_electrode(model, basis, n.column, p.to_node),
-                clamp_v: p.firing_v * (1.0 + p.band),
+                clamp_v: p.firing_high_v(),
             })
         })
         .collect()
-}
-
-/// Electrode potentials just after a terminal-to-tank spark with the protective gaps that the
-/// collapse drives past their band conducting (`clamped_step` on the design's gaps).
-pub fn clamped_transient_potentials(
-    model: &Model,
-    basis: &Basis,
-    networks: &[Network],
-    before: &[f64],
-) -> Result<ClampedStep, FaultError> {
-    let (floating, after_held) = spark_state(model, basis, before)?;
-    clamped_step(
-        &basis.capacitance.c_f,
-        &floating,
-        before,
-        &after_held,
-        &gap_links(model, basis, networks),
-    )
 }
 
 /// The electrodes a terminal-to-tank spark takes to earth: those tied to the terminal voltage
@@ -469,36 +445,18 @@ pub fn spark_energy_with(
     let before = basis.electrode_potentials(&pots);
     let stored = basis.energy_j(&before);
 
-    // Groups of electrodes tied by the sections; `ground` marks groups tied to the tank.
+    // Groups of electrodes tied by the sections; index ne stands for the tank.
     let ne = basis.electrodes.len();
-    let mut parent: Vec<usize> = (0..=ne).collect(); // index ne = the tank
-    fn find(p: &mut [usize], mut i: usize) -> usize {
-        while p[i] != i {
-            p[i] = p[p[i]];
-            i = p[i];
-        }
-        i
-    }
+    let mut forest = Forest::new(ne + 1);
     for sec in sections {
         let node_electrode = |k: usize| node_electrode(model, basis, sec.column, k).unwrap_or(ne);
         let first = node_electrode(sec.first_gap);
         for k in sec.first_gap + 1..=sec.last_gap + 1 {
-            let (a, b) = (
-                find(&mut parent, first),
-                find(&mut parent, node_electrode(k)),
-            );
-            if a != b {
-                // Keep the tank as the root of its group.
-                if a == ne {
-                    parent[b] = a;
-                } else {
-                    parent[a] = b;
-                }
-            }
+            forest.join(first, node_electrode(k));
         }
     }
-    let roots: Vec<usize> = (0..ne).map(|i| find(&mut parent, i)).collect();
-    let tank_root = find(&mut parent, ne);
+    let roots: Vec<usize> = (0..ne).map(|i| forest.find(i)).collect();
+    let tank_root = forest.find(ne);
     let mut groups: Vec<usize> = Vec::new();
     let mut group_of = vec![None; ne];
     for i in 0..ne {
@@ -522,11 +480,7 @@ pub fn spark_energy_with(
     for i in 0..ne {
         let Some(gi) = group_of[i] else { continue };
         v_before[gi] = before[i];
-        let spec = basis.electrodes[i]
-            .conductors
-            .first()
-            .map(|&k| &model.conductors[k].potential);
-        match spec {
+        match electrode_spec(model, basis, i) {
             Some(PotentialSpec::Grading { .. }) => {}
             Some(PotentialSpec::Terminal { .. }) => {
                 floating[gi] = false;
@@ -583,8 +537,12 @@ pub(super) fn scenarios(
                 .to_string(),
         );
     }
-    let after = match transient_potentials(model, basis, before) {
-        Ok(after) => after,
+    let spark = spark_state(model, basis, before).and_then(|(floating, after_held)| {
+        let after = fast_step(&basis.capacitance.c_f, &floating, before, &after_held)?;
+        Ok((floating, after_held, after))
+    });
+    let (floating, after_held, after) = match spark {
+        Ok(s) => s,
         Err(e) => {
             notes.push(format!("no transient: {e}"));
             return Ok(Spark {
@@ -621,7 +579,14 @@ pub(super) fn scenarios(
             notes,
         });
     }
-    match clamped_transient_potentials(model, basis, networks, before) {
+    let links = gap_links(model, basis, networks);
+    match clamped_step(
+        &basis.capacitance.c_f,
+        &floating,
+        before,
+        &after_held,
+        &links,
+    ) {
         Ok(step) if !step.conducting.is_empty() => {
             let mut sc = scenario(
                 "transient: terminal-to-tank spark, protective gaps conducting",

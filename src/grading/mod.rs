@@ -210,6 +210,12 @@ impl ProtectiveGap {
     pub fn firing_low_v(&self) -> f64 {
         self.firing_v * (1.0 - self.band)
     }
+
+    /// Highest voltage at which the gap may fire (top of the band), V: the most it lets
+    /// through, at which a clamped gap is taken to hold.
+    pub fn firing_high_v(&self) -> f64 {
+        self.firing_v * (1.0 + self.band)
+    }
 }
 
 /// One column's DC network: resistor strings, leakage, protective gaps, node currents.
