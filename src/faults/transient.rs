@@ -185,11 +185,7 @@ pub fn clamped_step(
     let voltage = |v: &[f64], l: &GapLink| l.b.map_or(0.0, |b| v[b]) - l.a.map_or(0.0, |a| v[a]);
     // A link matters when one end floats; both ends held, the spark fixes its voltage.
     let free = |l: &GapLink| l.a.is_some_and(|a| floating[a]) || l.b.is_some_and(|b| floating[b]);
-    let f: Vec<usize> = (0..n).filter(|&i| floating[i]).collect();
-    let mut row = vec![usize::MAX; n];
-    for (r, &i) in f.iter().enumerate() {
-        row[i] = r;
-    }
+    let (f, row) = floating_rows(floating);
     let charge_before: Vec<f64> = f
         .iter()
         .map(|&i| c_f[i].iter().zip(before).map(|(c, x)| c * x).sum())
@@ -265,6 +261,16 @@ pub fn clamped_step(
     )))
 }
 
+/// The floating electrodes in order, and each electrode's row among them (None when held).
+pub(super) fn floating_rows(floating: &[bool]) -> (Vec<usize>, Vec<Option<usize>>) {
+    let f: Vec<usize> = (0..floating.len()).filter(|&i| floating[i]).collect();
+    let mut row = vec![None; floating.len()];
+    for (r, &i) in f.iter().enumerate() {
+        row[i] = Some(r);
+    }
+    (f, row)
+}
+
 fn sorted(active: &[(usize, f64)]) -> Vec<usize> {
     let mut k: Vec<usize> = active.iter().map(|(k, _)| *k).collect();
     k.sort_unstable();
@@ -276,7 +282,7 @@ fn sorted(active: &[(usize, f64)]) -> Vec<usize> {
 fn bordered(
     c_f: &[Vec<f64>],
     f: &[usize],
-    row: &[usize],
+    row: &[Option<usize>],
     charge_before: &[f64],
     after_held: &[f64],
     links: &[GapLink],
@@ -285,9 +291,9 @@ fn bordered(
     let n = c_f.len();
     let m = f.len();
     let k = active.len();
-    let floats = |e: Option<usize>| e.filter(|&e| row[e] != usize::MAX);
+    let floats = |e: Option<usize>| e.and_then(|e| row[e]);
     let held = |e: Option<usize>| match e {
-        Some(e) if row[e] == usize::MAX => after_held[e],
+        Some(e) if row[e].is_none() => after_held[e],
         _ => 0.0,
     };
     let mut a = nalgebra::DMatrix::<f64>::zeros(m + k, m + k);
@@ -298,20 +304,20 @@ fn bordered(
         }
         rhs[r] = charge_before[r]
             - (0..n)
-                .filter(|&h| row[h] == usize::MAX)
+                .filter(|&h| row[h].is_none())
                 .map(|h| c_f[i][h] * after_held[h])
                 .sum::<f64>();
     }
     for (t, &(li, sign)) in active.iter().enumerate() {
         let l = &links[li];
         // Row of Bᵀ: V_a − V_b = −d over the floating ends, the held ends on the right.
-        if let Some(e) = floats(l.a) {
-            a[(row[e], m + t)] += 1.0;
-            a[(m + t, row[e])] += 1.0;
+        if let Some(r) = floats(l.a) {
+            a[(r, m + t)] += 1.0;
+            a[(m + t, r)] += 1.0;
         }
-        if let Some(e) = floats(l.b) {
-            a[(row[e], m + t)] -= 1.0;
-            a[(m + t, row[e])] -= 1.0;
+        if let Some(r) = floats(l.b) {
+            a[(r, m + t)] -= 1.0;
+            a[(m + t, r)] -= 1.0;
         }
         rhs[m + t] = -sign * l.clamp_v - held(l.a) + held(l.b);
     }
