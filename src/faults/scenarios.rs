@@ -178,17 +178,16 @@ pub(super) fn evaluate(
 ) -> Result<(Vec<Evaluated>, usize), FaultError> {
     // The insulator sites are geometry: found once here, shared by every worker's copy.
     let _ = mesh.insulator_sites(model, 0);
-    // The networks of every case (cheap), then the field checks once per distinct set of
-    // conductor potentials: with parallel strings, the same resistor failing in either string
-    // gives the same potentials, and is evaluated once.
-    type Prepared = (Vec<NetworkSolution>, Vec<f64>);
+    // With parallel strings, the same resistor failing in either string gives the same
+    // potentials, and is evaluated once.
+    type Prepared = (Vec<NetworkSolution>, Vec<Vec<f64>>, Vec<f64>);
     let prepared: Vec<Prepared> = cases
         .par_iter()
         .map(|case| -> Result<Prepared, FaultError> {
             let sols = solve_networks(model, stage_v, &case.networks)?;
             let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
             let potentials = grading::potentials_with_nodes(model, stage_v, &node_v)?;
-            Ok((sols, potentials))
+            Ok((sols, node_v, potentials))
         })
         .collect::<Result<_, _>>()?;
     let mut first_of: std::collections::HashMap<Vec<u64>, usize> = std::collections::HashMap::new();
@@ -197,7 +196,7 @@ pub(super) fn evaluate(
         .iter()
         .enumerate()
         .map(|(ci, p)| {
-            let key: Vec<u64> = p.1.iter().map(|v| v.to_bits()).collect();
+            let key: Vec<u64> = p.2.iter().map(|v| v.to_bits()).collect();
             *first_of.entry(key).or_insert_with(|| {
                 distinct.push(ci);
                 distinct.len() - 1
@@ -205,7 +204,7 @@ pub(super) fn evaluate(
         })
         .collect();
     // The nominal field (case 0), from which every scenario's sum starts.
-    let nominal_ev = basis.electrode_potentials(&prepared[0].1);
+    let nominal_ev = basis.electrode_potentials(&prepared[0].2);
     let nominal_phi = basis.field(&nominal_ev);
     let worst: Vec<Worst> = distinct
         .par_iter()
@@ -216,7 +215,7 @@ pub(super) fn evaluate(
                     model,
                     basis,
                     work,
-                    prepared[ci].1.clone(),
+                    prepared[ci].2.clone(),
                     Some((&nominal_phi, &nominal_ev)),
                 )?;
                 tick();
@@ -233,8 +232,7 @@ pub(super) fn evaluate(
         .iter()
         .zip(prepared)
         .zip(&slot)
-        .map(|((case, (sols, _)), &k)| {
-            let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
+        .map(|((case, (sols, node_v, _)), &k)| {
             let gap_v: Vec<Vec<f64>> = sols.iter().map(|s| s.gap_v.clone()).collect();
             let (fired, gm) = fired_gaps(&case.networks, &node_v);
             let resistors = resistor_check(model, &case.networks, &gap_v, true);
