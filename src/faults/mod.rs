@@ -466,6 +466,16 @@ pub struct FaultReplay {
     pub notes: Vec<String>,
 }
 
+impl FaultReplay {
+    /// The spark transient: the bare one (column floating) or, with `gaps_conducting`, the
+    /// one with the protective gaps conducting, when it was formed.
+    pub fn transient(&self, gaps_conducting: bool) -> Option<&ScenarioResult> {
+        self.scenarios
+            .iter()
+            .find(|s| s.kind == Kind::Transient && s.protective_gaps_conducting == gaps_conducting)
+    }
+}
+
 /// A column seen as the uniform capacitive ladder of the hand estimates, from the solved
 /// capacitance matrix: series capacitance between neighbouring electrodes, shunt capacitance
 /// of each electrode to earth, and α = √(C_p/C_s) per gap.

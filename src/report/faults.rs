@@ -163,12 +163,7 @@ pub fn resistor_cell(sc: &ScenarioResult) -> String {
 /// The spark transient with and without the protective gaps conducting, when both were
 /// formed.
 pub fn transient_line(r: &crate::faults::FaultReplay) -> Option<String> {
-    let of = |conducting: bool| {
-        r.scenarios
-            .iter()
-            .find(|s| s.kind == Kind::Transient && s.protective_gaps_conducting == conducting)
-    };
-    let (bare, held) = (of(false)?, of(true)?);
+    let (bare, held) = (r.transient(false)?, r.transient(true)?);
     let worst = |s: &ScenarioResult| {
         format!(
             "{} ({})",

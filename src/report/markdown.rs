@@ -271,11 +271,7 @@ pub fn render(
                 cell(&over.join("; "))
             );
         }
-        if let Some(tr) = f
-            .scenarios
-            .iter()
-            .find(|sc| sc.kind == crate::faults::Kind::Transient && !sc.protective_gaps_conducting)
-        {
+        if let Some(tr) = f.transient(false) {
             let rc = &tr.resistors;
             let _ = writeln!(
                 o,
