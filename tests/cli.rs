@@ -1,10 +1,8 @@
 //! End-to-end runs of the `holdoff` binary: exit codes, JSON keys, file outputs, errors.
 
-use std::process::Command;
+mod common;
 
-fn holdoff() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_holdoff"))
-}
+use common::holdoff;
 
 fn json_of(out: &std::process::Output) -> serde_json::Value {
     let text = String::from_utf8_lossy(&out.stdout);
@@ -59,11 +57,7 @@ fn demo_runs_and_writes_json_to_stdout() {
         .args(["demo", "--json", "-"])
         .output()
         .expect("runs");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::assert_success(&out);
     let v = json_of(&out);
     assert_report_keys(&v);
     // The terminal of the demo is at 800 kV.
@@ -103,11 +97,7 @@ fn check_tandem_writes_a_json_file() {
         .arg(&path)
         .output()
         .expect("runs");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::assert_success(&out);
     let text = std::fs::read_to_string(&path).expect("JSON file written");
     let v: serde_json::Value = serde_json::from_str(&text).expect("valid JSON");
     assert_report_keys(&v);

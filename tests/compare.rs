@@ -1,10 +1,8 @@
 //! `holdoff compare`: a design against itself, and against a sharper terminal corner.
 
-use std::process::Command;
+mod common;
 
-fn holdoff() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_holdoff"))
-}
+use common::holdoff;
 
 fn compare(a: &str, b: &str) -> (Option<i32>, serde_json::Value) {
     let out = holdoff()

@@ -418,11 +418,7 @@ fn faults_command_writes_json() {
         ])
         .output()
         .expect("runs");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::assert_success(&out);
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
     let scenarios = v["scenarios"].as_array().expect("scenarios");
     assert!(!scenarios.is_empty());

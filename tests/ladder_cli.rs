@@ -1,18 +1,12 @@
 //! `holdoff ladder`, `holdoff size` and the coupling of the stack to the field check.
 
-use std::process::Command;
+mod common;
 
-fn holdoff() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_holdoff"))
-}
+use common::holdoff;
 
 fn json(args: &[&str]) -> serde_json::Value {
     let out = holdoff().args(args).output().expect("runs");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::assert_success(&out);
     serde_json::from_slice(&out.stdout).expect("valid JSON")
 }
 

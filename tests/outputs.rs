@@ -3,9 +3,11 @@
 
 use holdoff::report::write_atomic;
 use std::path::Path;
-use std::process::Command;
 
-/// A fresh directory for one test.
+mod common;
+
+use common::holdoff;
+
 /// A fresh directory, removed when the returned guard drops.
 fn scratch() -> tempfile::TempDir {
     tempfile::tempdir().expect("temp dir")
@@ -20,10 +22,6 @@ fn listing(dir: &Path) -> Vec<String> {
         .collect();
     names.sort();
     names
-}
-
-fn holdoff() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_holdoff"))
 }
 
 /// `check DESIGN --json FILE` on a design that is refused (exit 2) keeps FILE as it was and
@@ -72,11 +70,7 @@ fn a_successful_run_replaces_the_file_whole_and_leaves_no_temporary_file() {
         .arg(&json)
         .output()
         .unwrap_or_else(|e| panic!("{e}"));
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::assert_success(&out);
     let text = std::fs::read_to_string(&json).unwrap_or_default();
     let v: serde_json::Value =
         serde_json::from_str(&text).unwrap_or_else(|e| panic!("not whole JSON ({e}): {text}"));

@@ -1,11 +1,9 @@
 //! `holdoff report`: the review note's sections, its numbers against `check --json`, and
 //! reproducibility.
 
-use std::process::Command;
+mod common;
 
-fn holdoff() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_holdoff"))
-}
+use common::holdoff;
 
 fn note(dir: &std::path::Path, name: &str) -> String {
     let path = dir.join(name);
@@ -118,11 +116,7 @@ fn note_without_faults_exits_0_on_the_passing_demo() {
         .arg(&path)
         .output()
         .expect("runs");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::assert_success(&out);
     let note = std::fs::read_to_string(&path).expect("note written");
     assert!(!note.contains("## 5b. Grading faults"));
 }

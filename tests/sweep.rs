@@ -2,6 +2,8 @@
 
 use holdoff::sweep::{evaluate_at, least_value, range, set_value, sweep};
 
+mod common;
+
 fn demo() -> String {
     std::fs::read_to_string("examples/demo_750kv.toml").expect("demo file")
 }
@@ -70,11 +72,7 @@ fn sweep_command_draws_its_plot() {
         .arg(&svg)
         .output()
         .expect("runs");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::assert_success(&out);
     let text = std::fs::read_to_string(&svg).expect("plot written");
     assert!(text.contains("<svg") && text.contains("design factor"));
 }

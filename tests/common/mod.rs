@@ -4,6 +4,7 @@
 
 use holdoff::geometry::Shape;
 use holdoff::model::{Conductor, MeshSpec, Model, Origin, PotentialSpec, Tank};
+use std::process::{Command, Output};
 
 /// A conductor at a fixed potential.
 pub fn conductor(name: &str, shape: Shape, volts: f64) -> Conductor {
@@ -86,4 +87,18 @@ minor_radius = "8 mm"
 cell = "4 mm"
 "#
     )
+}
+
+/// The `holdoff` binary built for the tests.
+pub fn holdoff() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_holdoff"))
+}
+
+/// Fails the test with the run's standard error unless it exited 0.
+pub fn assert_success(out: &Output) {
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
 }
