@@ -58,7 +58,7 @@ use crate::study::GridStudy;
 pub const REVIEW_BAND: f64 = 1.1;
 
 /// Peek's surface factor used when `[checks] corona_surface_factor` is not set: 1, polished
-/// electrodes (Peek 1929 via REFERENCES.md §5 \[C\]); accelerator electrodes are polished.
+/// electrodes (Peek 1929 via docs/references.md §5 \[C\]); accelerator electrodes are polished.
 pub const DEFAULT_CORONA_SURFACE_FACTOR: f64 = corona::SURFACE_POLISHED;
 
 /// Density-reduced pressure from which N2 streamer integrals use the scaled-air model
@@ -558,7 +558,7 @@ fn gas_rows(
                     "uniform-field gap breakdown",
                     LimitKind::Voltage,
                     e.to_string(),
-                    "REFERENCES.md §1-3",
+                    "docs/references.md §1-3",
                 ),
             }
         };
@@ -620,7 +620,7 @@ fn gas_rows(
                 "the hotspot is on a flat face or a sharp edge: Peek's law needs a finite \
                  conductor radius"
                     .to_string(),
-                "Peek (1929), REFERENCES.md §5",
+                "Peek (1929), docs/references.md §5",
             ),
         };
         let note = match geometry {

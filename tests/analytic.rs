@@ -1,5 +1,5 @@
 //! Field-solver checks against closed-form electrostatics and an independent image-charge
-//! series. Sources are named beside each check (see REFERENCES.md §10).
+//! series. Sources are named beside each check (see docs/references.md §10).
 
 mod common;
 
@@ -62,7 +62,7 @@ fn peak_of(model: &Model, snap: bool) -> f64 {
     fm.conductor_peaks(&samples)[0].peak_surface_field_v_per_m
 }
 
-/// Coaxial cylinders: E_max = V/(a ln(b/a)), potential V ln(b/r)/ln(b/a) (REFERENCES.md §10,
+/// Coaxial cylinders: E_max = V/(a ln(b/a)), potential V ln(b/r)/ln(b/a) (docs/references.md §10,
 /// standard result; check row 22: a = 1 cm, b = 5 cm, 100 kV → 6.2133 MV/m).
 #[test]
 fn coax_peak_field_and_probe_potentials() {
@@ -121,7 +121,7 @@ fn spheres(a: f64, b: f64, v: f64) -> Model {
     m
 }
 
-/// Concentric spheres: E(a) = V b/(a(b − a)) (REFERENCES.md §10; check row 24: a = 0.1 m,
+/// Concentric spheres: E(a) = V b/(a(b − a)) (docs/references.md §10; check row 24: a = 0.1 m,
 /// b = 0.2 m, 1 MV → 20.0 MV/m), at the default mesh.
 #[test]
 fn concentric_spheres_peak_field() {
@@ -241,7 +241,7 @@ fn sphere_plane_image_field(radius: f64, gap: f64, v: f64) -> f64 {
     ez.abs()
 }
 
-/// Sphere–plane: peak field against the image series (REFERENCES.md §10, sphere–plane field
+/// Sphere–plane: peak field against the image series (docs/references.md §10, sphere–plane field
 /// utilisation factor η = 0.5649 at d/r = 1, 0.7358 at d/r = 0.5; check row 26), within 2 %,
 /// with the tank walls far enough (20 radii) that their effect stays below that.
 #[test]
@@ -261,7 +261,7 @@ fn sphere_above_grounded_plane() {
 }
 
 /// Parallel plates: uniform field V/d between the centres of two large rounded plates
-/// (elementary result; REFERENCES.md §10 background), within 0.2 %.
+/// (elementary result; docs/references.md §10 background), within 0.2 %.
 #[test]
 fn parallel_plates_uniform_field() {
     let (gap, v): (f64, f64) = (0.02, 1e5);
@@ -339,7 +339,7 @@ fn grid_study_brackets_the_true_error() {
     );
 }
 
-/// Capacitance from the field energy: concentric spheres C = 4πε₀ab/(b − a) (REFERENCES.md
+/// Capacitance from the field energy: concentric spheres C = 4πε₀ab/(b − a) (docs/references.md
 /// §10; check row 24: a = 0.1 m, b = 0.2 m → 22.25 pF), within 1 %.
 #[test]
 fn concentric_spheres_capacitance_from_energy() {

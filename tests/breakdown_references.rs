@@ -1,6 +1,6 @@
 //! Breakdown criteria against the published formulas, constants and check values of
-//! REFERENCES.md (the check-value table rows are named "row N"). Each test names its source;
-//! "from memory" and "common practice" say so where REFERENCES.md marks a value [M] or [P].
+//! docs/references.md (the check-value table rows are named "row N"). Each test names its source;
+//! "from memory" and "common practice" say so where docs/references.md marks a value [M] or [P].
 
 use holdoff::breakdown::convert::{
     self, ATM_PA, BAR_PA, T0_K, TORR_CM_PA_M, TORR_PA, pa_m_to_torr_cm, torr_cm_to_pa_m,
@@ -33,7 +33,7 @@ fn sf6(p_pa: f64) -> holdoff::model::Gas {
 
 #[test]
 fn row_01_02_air_paschen_minimum() {
-    // REFERENCES.md row 1-2 [D]: Raizer A = 15, B = 365 (from memory; also confirmed in a
+    // docs/references.md row 1-2 [D]: Raizer A = 15, B = 365 (from memory; also confirmed in a
     // public HV note), gamma = 0.01: (pd)min = 0.8363 Torr·cm, Vmin = 305.3 V, 0.1 %.
     let m = paschen::minimum(&AIR, 0.01).unwrap();
     assert_rel("(pd)min", pa_m_to_torr_cm(m.pd_pa_m), 0.8363, 1e-3);
@@ -85,7 +85,7 @@ fn row_06_measured_air_minimum() {
 #[test]
 fn paschen_formula_is_within_ten_percent_of_the_measured_air_minimum() {
     // The analytic minimum (Raizer constants, gamma = 0.01) against the measured 327 V
-    // (Naidu & Kamaraju Ch. 2, from memory / confirmed): REFERENCES.md §1 says the formula does
+    // (Naidu & Kamaraju Ch. 2, from memory / confirmed): docs/references.md §1 says the formula does
     // not reproduce it exactly; 10 % is the agreement asked of it.
     let formula = paschen::minimum(&AIR, 0.01).unwrap().voltage_v;
     let measured = paschen::measured_minimum("air").unwrap().v_min_v;
@@ -94,7 +94,7 @@ fn paschen_formula_is_within_ten_percent_of_the_measured_air_minimum() {
 
 #[test]
 fn row_07_unit_conversion() {
-    // Row 7 (REFERENCES.md unit conventions): 1 Torr·cm = 1.33322 Pa·m = 0.013332 bar·mm, 1e-5.
+    // Row 7 (docs/references.md unit conventions): 1 Torr·cm = 1.33322 Pa·m = 0.013332 bar·mm, 1e-5.
     assert!((TORR_CM_PA_M - 1.33322).abs() < 1e-5);
     assert!((convert::pa_m_to_bar_mm(TORR_CM_PA_M) - 0.013332).abs() < 1e-5);
 }
@@ -144,7 +144,7 @@ fn row_12_relative_air_density() {
 #[test]
 fn one_cm_air_at_one_atmosphere_picks_schumann() {
     // Regime chooser: Fink & Beatty handbook 1 cm -> 31.4 kV peak; Peek (5 cm spheres) 31.8 kV;
-    // IEC 60052 sphere gaps 31.2-32.0 kV (REFERENCES.md §2, [C] secondary). 3 %.
+    // IEC 60052 sphere gaps 31.2-32.0 kV (docs/references.md §2, [C] secondary). 3 %.
     let r = uniform::uniform_breakdown(&standard_air(), 0.01, &GasOptions::default()).unwrap();
     assert_eq!(r.voltage.criterion, Criterion::SchumannAir);
     assert!(r.voltage.validity.is_valid());
@@ -235,7 +235,7 @@ fn streamer_integral_reproduces_uniform_breakdown() {
 }
 
 /// Field-line profile of a coaxial gap at 1 V: E(s) = 1/((a + s) ln(b/a)), s from the inner
-/// conductor (REFERENCES.md §10 coaxial field).
+/// conductor (docs/references.md §10 coaxial field).
 fn coax_profile(a: f64, b: f64, n: usize) -> Vec<(f64, f64)> {
     let l = (b / a).ln();
     (0..=n)
@@ -337,7 +337,7 @@ fn row_39_kilpatrick() {
 
 #[test]
 fn raising_the_pressure_raises_every_gas_limit() {
-    // Breakdown in the streamer regime grows with density (REFERENCES.md §1-§5).
+    // Breakdown in the streamer regime grows with density (docs/references.md §1-§5).
     let opts = GasOptions::default();
     let pressures = [0.5, 1.0, 2.0, 5.0, 8.0].map(|b| b * BAR_PA);
     let coax = coax_profile(0.01, 0.05, 2000);
@@ -401,7 +401,7 @@ fn raising_the_pressure_raises_every_gas_limit() {
 
 #[test]
 fn temperature_enters_through_density() {
-    // Same density at two temperatures gives the same limit (REFERENCES.md §1, density
+    // Same density at two temperatures gives the same limit (docs/references.md §1, density
     // correction, Massarczyk et al. 2016).
     let opts = GasOptions::default();
     let cold = pure("SF6", 3.0 * BAR_PA, T0_K);
@@ -432,7 +432,7 @@ fn air_streamer_inception_on_a_coax_agrees_with_peek() {
 
 #[test]
 fn sf6_area_derating_keeps_both_values() {
-    // Large stressed areas in SF6: 50-70 % of the limiting field (REFERENCES.md §3); the default
+    // Large stressed areas in SF6: 50-70 % of the limiting field (docs/references.md §3); the default
     // 0.6 is common practice. The limit carries the ideal and the derated value.
     let ideal = uniform::critical_field(&sf6(3.0 * BAR_PA), &GasOptions::default()).unwrap();
     let derated = ideal

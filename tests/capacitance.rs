@@ -1,5 +1,5 @@
 //! Capacitance from Gauss's law on unit-potential solves, against closed forms
-//! (REFERENCES.md §10).
+//! (docs/references.md §10).
 
 mod common;
 

@@ -27,7 +27,7 @@ fn a_design_compared_with_itself_shows_no_change() {
 }
 
 /// A smaller corner radius raises the surface field of the terminal (for a rounded edge the
-/// peak field grows as the radius shrinks; PRACTICE.md §1.3 hand estimates), so its margin
+/// peak field grows as the radius shrinks; docs/practice.md §1.3 hand estimates), so its margin
 /// falls, and that row ranks first.
 #[test]
 fn a_sharper_terminal_corner_lowers_the_terminal_margin() {

@@ -507,7 +507,7 @@ fn a_conductor_may_cut_through_a_dielectric_but_not_another_conductor() {
 fn built_in_permittivities_match_the_reference_table() {
     use holdoff::design::materials::{Mark, lookup};
     // (material, eps_r used, low and high end of the published range, mark), after the
-    // permittivity table of REFERENCES.md §11: alumina from manufacturers' data sheets, the
+    // permittivity table of docs/references.md §11: alumina from manufacturers' data sheets, the
     // rest from published permittivity tables; mineral oil and glass-epoxy from memory.
     let table: &[(&str, f64, f64, f64, Mark)] = &[
         ("alumina", 9.4, 8.7, 10.0, Mark::Confirmed),

@@ -1,5 +1,5 @@
 //! Fault replay: the transient distribution of a capacitive chain against the hyperbolic
-//! ladder solution (REFERENCES.md §9, check row 37), the superposition basis against a direct
+//! ladder solution (docs/references.md §9, check row 37), the superposition basis against a direct
 //! solve, and reruns with the same seed.
 
 use holdoff::faults::{Basis, Kind, ReplayOptions, fast_step, replay};
@@ -48,7 +48,7 @@ fn first(r: &holdoff::faults::FaultReplay, kind: Kind) -> &holdoff::faults::Scen
 
 /// A uniform chain of N gaps, series capacitance C_g per gap and C_p from each node to
 /// ground, hit by a −V step at its HV end with the nodes floating: the shift of node x is
-/// −V·sinh(αx)/sinh(α), α = √(C_e/C_s) with C_e = N·C_p and C_s = C_g/N (REFERENCES.md §9
+/// −V·sinh(αx)/sinh(α), α = √(C_e/C_s) with C_e = N·C_p and C_s = C_g/N (docs/references.md §9
 /// [M], Kuffel et al. 2000 Ch. 3; check row 37: α = 2 gives V(0.5)/V = 0.3240 and the HV-end
 /// field factor α·coth α = 2.0746), within 2 %.
 #[test]
@@ -182,7 +182,7 @@ fn transfer_capacitance_of_a_series_chain() {
     assert_eq!(transfer_capacitance(&lu, &row, None, None), None);
 }
 
-/// The hyperbolic chain of REFERENCES.md §9 with a protective gap across every gap: the
+/// The hyperbolic chain of docs/references.md §9 with a protective gap across every gap: the
 /// collapse fires a run of gaps from the terminal end (the largest voltages of the
 /// sinh(αx)/sinh(α) distribution), each conducting gap holds exactly its clamp, no gap is left
 /// over its clamp, and every electrode no conducting gap touches keeps its charge
@@ -557,7 +557,7 @@ fn a_basis_too_large_for_the_memory_is_refused() {
 }
 
 /// The ladder's end-gap voltage just after a spark, against the hyperbolic distribution
-/// evaluated directly (node shift −V·sinh(αx)/sinh(αN) added to the linear profile, REFERENCES.md
+/// evaluated directly (node shift −V·sinh(αx)/sinh(αN) added to the linear profile, docs/references.md
 /// §9 [M], Kuffel et al. 2000 Ch. 3; check row 37): the overflow-safe form agrees, and the
 /// small column's equivalent ladder has positive capacitances.
 #[test]
@@ -684,7 +684,7 @@ fn faults_table_lists_the_worst_rows() {
 /// With an arc floor V_min the gap is a relaxation oscillator between V_min and V_f: each spark
 /// releases ½·C·(V_f² − V_min²), the column current recharges C by V_f − V_min between sparks,
 /// and the mean power is ½·I·(V_f + V_min) (the relaxation oscillator of a passive gap,
-/// PRACTICE §2.3, published practice; energy of a capacitor W = ½CV², charge Q = CV). Open resistor of the small
+/// docs/practice.md §2.3, published practice; energy of a capacitor W = ½CV², charge Q = CV). Open resistor of the small
 /// column: I = (200 − 60) kV / 4 GOhm = 35 uA (Ohm's law).
 #[test]
 fn arc_floor_sets_the_relaxation_figures() {

@@ -1,5 +1,5 @@
 //! The DC grading network against hand-solved dividers (Ohm's and Kirchhoff's laws for series
-//! and parallel resistors, any circuits text) and the fault figures of PRACTICE.md §2.4 (derived).
+//! and parallel resistors, any circuits text) and the fault figures of docs/practice.md §2.4 (derived).
 
 mod common;
 
@@ -21,7 +21,7 @@ fn uniform_chain_gives_equal_gap_voltages() {
     assert!(rel(s.resistor_current_a[5][0], 800e3 / 27e9) < 1e-9);
 }
 
-/// One resistor shorted: each of the other N − 1 gaps takes V/(N − 1) (PRACTICE.md §2.4,
+/// One resistor shorted: each of the other N − 1 gaps takes V/(N − 1) (docs/practice.md §2.4,
 /// derived); the shorted gap takes none.
 #[test]
 fn one_shorted_resistor_gives_v_over_n_minus_one() {
@@ -40,7 +40,7 @@ fn one_shorted_resistor_gives_v_over_n_minus_one() {
 }
 
 /// One resistor of two strings open: that gap has R instead of R/2 and takes 2V/(N + 1)
-/// (PRACTICE.md §2.4, derived: 81.5 kV at 3.3 MV over 80 gaps).
+/// (docs/practice.md §2.4, derived: 81.5 kV at 3.3 MV over 80 gaps).
 #[test]
 fn open_resistor_in_two_strings_doubles_the_share() {
     let gaps = 80;
@@ -52,7 +52,7 @@ fn open_resistor_in_two_strings_doubles_the_share() {
     assert!(rel(s.gap_v[40], expected) < 1e-9, "{}", s.gap_v[40]);
     assert!(
         (s.gap_v[40] - 81.5e3).abs() < 0.05e3,
-        "PRACTICE.md §2.4 figure"
+        "docs/practice.md §2.4 figure"
     );
     assert!(rel(s.gap_v[0], 3.3e6 / (gaps as f64 + 1.0)) < 1e-9);
 }
@@ -294,7 +294,7 @@ fn protective_gaps_per_section_clamp_their_section() {
 
 /// The nominal summary of a uniform chain without leakage: current V/(N·R), V/N across each
 /// resistor dissipating (V/N)²/R (Ohm's law), rating margins against both, and the protective
-/// gaps' setting as firing ÷ (V/N), flagged outside 1.3–1.6 × (PRACTICE.md §2.3, common
+/// gaps' setting as firing ÷ (V/N), flagged outside 1.3–1.6 × (docs/practice.md §2.3, common
 /// practice).
 #[test]
 fn nominal_summary_follows_ohms_law_and_flags_the_gap_setting() {

@@ -1,14 +1,14 @@
 //! Multiplier ladder against outside references. Each check names its source as
-//! /work/shared/REFERENCES.md (§, check-table row) and PRACTICE.md give it:
+//! docs/references.md (§, check-table row) and docs/practice.md give it:
 //!
-//! - REFERENCES.md §8: Kuffel, Zaengl & Kuffel, *High Voltage Engineering: Fundamentals*,
+//! - docs/references.md §8: Kuffel, Zaengl & Kuffel, *High Voltage Engineering: Fundamentals*,
 //!   2nd ed. (2000), Ch. 2, and Naidu & Kamaraju, *High Voltage Engineering*, Ch. 6 — half-wave
 //!   drop and ripple (confirmed via a secondary copy, [C, secondary + M]).
-//! - REFERENCES.md §12: worked examples 1 (Naidu & Kamaraju, from memory [M]), 2 and 3 (an open
+//! - docs/references.md §12: worked examples 1 (Naidu & Kamaraju, from memory [M]), 2 and 3 (an open
 //!   textbook-companion worked example, Ex. 3 and Ex. 1 [C]).
-//! - REFERENCES.md §14: ngspice transient runs ([D], derived).
-//! - PRACTICE.md §4.1: the time-domain table (derived, the project's own time-domain check).
-//! - REFERENCES.md §8 discrete stray model, rows 34–35 ([D], ngspice-confirmed).
+//! - docs/references.md §14: ngspice transient runs ([D], derived).
+//! - docs/practice.md §4.1: the time-domain table (derived, the project's own time-domain check).
+//! - docs/references.md §8 discrete stray model, rows 34–35 ([D], ngspice-confirmed).
 //!
 //! Ripple is peak-to-peak throughout; drop is the simulated no-load output minus the cycle-mean
 //! loaded output.
@@ -38,7 +38,7 @@ fn symmetric(n: usize, c: f64, v0: f64, f: f64, i: f64) -> LadderParams {
 // ---------------------------------------------------------------------------------------------
 // Closed forms (tight)
 
-/// REFERENCES.md check row 30 (§8/§12 ex. 1, Naidu & Kamaraju Ch. 6 example, from memory [M];
+/// docs/references.md check row 30 (§8/§12 ex. 1, Naidu & Kamaraju Ch. 6 example, from memory [M];
 /// numbers [D]): ΔV = 79.44 kV, δV_pp = 6.111 kV, V0 = 2749.0 kV, n_opt = 35.68, 1e-4.
 #[test]
 fn row_30_closed_forms_ten_stage_example() {
@@ -64,7 +64,7 @@ fn row_30_closed_forms_ten_stage_example() {
     assert_eq!(cf.ideal_no_load_v, 2.0 * 10.0 * 141.42e3);
 }
 
-/// REFERENCES.md check row 31 (§12 ex. 2, an open textbook-companion worked example, Ex. 3
+/// docs/references.md check row 31 (§12 ex. 2, an open textbook-companion worked example, Ex. 3
 /// [C/D]): δV_pp = 52.00 kV, ΔV = 814.67 kV, n_opt = 20.60, 1e-4.
 #[test]
 fn row_31_closed_forms_twelve_stage_example() {
@@ -88,7 +88,7 @@ fn doubler() -> LadderParams {
     p
 }
 
-/// REFERENCES.md check row 33 (§8/§12 ex. 3, an open textbook-companion worked example, Ex. 1
+/// docs/references.md check row 33 (§8/§12 ex. 3, an open textbook-companion worked example, Ex. 1
 /// [C/D]): Greinacher doubler C1 = 0.01 µF, C2 = 0.05 µF, 100 kV rms, 50 Hz, 5 mA →
 /// ripple 2.0 kV, mean drop 11.0 kV, mean output 271.84 kV, 1e-4.
 #[test]
@@ -103,7 +103,7 @@ fn row_33_greinacher_doubler_closed_form() {
     );
 }
 
-/// Same worked example (REFERENCES.md §12 ex. 3), simulated: mean drop within 3 % of
+/// Same worked example (docs/references.md §12 ex. 3), simulated: mean drop within 3 % of
 /// (I/f)(1/C1 + 1/(2C2)). The ripple comes out below I/(fC2): the small C1 swings by
 /// q/C1 = 10 kV (7 % of V₀) each cycle, so the diode conducts over a wide angle and C2
 /// discharges for less than a whole period; asserted below the formula and within 10 %.
@@ -119,7 +119,7 @@ fn greinacher_doubler_simulated_against_worked_example() {
     assert!(rel(r.output.ripple_pp_v, 2.0e3) < 0.10);
 }
 
-/// REFERENCES.md check rows 34–35 (§8 discrete model, [D], ngspice-confirmed): η = 0.8022 and
+/// docs/references.md check rows 34–35 (§8 discrete model, [D], ngspice-confirmed): η = 0.8022 and
 /// 0.5248 for n = 8 at C_s/C = 0.01, 0.04 (continuum 0.8300, 0.5760), 1e-3; the closed form
 /// reproduces them to 1e-4.
 #[test]
@@ -130,7 +130,7 @@ fn rows_34_35_stray_efficiency_closed_forms() {
     }
 }
 
-/// REFERENCES.md check row 40 (§13, [D]): 1 nF at 1 MV stores 500 J, exact.
+/// docs/references.md check row 40 (§13, [D]): 1 nF at 1 MV stores 500 J, exact.
 #[test]
 fn row_40_capacitor_energy() {
     assert_eq!(capacitor_energy_j(1e-9, 1e6), 500.0);
@@ -139,13 +139,13 @@ fn row_40_capacitor_energy() {
 // ---------------------------------------------------------------------------------------------
 // Half-wave simulation against the textbook forms
 
-/// REFERENCES.md §8 (Kuffel et al. 2000 Ch. 2; Naidu & Kamaraju Ch. 6): with no strays and
+/// docs/references.md §8 (Kuffel et al. 2000 Ch. 2; Naidu & Kamaraju Ch. 6): with no strays and
 /// small ripple, the simulated drop and p-p ripple lie within 3 % of
-/// ΔV = (I/fC)(2n³/3 + n²/2 − n/6) and δV = (I/fC)·n(n+1)/2 for n ≥ 6 (PRACTICE.md §4.1: the
+/// ΔV = (I/fC)(2n³/3 + n²/2 − n/6) and δV = (I/fC)·n(n+1)/2 for n ≥ 6 (docs/practice.md §4.1: the
 /// formula holds to 1–2 % only from n = 6).
 #[test]
 fn half_wave_drop_and_ripple_within_3_percent_for_tall_stacks() {
-    // (n, C, V0, f, I): PRACTICE.md §4.1 parts; a kHz stack; a 50 kHz stack
+    // (n, C, V0, f, I): docs/practice.md §4.1 parts; a kHz stack; a 50 kHz stack
     let sets = [
         (6, 1e-6, 1e3, 1e3, 1e-3),
         (8, 10e-9, 40e3, 20e3, 2e-3),
@@ -173,7 +173,7 @@ fn half_wave_drop_and_ripple_within_3_percent_for_tall_stacks() {
     }
 }
 
-/// REFERENCES.md §8 against the PRACTICE.md §4.1 time-domain table (derived): at n = 2–4 the
+/// docs/references.md §8 against the docs/practice.md §4.1 time-domain table (derived): at n = 2–4 the
 /// textbook drop is optimistic (the finite conduction angle adds 4–14 %). The sign is asserted
 /// and the size printed; the 3 % tolerance is not widened for these.
 #[test]
@@ -186,7 +186,7 @@ fn half_wave_closed_form_is_optimistic_for_short_stacks() {
         let excess = r.output.drop_v / hw.drop_v - 1.0;
         println!(
             "n={n}: simulated drop {:.2} V, textbook {:.2} V: textbook optimistic by {:.1} % \
-             (PRACTICE.md §4.1 table {table})",
+             (docs/practice.md §4.1 table {table})",
             r.output.drop_v,
             hw.drop_v,
             100.0 * excess
@@ -200,7 +200,7 @@ fn half_wave_closed_form_is_optimistic_for_short_stacks() {
     }
 }
 
-/// REFERENCES.md check row 32 (§14, [D]): n = 4, 10 kV, 50 Hz, 1 µF, 1 mA — formula ΔV 1.000 kV
+/// docs/references.md check row 32 (§14, [D]): n = 4, 10 kV, 50 Hz, 1 µF, 1 mA — formula ΔV 1.000 kV
 /// against a ladder simulation within 10 %; the ngspice runs gave a mean drop of 1.032 kV and a
 /// peak drop of 0.935 kV, which this simulation matches within 2 %.
 #[test]
@@ -218,7 +218,7 @@ fn row_32_four_stage_formula_against_simulation() {
     assert!(rel(r.output.peak_drop_v, 935.0) < 0.02);
 }
 
-/// REFERENCES.md §12 ex. 1 (Naidu & Kamaraju Ch. 6 example, from memory [M]) and ex. 2 (an
+/// docs/references.md §12 ex. 1 (Naidu & Kamaraju Ch. 6 example, from memory [M]) and ex. 2 (an
 /// open textbook-companion worked example, Ex. 3 [C]) reproduced by simulation: drop and
 /// ripple within 3 % of the book values.
 #[test]
@@ -248,7 +248,7 @@ fn worked_examples_one_and_two_simulated() {
     assert!(rel(r2.output.ripple_pp_v, 52.0e3) < 0.03);
 }
 
-/// REFERENCES.md §8 [C]: n_opt = √(V₀fC/I). With V₀fC/I = 64 the simulated output at load,
+/// docs/references.md §8 [C]: n_opt = √(V₀fC/I). With V₀fC/I = 64 the simulated output at load,
 /// scanned over n, peaks within one stage of n_opt = 8.
 #[test]
 fn optimum_stage_count_matches_simulated_maximum() {
@@ -300,7 +300,7 @@ fn charge_balance_per_cycle() {
     }
 }
 
-/// Symmetric drop against the PRACTICE.md §4.1 time-domain table (derived, the project's own
+/// Symmetric drop against the docs/practice.md §4.1 time-domain table (derived, the project's own
 /// time-domain check; V₀ = 1 kV, 1 kHz, 1 µF, 1 mA so I/(fC) = 1 V), within 2 %.
 #[test]
 fn symmetric_drop_against_time_domain_table() {
@@ -317,7 +317,7 @@ fn symmetric_drop_against_time_domain_table() {
     }
 }
 
-/// Symmetric drop and p-p ripple against the REFERENCES.md §14 ngspice runs ([D]; V_m = 10 kV,
+/// Symmetric drop and p-p ripple against the docs/references.md §14 ngspice runs ([D]; V_m = 10 kV,
 /// 50 Hz, 1 µF, current load), within 3 %.
 #[test]
 fn symmetric_against_ngspice_runs() {
@@ -344,7 +344,7 @@ fn oscillating_strays(p: &LadderParams, cs: f64) -> Vec<f64> {
         .collect()
 }
 
-/// REFERENCES.md check rows 34–35 (§8 discrete model, [D]): n = 8, no load, strays C_s on the
+/// docs/references.md check rows 34–35 (§8 discrete model, [D]): n = 8, no load, strays C_s on the
 /// oscillating nodes (supplied per node, as the field solution will): simulated
 /// η = V_out/(2nV₀) = 0.8022 and 0.5248 within 1e-3. Started from 0 V (a switched-on,
 /// discharged stack) so that the run, not the start, finds the answer.
@@ -373,7 +373,7 @@ fn rows_34_35_strays_lower_the_output_simulated() {
     }
 }
 
-/// PRACTICE.md §4.4 / REFERENCES.md §8: a tall stack (30 stages) with strays on every node
+/// docs/practice.md §4.4 / docs/references.md §8: a tall stack (30 stages) with strays on every node
 /// loses output even unloaded; the simulation matches the discrete ladder within 1e-3 and the
 /// same stack without strays reaches 2nV₀.
 #[test]
@@ -396,7 +396,7 @@ fn strays_lower_the_output_of_a_tall_stack() {
 // Numerical convergence
 
 /// The drop converges as the time step is refined (successive differences shrink) and the
-/// finest run lies within 0.2 % of the PRACTICE.md §4.1 table value 163.54 V (n = 6).
+/// finest run lies within 0.2 % of the docs/practice.md §4.1 table value 163.54 V (n = 6).
 #[test]
 fn converges_as_time_step_is_refined() {
     let p = half_wave(6, 1e-6, 1e3, 1e3, 1e-3);
@@ -455,9 +455,9 @@ fn converges_as_cycles_are_added() {
 // ---------------------------------------------------------------------------------------------
 // Stored energy, ratings, discharge
 
-/// Stored energy is Σ½Cv² of the simulated capacitor voltages (REFERENCES.md §13, row 40):
+/// Stored energy is Σ½Cv² of the simulated capacitor voltages (docs/references.md §13, row 40):
 /// the totals equal the per-capacitor sums, and at no load they equal ½CV₀²(8n − 3) (half-wave)
-/// and ½CV₀²(12n − 6) (symmetric), from the no-load charge states of REFERENCES.md §8 (every
+/// and ½CV₀²(12n − 6) (symmetric), from the no-load charge states of docs/references.md §8 (every
 /// capacitor at 2V₀ except the first oscillating one(s) at V₀ [M]).
 #[test]
 fn stored_energy_is_sum_of_half_c_v_squared() {
@@ -495,7 +495,7 @@ fn stored_energy_is_sum_of_half_c_v_squared() {
     assert!(rel(r.energy.total_j, from_means) < 1e-3);
 }
 
-/// Ratings at no load (REFERENCES.md §8 [C]/[M]; PRACTICE.md §4.5): capacitors work at 2V₀
+/// Ratings at no load (docs/references.md §8 [C]/[M]; docs/practice.md §4.5): capacitors work at 2V₀
 /// except the first oscillating one at V₀, and every diode sees a PIV of 2V₀.
 #[test]
 fn no_load_ratings() {
@@ -716,9 +716,9 @@ fn non_convergence_carries_the_last_change() {
 // ---------------------------------------------------------------------------------------------
 // Drive, load and diode models
 
-/// No-load output 2nV₀ (REFERENCES.md §8 [C]) holds for square drive too (the diodes peak-
+/// No-load output 2nV₀ (docs/references.md §8 [C]) holds for square drive too (the diodes peak-
 /// detect the plateau); with the flat top the diodes conduct over the whole plateau, so drop
-/// and ripple come out below the sine-drive values (PRACTICE.md §4.1 closed forms are for sine
+/// and ripple come out below the sine-drive values (docs/practice.md §4.1 closed forms are for sine
 /// drive; this is the direction the `closed_form` note states).
 #[test]
 fn square_drive() {
@@ -750,7 +750,7 @@ fn square_drive() {
 }
 
 /// A resistor drawing the same mean current gives the same drop and ripple as the constant-
-/// current load (REFERENCES.md §8 assumes a DC load current; at 1.7e-3 ripple the two loads are
+/// current load (docs/references.md §8 assumes a DC load current; at 1.7e-3 ripple the two loads are
 /// the same to first order), and the reported load current is the mean of v/R.
 #[test]
 fn resistive_load_matches_current_load() {
@@ -768,7 +768,7 @@ fn resistive_load_matches_current_load() {
     assert!(rel(res.output.ripple_pp_v, cur.output.ripple_pp_v) < 1e-3);
 }
 
-/// Diode forward drop lowers the no-load output by 2n·V_f (REFERENCES.md §8, informal note
+/// Diode forward drop lowers the no-load output by 2n·V_f (docs/references.md §8, informal note
 /// [C]); no rectifier sees more than 2V₀ reverse.
 #[test]
 fn diode_forward_drop_costs_two_n_vf() {
@@ -784,7 +784,7 @@ fn diode_forward_drop_costs_two_n_vf() {
 
 /// Graded capacitors C_k = (n − k + 1)·C (bottom n·C). The impulse-charge model of `closed`
 /// (derived, the project's own) gives a ripple of n·I/(fC); the simulation agrees within 3 %.
-/// REFERENCES.md §8 quotes ≈ I/(fC) from an informal formula sheet [C, weak]: printed, not
+/// docs/references.md §8 quotes ≈ I/(fC) from an informal formula sheet [C, weak]: printed, not
 /// asserted, because neither model reproduces it.
 #[test]
 fn graded_capacitors_against_impulse_model() {

@@ -1,7 +1,7 @@
 //! Margins, hold-off voltage and field lines against outside references: uniform-gap breakdown
-//! (REFERENCES.md §2–3 check values), Peek's corona onset (§5), the concentric-spheres field
+//! (docs/references.md §2–3 check values), Peek's corona onset (§5), the concentric-spheres field
 //! (§10), and the scaling laws that follow from the linearity of electrostatics. Each test
-//! names its source; "from memory" and "common practice" say so where REFERENCES.md marks a
+//! names its source; "from memory" and "common practice" say so where docs/references.md marks a
 //! value [M] or [P].
 
 use holdoff::analysis::{Analysis, analyze};
@@ -77,7 +77,7 @@ fn row<'a>(m: &'a Margins, item: &str, criterion: Criterion) -> &'a margin::Marg
 
 #[test]
 fn field_line_between_concentric_spheres_is_radial_with_the_analytic_field() {
-    // Concentric spheres a = 0.1 m, b = 0.2 m, 1 MV (REFERENCES.md §10, check row 24):
+    // Concentric spheres a = 0.1 m, b = 0.2 m, 1 MV (docs/references.md §10, check row 24):
     // E(r) = V a b / ((b − a) r²); the field line from the inner sphere runs radially to the
     // tank, length b − a, voltage V.
     let (a, b, v) = (0.1, 0.2, 1.0e6);
@@ -124,7 +124,7 @@ fn field_line_between_concentric_spheres_is_radial_with_the_analytic_field() {
 
 #[test]
 fn holdoff_of_a_uniform_sf6_gap_equals_its_breakdown_voltage() {
-    // SF6 10 mm at 1 bar and 5 bar: uniform-field breakdown 88.88 kV and 442.9 kV (REFERENCES.md
+    // SF6 10 mm at 1 bar and 5 bar: uniform-field breakdown 88.88 kV and 442.9 kV (docs/references.md
     // check rows 14-15 [D], from the from-memory constants of Kuffel et al. 2000 Ch. 5); the
     // ideal hold-off must equal the regime chooser's value within 2 %, and lie within 3 % of the
     // critical-field value 89 kV/(cm·bar) x p x 1 cm (Christophorou & Olthoff 2000, 361 Td,
@@ -148,7 +148,7 @@ fn holdoff_of_a_uniform_sf6_gap_equals_its_breakdown_voltage() {
         let used = m.holdoff.as_ref().expect("hold-off");
         assert!(rel(used.voltage_v, 0.6 * ideal.voltage_v) < 1e-9);
         // The streamer row reproduces the uniform-field breakdown within 10 %
-        // (REFERENCES.md §4: the integral in a uniform field is the uniform-field criterion).
+        // (docs/references.md §4: the integral in a uniform field is the uniform-field criterion).
         let s = row(&m, "plate", Criterion::StreamerIntegral);
         let v_streamer = s.limit_ideal.unwrap() * gap;
         assert!(rel(v_streamer, ub.voltage.value) < 0.10, "{v_streamer}");
@@ -163,7 +163,7 @@ fn holdoff_of_a_uniform_sf6_gap_equals_its_breakdown_voltage() {
 #[test]
 fn one_cm_air_gap_holdoff_picks_the_valid_criterion() {
     // 1 cm uniform air gap at 1 atm, 20 °C: Fink & Beatty handbook 31.4 kV peak; IEC 60052
-    // sphere gap 31.2-32.0 kV (REFERENCES.md §2 [C, secondary]); within 3 %. At this pd the
+    // sphere gap 31.2-32.0 kV (docs/references.md §2 [C, secondary]); within 3 %. At this pd the
     // two-constant Paschen fit is outside its E/p window (35.5 kV, ~15 % high, check row 5),
     // so the gap row must use the Schumann fit and say so.
     let model = uniform_gap("air", ATM_PA, 0.01, 20e3);
@@ -218,7 +218,7 @@ fn doubling_the_terminal_voltage_halves_every_margin() {
 
 #[test]
 fn raising_the_sf6_pressure_raises_gas_margins_and_leaves_vacuum_rows() {
-    // Gas limits grow with density (REFERENCES.md §1, §3: the fits are functions of N·d); the
+    // Gas limits grow with density (docs/references.md §1, §3: the fits are functions of N·d); the
     // vacuum criteria do not involve the gas (§6, §7).
     let model = holdoff::design::from_str(DEMO, "demo").expect("demo");
     let fine = solve(&model);
@@ -257,7 +257,7 @@ fn raising_the_sf6_pressure_raises_gas_margins_and_leaves_vacuum_rows() {
 
 #[test]
 fn thin_wire_in_air_is_flagged_for_corona() {
-    // Peek's law (Peek 1929; coaxial constants 31 kV/cm and 0.308, REFERENCES.md §5, from
+    // Peek's law (Peek 1929; coaxial constants 31 kV/cm and 0.308, docs/references.md §5, from
     // memory): E_c = 31 m δ (1 + 0.308/sqrt(δ r)) kV/cm. The demo variant's 1 mm wire ring must
     // fail on it; its limit is Peek's value at the wire radius and the air δ.
     let model = holdoff::design::from_str(CORONA_DEMO, "corona").expect("variant");
@@ -274,7 +274,7 @@ fn thin_wire_in_air_is_flagged_for_corona() {
     let direct = corona::onset_field(PeekGeometry::Coaxial, 1e-3, delta, 1.0).unwrap();
     assert!(rel(peek.limit.unwrap(), direct.value) < 0.01);
     // The streamer integral (air, K = 9) agrees with Peek on the thin wire within 10 %
-    // (REFERENCES.md §4: K ≈ 9.2 reproduced corona inception on wires).
+    // (docs/references.md §4: K ≈ 9.2 reproduced corona inception on wires).
     let s = row(&m, "thin wire ring", Criterion::StreamerIntegral);
     assert!(rel(s.limit.unwrap(), peek.limit.unwrap()) < 0.10);
     assert!(m.any_fail());
@@ -283,7 +283,7 @@ fn thin_wire_in_air_is_flagged_for_corona() {
 
 #[test]
 fn peek_row_at_one_centimetre_radius_matches_the_published_value() {
-    // REFERENCES.md check row 18: Peek coaxial, r = 1 cm, δ = m = 1: 40.55 kV/cm (from memory).
+    // docs/references.md check row 18: Peek coaxial, r = 1 cm, δ = m = 1: 40.55 kV/cm (from memory).
     // A 1 cm minor-radius ring in air at Peek's δ = 1 (76 cmHg, 25 °C).
     let p = 76.0 * 10.0 * holdoff::breakdown::convert::TORR_PA * 298.0 / 298.15;
     let mut m = Model::new(

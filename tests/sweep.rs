@@ -9,7 +9,7 @@ fn demo() -> String {
 }
 
 /// On the right-hand branch of the Paschen curve (pd far above its minimum, as in any tank)
-/// gas strength grows with density (REFERENCES.md §1–§3), so the worst gas margin grows
+/// gas strength grows with density (docs/references.md §1–§3), so the worst gas margin grows
 /// monotonically with pressure.
 #[test]
 fn worst_gas_margin_is_monotone_in_pressure() {

@@ -1,6 +1,6 @@
 //! Unit conversions and reference conditions shared by the criteria.
 //!
-//! Conventions of REFERENCES.md (§ unit conventions): 1 Torr·cm = 1.33322 Pa·m =
+//! Conventions of docs/references.md (§ unit conventions): 1 Torr·cm = 1.33322 Pa·m =
 //! 0.013332 bar·mm; 1 bar·mm = 100 Pa·m; 1 Td = 1e-21 V·m². The reduced field unit
 //! kV/(cm·bar) equals exactly 1 V/(m·Pa), which is the SI unit of E/p used throughout.
 

@@ -2,7 +2,7 @@
 //!
 //! E_c = g0·m·δ·(1 + c/√(δ·r)) kV/cm (peak), r in cm, with δ Peek's relative air density
 //! referred to 25 °C and 76 cmHg, δ = 3.92·b/(273 + t) (b in cmHg, t in °C) \[C\]
-//! (REFERENCES.md §5, an encyclopaedia entry on Peek's law citing Peek 1929 and Kuffel &
+//! (docs/references.md §5, an encyclopaedia entry on Peek's law citing Peek 1929 and Kuffel &
 //! Zaengl p. 366), and m the surface factor (1 polished; 0.93–0.98 weathered; 0.83–0.87
 //! stranded \[C\]). Constants per geometry:
 //!
@@ -14,7 +14,7 @@
 //!
 //! Peek's law is an empirical onset fit for air; for other or electronegative gases the
 //! streamer integral ([`super::streamer`]) applies, and [`onset_field_in_gas`] flags them.
-//! REFERENCES.md gives no radius or δ range for the fits; none is enforced.
+//! docs/references.md gives no radius or δ range for the fits; none is enforced.
 
 use serde::Serialize;
 

@@ -4,7 +4,7 @@
 //!
 //! All gas fits are written for 20 °C; a different temperature enters through the gas
 //! **density**: the fits are evaluated at the density-reduced pressure p·T0/T with
-//! T0 = 293.15 K (REFERENCES.md §1, "Temperature / density correction" \[C\], Massarczyk et al.
+//! T0 = 293.15 K (docs/references.md §1, "Temperature / density correction" \[C\], Massarczyk et al.
 //! 2016), computed as N·k_B·T0 from [`Gas::number_density`].
 
 use serde::Serialize;
@@ -15,17 +15,17 @@ use super::limit::{Mark, Validity};
 use crate::model::Gas;
 
 /// Default secondary-emission coefficient γ of the Townsend criterion, 0.01 (the usual default,
-/// Lieberman & Lichtenberg 2005, Ch. 14) \[C\] (REFERENCES.md §1). Typical range 0.01–0.1.
+/// Lieberman & Lichtenberg 2005, Ch. 14) \[C\] (docs/references.md §1). Typical range 0.01–0.1.
 pub const DEFAULT_GAMMA: f64 = 0.01;
 
-/// CO2 uniform-field strength relative to air: 0.9 \[M\] (REFERENCES.md §3, "CO2 strength
+/// CO2 uniform-field strength relative to air: 0.9 \[M\] (docs/references.md §3, "CO2 strength
 /// ≈ 0.9 × air"); a cable-design page lists 0.95 \[C, secondary\]. The lower value is used. CO2
 /// is modelled as **scaled air**: every air field (Schumann fit, α − η fit) multiplied by this
 /// factor at the same density. No CO2 swarm data are used.
 pub const CO2_TO_AIR: f64 = 0.9;
 
 /// N2 uniform-field strength relative to air for the streamer (high-pd) regime: 0.97 \[D\],
-/// the ratio of the measured 1 cm, 101.3 kPa value ≈ 30.4 kV \[C\] (REFERENCES.md §2, Taylor &
+/// the ratio of the measured 1 cm, 101.3 kPa value ≈ 30.4 kV \[C\] (docs/references.md §2, Taylor &
 /// Francis chapter abstract) to the Schumann air fit at the same gap and density (31.44 kV).
 /// Relative-strength tables give 1.0–1.15 \[M\]; 0.97 is the conservative end. Used only by the
 /// scaled-air N2 model; N2's Townsend α (no attachment) is in [`super::paschen`].
@@ -33,7 +33,7 @@ pub const N2_TO_AIR: f64 = 0.97;
 
 /// Exponent of the documented SF6–N2 interpolation E_crit(x)/E_crit(SF6) = x^0.22 \[P\]:
 /// chosen to pass near the from-memory points "≈ 50 % SF6 gives ~85–90 % of pure SF6, ≈ 20 %
-/// SF6 ~70 %" \[M\] (REFERENCES.md §3): 0.5^0.22 = 0.858, 0.2^0.22 = 0.702.
+/// SF6 ~70 %" \[M\] (docs/references.md §3): 0.5^0.22 = 0.858, 0.2^0.22 = 0.702.
 pub const SF6_N2_EXPONENT: f64 = 0.22;
 
 /// SF6 mole-fraction range over which the interpolation [`SF6_N2_EXPONENT`] is offered: from the
@@ -228,7 +228,7 @@ pub struct RelativeStrength {
 ///
 /// With `user` given, its value and source are used (marked user-set). Otherwise the
 /// documented interpolation x^0.22 ([`SF6_N2_EXPONENT`], \[P\]) is used, flagged outside validity
-/// for SF6 fractions below 20 %. REFERENCES.md §3 asks that mixture strengths be user inputs
+/// for SF6 fractions below 20 %. docs/references.md §3 asks that mixture strengths be user inputs
 /// with a cited source; the interpolation is a stated fallback, not a published rule.
 pub fn sf6_n2_relative_strength(
     sf6_fraction: f64,
@@ -275,14 +275,14 @@ pub fn sf6_n2_relative_strength(
         factor: sf6_fraction.powf(SF6_N2_EXPONENT),
         basis: format!(
             "SF6/N2 interpolation x^{SF6_N2_EXPONENT} through the from-memory points 50 % SF6 \
-             ~ 0.85-0.90, 20 % ~ 0.70 of pure SF6 (REFERENCES.md §3), common practice"
+             ~ 0.85-0.90, 20 % ~ 0.70 of pure SF6 (docs/references.md §3), common practice"
         ),
         mark: Mark::CommonPractice,
         validity,
     })
 }
 
-/// Relative air density δ of IEC 60060-1 \[M\] (REFERENCES.md §1):
+/// Relative air density δ of IEC 60060-1 \[M\] (docs/references.md §1):
 /// δ = (p/p0)·(273.15 + t0)/(273.15 + t), p0 = 101.3 kPa, t0 = 20 °C. Sphere-gap and
 /// uniform-field breakdown voltages scale ≈ linearly with δ for 0.95 < δ < 1.05.
 pub fn relative_air_density(pressure_pa: f64, temperature_k: f64) -> Result<f64, BreakdownError> {

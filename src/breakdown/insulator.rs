@@ -1,7 +1,7 @@
 //! Insulator surfaces: tangential-field flashover limits in vacuum and in gas, and the
 //! triple-junction flag.
 //!
-//! All values here are common practice \[P\] (REFERENCES.md §7); the mechanism statements are
+//! All values here are common practice \[P\] (docs/references.md §7); the mechanism statements are
 //! \[C\]: vacuum flashover usually starts at the cathode triple junction (metal–dielectric–vacuum)
 //! and grows by secondary-electron emission with gas desorption (Miller, IEEE Trans. EI 28, 512
 //! (1993); Harris et al., IEEE TDEI); the field at a triple point can be mathematically divergent
@@ -17,16 +17,16 @@ use crate::model::Gas;
 
 /// Tangential field limit along a plain (straight cylindrical) ceramic or glass insulator in
 /// vacuum, DC: 3 MV/m \[P\], the middle of "~1–5 kV/mm average along the surface for cm-length
-/// rings" and of "plain cylindrical insulators flash over at a few MV/m DC" (REFERENCES.md §7).
+/// rings" and of "plain cylindrical insulators flash over at a few MV/m DC" (docs/references.md §7).
 pub const VACUUM_PLAIN_TANGENTIAL_V_PER_M: f64 = 3.0e6;
 
 /// Gain of an inclined-surface (≈ 45°) or graded insulator over a plain one under DC: 1.5 \[P\],
-/// the low end of the 1.5–2× treated as the DC gain in REFERENCES.md §7 (the several-fold gains
+/// the low end of the 1.5–2× treated as the DC gain in docs/references.md §7 (the several-fold gains
 /// are pulsed).
 pub const VACUUM_INCLINED_GAIN: f64 = 1.5;
 
 /// Default fraction of the uniform gas-gap breakdown field at which flashover along a spacer
-/// occurs: 0.5 \[P\], the low end of 50–80 % (REFERENCES.md §7), because humidity and
+/// occurs: 0.5 \[P\], the low end of 50–80 % (docs/references.md §7), because humidity and
 /// contamination lower it further.
 pub const GAS_SURFACE_FRACTION_DEFAULT: f64 = 0.5;
 
@@ -55,7 +55,7 @@ pub fn vacuum_surface_limit(surface: VacuumSurface) -> Limit {
     Limit::new(
         Criterion::VacuumSurfaceFlashover,
         "tangential field along a vacuum insulator surface (DC)",
-        format!("insulator surface flashover, REFERENCES.md §7: {what}; common practice"),
+        format!("insulator surface flashover, docs/references.md §7: {what}; common practice"),
         Mark::CommonPractice,
         LimitKind::Field,
         value,
@@ -99,7 +99,7 @@ pub fn gas_surface_limit(
             gap.field.name
         ),
         format!(
-            "spacer flashover at 50-80 % of the uniform gas-gap breakdown (REFERENCES.md §7), \
+            "spacer flashover at 50-80 % of the uniform gas-gap breakdown (docs/references.md §7), \
              {basis}; gas gap: {}",
             gap.field.source
         ),

@@ -7,13 +7,13 @@
 //!   K = 9 (Schumann) and C = K/6.72² ≈ K/45.2 cm·bar/kV², so that the uniform-field integral
 //!   reproduces the Schumann fit V = 24.36·pd + 6.72·√pd exactly — Kuffel, Zaengl & Kuffel,
 //!   *High Voltage Engineering: Fundamentals*, 2nd ed. (2000), Ch. 5 \[M\]; C from K/C = 6.72²
-//!   \[D\] (REFERENCES.md §2, §4);
+//!   \[D\] (docs/references.md §2, §4);
 //! - SF6, linear form (α − η)/p = k·[(E/p) − (E/p)_crit], k = 27.7 kV⁻¹,
-//!   (E/p)_crit = 88.5 kV/(cm·bar), K = 10.5 — Kuffel et al. (2000) Ch. 5 \[M\] (REFERENCES.md
+//!   (E/p)_crit = 88.5 kV/(cm·bar), K = 10.5 — Kuffel et al. (2000) Ch. 5 \[M\] (docs/references.md
 //!   §3; 88.5 is the middle of the 88.4–88.6 range, as the check values use);
 //! - Townsend α only, α/p = A·exp(−B·p/E), η = 0, for the non-attaching N2 with the Paschen
 //!   constants of [`super::paschen::N2`] and K = ln(10⁸) ≈ 18.4 (Raether/Meek critical
-//!   avalanche N_c ≈ 10⁸) \[C\] (REFERENCES.md §4).
+//!   avalanche N_c ≈ 10⁸) \[C\] (docs/references.md §4).
 //!
 //! A gas with no fit of its own is a **scaled** model of a base gas: the base coefficient
 //! evaluated at E / s, where s is the strength relative to the base gas (CO2 and, optionally,
@@ -38,7 +38,7 @@ use crate::model::Gas;
 pub const AIR_E_OVER_P_ZERO: f64 = 24.36;
 /// √(K/C) of the air Schumann fit, kV/√(bar·cm) \[M\] (Kuffel et al. 2000, Ch. 5).
 pub const AIR_SQRT_K_OVER_C: f64 = 6.72;
-/// Streamer number for the air quadratic fit, K = 9 (Schumann) \[M\] (REFERENCES.md §2).
+/// Streamer number for the air quadratic fit, K = 9 (Schumann) \[M\] (docs/references.md §2).
 pub const AIR_STREAMER_NUMBER: f64 = 9.0;
 /// Upper end of the air quadratic fit window, kV/(cm·bar): the uniform-field breakdown E/p at
 /// the lowest pd of the Schumann fit's range (0.01 bar·cm), 24.36 + 6.72/√0.01 = 91.56 \[D\].
@@ -47,15 +47,15 @@ pub const AIR_E_OVER_P_MAX: f64 = AIR_E_OVER_P_ZERO + AIR_SQRT_K_OVER_C * 10.0;
 /// SF6 slope k of the linear fit, 1/kV \[M\] (Kuffel et al. 2000, Ch. 5).
 pub const SF6_SLOPE_PER_KV: f64 = 27.7;
 /// SF6 (E/p)_crit of the linear fit at 20 °C, kV/(cm·bar) \[M\] (Kuffel et al. 2000 Ch. 5 uses
-/// 88.4; other sources 88.6–89; 88.5 as the check values of REFERENCES.md use).
+/// 88.4; other sources 88.6–89; 88.5 as the check values of docs/references.md use).
 pub const SF6_E_OVER_P_CRIT: f64 = 88.5;
 /// SF6 streamer number K = 10.5 \[M\] (Kuffel et al. 2000; Pedersen).
 pub const SF6_STREAMER_NUMBER: f64 = 10.5;
-/// The SF6 linear fit is valid for E/p up to about 1.5 × (E/p)_crit \[M\] (REFERENCES.md §3).
+/// The SF6 linear fit is valid for E/p up to about 1.5 × (E/p)_crit \[M\] (docs/references.md §3).
 pub const SF6_FIT_MAX_RATIO: f64 = 1.5;
 
 /// Raether–Meek streamer number for α-only integrals, ln(10⁸) ≈ 18.42 (N_c ≈ 10⁸; "K ≈ 18–20
-/// for air") \[C\] (REFERENCES.md §4).
+/// for air") \[C\] (docs/references.md §4).
 pub const RAETHER_MEEK_K: f64 = 18.420_680_743_952_367;
 
 /// The functional form of a fit, SI constants.
@@ -144,7 +144,7 @@ impl EffectiveIonisation {
         Self::air().scaled(
             CO2_TO_AIR,
             format!("CO2 (scaled air, {CO2_TO_AIR} x air)"),
-            "CO2 strength 0.9 x air (REFERENCES.md §3, from memory)",
+            "CO2 strength 0.9 x air (docs/references.md §3, from memory)",
             Mark::FromMemory,
         )
     }
@@ -154,7 +154,7 @@ impl EffectiveIonisation {
         Self::air().scaled(
             N2_TO_AIR,
             format!("N2 (scaled air, {N2_TO_AIR} x air)"),
-            "N2 strength 0.97 x air: 30.4 kV for 1 cm at 101.3 kPa (REFERENCES.md §2, Taylor & \
+            "N2 strength 0.97 x air: 30.4 kV for 1 cm at 101.3 kPa (docs/references.md §2, Taylor & \
              Francis chapter abstract) over the Schumann air fit, derived",
             Mark::Derived,
         )
@@ -183,7 +183,7 @@ impl EffectiveIonisation {
             e_over_p_max: c.e_over_p_max,
             source: format!(
                 "alpha/p = A exp(-Bp/E), no attachment; {}; K = ln(1e8) (Raether/Meek, \
-                 REFERENCES.md §4)",
+                 docs/references.md §4)",
                 c.source
             ),
             mark: c.mark.weakest(Mark::Confirmed),
@@ -353,7 +353,7 @@ mod tests {
 
     #[test]
     fn sf6_fit_in_practical_units() {
-        // alpha - eta [1/cm] = 27.7 E[kV/cm] - 2450 p[bar] (REFERENCES.md §3): at 100 kV/cm,
+        // alpha - eta [1/cm] = 27.7 E[kV/cm] - 2450 p[bar] (docs/references.md §3): at 100 kV/cm,
         // 1 bar: 27.7 * (100 - 88.5) = 318.55 /cm.
         let m = EffectiveIonisation::sf6();
         let per_cm = m.coefficient_per_m(100e5, 1e5) / 100.0;

@@ -9,7 +9,7 @@ use serde::Serialize;
 
 use super::error::BreakdownError;
 
-/// How far a constant or rule can be trusted (the marks of REFERENCES.md).
+/// How far a constant or rule can be trusted (the marks of docs/references.md).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Mark {
@@ -26,7 +26,7 @@ pub enum Mark {
 }
 
 impl Mark {
-    /// The bracketed tag used in REFERENCES.md: `[C]`, `[M]`, `[P]`, `[D]`, or `[user]`.
+    /// The bracketed tag used in docs/references.md: `[C]`, `[M]`, `[P]`, `[D]`, or `[user]`.
     pub fn tag(self) -> &'static str {
         match self {
             Mark::Confirmed => "[C]",
@@ -153,7 +153,7 @@ pub struct Derating {
 
 /// Area derating for large stressed electrode areas in SF6 (and SF6 mixtures): technical gaps
 /// broke at 50–70 % of the limiting field (a ~0.15 m² coaxial gap ≈ 50 %, a 150 mm plane gap
-/// ≈ 70 %) \[C\] (REFERENCES.md §3, translated conference excerpt); design practice keeps the peak
+/// ≈ 70 %) \[C\] (docs/references.md §3, translated conference excerpt); design practice keeps the peak
 /// SF6 field ≤ 0.5–0.7 × (E/p)_crit·p \[P\]. 0.6 is the middle of that range \[P\].
 pub const SF6_AREA_DERATING: f64 = 0.6;
 
@@ -172,7 +172,7 @@ impl Derating {
         Derating {
             factor: SF6_AREA_DERATING,
             basis: "large stressed area in SF6: technical gaps break at 50-70 % of the \
-                    limiting field (REFERENCES.md §3); 0.6 chosen, common practice"
+                    limiting field (docs/references.md §3); 0.6 chosen, common practice"
                 .to_string(),
             mark: Some(Mark::CommonPractice),
         }
@@ -208,7 +208,7 @@ pub struct Limit {
     pub criterion: Criterion,
     /// Human-readable name, e.g. "Paschen (air, γ = 0.01)".
     pub name: String,
-    /// Published source of the formula and constants, as REFERENCES.md names it.
+    /// Published source of the formula and constants, as docs/references.md names it.
     pub source: String,
     /// Confidence mark of the weakest constant used.
     pub mark: Mark,

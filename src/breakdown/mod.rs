@@ -6,7 +6,7 @@
 //! validity and any derating, for the margin stage to compare with computed peaks.
 //!
 //! Every function here is pure: no I/O, no global state, no field solution. Constants carry the
-//! confidence marks of REFERENCES.md in their doc comments: \[C\] confirmed, \[M\] from memory,
+//! confidence marks of docs/references.md in their doc comments: \[C\] confirmed, \[M\] from memory,
 //! \[P\] common practice, \[D\] derived by algebra from the others.
 //!
 //! - [`gas`]: identification of the gas, density reduction, SF6–N2 mixture strength.

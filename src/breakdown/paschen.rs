@@ -4,7 +4,7 @@
 //! V_b = B·(pd) / [ln(A·pd) − ln(ln(1 + 1/γ))], (pd)_min = e·ln(1 + 1/γ)/A,
 //! V_min = e·(B/A)·ln(1 + 1/γ) — Lieberman & Lichtenberg, *Principles of Plasma Discharges and
 //! Materials Processing*, 2nd ed. (2005), Ch. 14 \[C\]; minimum by differentiation \[D\]
-//! (REFERENCES.md §1). pd is the density-reduced product (p·T0/T)·d.
+//! (docs/references.md §1). pd is the density-reduced product (p·T0/T)·d.
 //!
 //! Validity: the formula has a solution only where A·pd > ln(1 + 1/γ); it is meaningful only
 //! inside the E/p window over which A, B were fitted, and becomes poor above pd ≈ 200 Torr·cm,
@@ -78,7 +78,7 @@ pub const CO2: PaschenConstants = PaschenConstants {
 };
 
 /// Above this pd (200 Torr·cm) breakdown is streamer-type and Paschen's law is poor
-/// (REFERENCES.md §1).
+/// (docs/references.md §1).
 pub const PD_MAX_PA_M: f64 = 200.0 * TORR_CM_PA_M;
 
 /// The Townsend constants of a gas of the table, or why there are none.
@@ -237,7 +237,7 @@ const fn measured(gas: &'static str, v: f64, pd_torr_cm: f64) -> MeasuredMinimum
     }
 }
 
-/// Measured minimum sparking potentials (REFERENCES.md §1). Air 327 V at 0.567 Torr·cm is also
+/// Measured minimum sparking potentials (docs/references.md §1). Air 327 V at 0.567 Torr·cm is also
 /// \[C\] (a public HV engineering article: 327 V, 7.5 µm at 1 atm); the rest are \[M\]. The SF6
 /// entry (Dakin et al., Electra No. 32, 1974) is from memory and unconfirmed.
 pub const MEASURED_MINIMA: [MeasuredMinimum; 8] = [

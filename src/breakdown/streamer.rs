@@ -1,5 +1,5 @@
 //! The streamer (Raether–Meek) criterion along a field line: ∫ (α − η) ds = K from the electrode
-//! surface to the point where α − η ≤ 0 (REFERENCES.md §4; the approach of the
+//! surface to the point where α − η ≤ 0 (docs/references.md §4; the approach of the
 //! Zaengl–Nyffenegger streamer criterion \[M\]).
 //!
 //! Input: a field-line profile as samples `(s, E)` — distance from the electrode surface along

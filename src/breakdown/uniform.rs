@@ -3,10 +3,10 @@
 //!
 //! - Air: Schumann-type fit V_b (kV) = 24.36·(pd) + 6.72·√(pd), p in bar at 20 °C (here the
 //!   density-reduced pressure), d in cm, valid for 0.01 ≲ pd ≲ 10 bar·cm — Kuffel, Zaengl &
-//!   Kuffel (2000), Ch. 5 \[M\] (REFERENCES.md §2).
+//!   Kuffel (2000), Ch. 5 \[M\] (docs/references.md §2).
 //! - CO2, N2: scaled air ([`super::gas::CO2_TO_AIR`], [`super::gas::N2_TO_AIR`]).
 //! - SF6 and SF6–N2: V_b = (E/p)_crit·p·d + K/k from the linear effective-ionisation fit
-//!   (REFERENCES.md §3), valid while E/p ≤ 1.5·(E/p)_crit; mixtures scaled by their strength.
+//!   (docs/references.md §3), valid while E/p ≤ 1.5·(E/p)_crit; mixtures scaled by their strength.
 //! - SF6 critical reduced field (E/N)_lim = 361 Td — Christophorou & Olthoff, J. Phys. Chem.
 //!   Ref. Data 29, 267 (2000) \[M\].
 
@@ -22,7 +22,7 @@ use super::limit::{Criterion, Limit, LimitKind, Mark, Validity};
 use super::paschen;
 use crate::model::Gas;
 
-/// pd range of the Schumann air fit, bar·cm \[M\] (REFERENCES.md §2: "roughly 0.01 ≲ p·d ≲
+/// pd range of the Schumann air fit, bar·cm \[M\] (docs/references.md §2: "roughly 0.01 ≲ p·d ≲
 /// 5–10 bar·cm"; the upper end 10 is used).
 pub const SCHUMANN_PD_RANGE_BAR_CM: (f64, f64) = (0.01, 10.0);
 
@@ -60,7 +60,7 @@ pub fn schumann_air_voltage(
 }
 
 /// The older air form of Naidu & Kamaraju: x = 293·p·d/(760·T) (p in Torr, d in cm, T in K),
-/// V_b = 24.22·x + 6.08·√x kV \[C\] (a public HV note citing Naidu & Kamaraju; REFERENCES.md §2).
+/// V_b = 24.22·x + 6.08·√x kV \[C\] (a public HV note citing Naidu & Kamaraju; docs/references.md §2).
 /// A cross-check of the Schumann fit (they differ by ~4 % at 1 cm); returns volts.
 pub fn air_older_form_voltage(
     pressure_pa: f64,
@@ -90,7 +90,9 @@ fn air_like_limit(state: &GasState, gap_m: f64) -> Result<Limit, BreakdownError>
         GasKind::Co2 => Limit::new(
             Criterion::ScaledAir,
             format!("scaled air: CO2 = {CO2_TO_AIR} x Schumann air fit"),
-            format!("{SCHUMANN_SOURCE}; CO2 strength 0.9 x air (REFERENCES.md §3), from memory"),
+            format!(
+                "{SCHUMANN_SOURCE}; CO2 strength 0.9 x air (docs/references.md §3), from memory"
+            ),
             Mark::FromMemory,
             LimitKind::Voltage,
             CO2_TO_AIR * v,
@@ -101,7 +103,7 @@ fn air_like_limit(state: &GasState, gap_m: f64) -> Result<Limit, BreakdownError>
             format!("scaled air: N2 = {N2_TO_AIR} x Schumann air fit"),
             format!(
                 "{SCHUMANN_SOURCE}; N2 strength 0.97 x air from 30.4 kV at 1 cm, 101.3 kPa \
-                 (REFERENCES.md §2, Taylor & Francis chapter abstract), derived"
+                 (docs/references.md §2, Taylor & Francis chapter abstract), derived"
             ),
             Mark::FromMemory,
             LimitKind::Voltage,
@@ -225,7 +227,7 @@ pub(crate) fn critical_field_for_state(
         GasKind::Co2 => Limit::new(
             Criterion::CriticalField,
             format!("CO2 limiting uniform field (scaled air, {CO2_TO_AIR} x air)"),
-            format!("{air_source}; CO2 strength 0.9 x air (REFERENCES.md §3), from memory"),
+            format!("{air_source}; CO2 strength 0.9 x air (docs/references.md §3), from memory"),
             Mark::FromMemory,
             LimitKind::Field,
             CO2_TO_AIR * air_e,
@@ -238,7 +240,7 @@ pub(crate) fn critical_field_for_state(
             ),
             format!(
                 "{air_source}; N2 strength 0.97 x air from 30.4 kV at 1 cm, 101.3 kPa \
-                 (REFERENCES.md §2), derived"
+                 (docs/references.md §2), derived"
             ),
             Mark::FromMemory,
             LimitKind::Field,

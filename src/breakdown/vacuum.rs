@@ -4,7 +4,7 @@
 //! - Cranberg's clump criterion (Cranberg, J. Appl. Phys. 23, 518–522 (1952),
 //!   doi:10.1063/1.1702243) \[C\]: breakdown when V·E exceeds a constant C, so a uniform gap holds
 //!   V_b = √(C·d); supported by data from 20 kV to 7 MV and 0.2 mm to 6 m \[C\]. C ≈ 1e12–1e14
-//!   V²/m by material and conditioning; 1e13 V²/m is a round default \[M\] (REFERENCES.md §6).
+//!   V²/m by material and conditioning; 1e13 V²/m is a round default \[M\] (docs/references.md §6).
 //! - Total-voltage effect V_b = k·d^α; α ≈ 1 below ~0.5 mm, 0.4–0.7 for longer gaps \[M\]
 //!   (Latham, *High Voltage Vacuum Insulation*, 1981/1995). k, α are material data the user
 //!   supplies with a source; the default is Cranberg's special case α = 0.5, k = √C.
@@ -18,7 +18,7 @@ use super::error::BreakdownError;
 use super::gas::positive;
 use super::limit::{Criterion, Limit, LimitKind, Mark, Validity};
 
-/// Default Cranberg constant C, V²/m \[M\] (REFERENCES.md §6).
+/// Default Cranberg constant C, V²/m \[M\] (docs/references.md §6).
 pub const CRANBERG_C_DEFAULT: f64 = 1.0e13;
 
 /// Gap range of Cranberg's supporting data, m \[C\].
@@ -198,7 +198,7 @@ pub enum CathodeClass {
     SmallPolished,
 }
 
-/// Cathode macroscopic surface-field design limit (V/m), common practice (REFERENCES.md §6).
+/// Cathode macroscopic surface-field design limit (V/m), common practice (docs/references.md §6).
 pub fn cathode_surface_field_limit(class: CathodeClass) -> Limit {
     let (v, what) = match class {
         CathodeClass::LargeArea => (
@@ -213,7 +213,7 @@ pub fn cathode_surface_field_limit(class: CathodeClass) -> Limit {
     Limit::new(
         Criterion::CathodeSurfaceField,
         "vacuum cathode surface-field design limit",
-        format!("typical DC design limits (REFERENCES.md §6), {what}; common practice"),
+        format!("typical DC design limits (docs/references.md §6), {what}; common practice"),
         Mark::CommonPractice,
         LimitKind::Field,
         v,
@@ -231,7 +231,7 @@ pub enum KilpatrickForm {
     Boyd,
 }
 
-/// Kilpatrick's RF breakdown field (V/m) at `frequency_hz` \[C\] (REFERENCES.md §6).
+/// Kilpatrick's RF breakdown field (V/m) at `frequency_hz` \[C\] (docs/references.md §6).
 ///
 /// **RF only; do not apply to DC.** The result is always marked outside validity for that
 /// reason, so that it cannot pass as a DC limit. Boyd's form gives 28.64 MV/m at 1 GHz \[D\];

@@ -2,7 +2,7 @@
 //!
 //! Input: a material name from `[[dielectric]] material = "..."`. Output: the ε_r used for the
 //! field solution, the published range it stands for, where the value comes from and how sure
-//! it is. Values follow the permittivity table of the project's references (REFERENCES.md §11):
+//! it is. Values follow the permittivity table of the project's references (docs/references.md §11):
 //! where the table gives a typical value that value is used, otherwise the midpoint of the
 //! published range, and the range is kept beside it so reports can show it. ε_r depends on
 //! frequency and temperature; for long-time DC fields in composite insulation the conductivity

@@ -492,7 +492,7 @@ pub struct LadderEquivalent {
     pub alpha_n: f64,
     /// The ladder's voltage across the gap at the `to` end just after that end falls to
     /// earth, V: −V(N−1)/N + V·sinh(α(N−1))/sinh(αN) for a uniform chain of N gaps at end-to-end
-    /// voltage V (the node shift −V·sinh(αx)/sinh(αN), PRACTICE.md §2.5, added to the linear
+    /// voltage V (the node shift −V·sinh(αx)/sinh(αN), docs/practice.md §2.5, added to the linear
     /// profile). It keeps only neighbour and earth capacitances; the transient scenario uses
     /// the whole matrix.
     pub ladder_end_gap_v: f64,

@@ -189,7 +189,7 @@ const CLAMP_FACTOR: f64 = 1e6;
 
 /// Default half-width of the firing band of a protective gap, as a fraction of its nominal
 /// firing voltage (common practice, no source: firing drifts with pressure and erosion,
-/// PRACTICE.md §2.3).
+/// docs/practice.md §2.3).
 pub const DEFAULT_FIRING_BAND: f64 = 0.1;
 
 /// A protective spark gap across one gap or across a section of consecutive gaps.

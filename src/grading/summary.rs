@@ -11,7 +11,7 @@ use crate::model::{LeakageSpec, Model};
 use serde::Serialize;
 
 /// The usual setting of a protective gap as a multiple of the nominal voltage across its span
-/// (common practice, no source: PRACTICE.md §2.3 gives about 1.3–1.6 ×).
+/// (common practice, no source: docs/practice.md §2.3 gives about 1.3–1.6 ×).
 pub const PROTECTIVE_SETTING_RANGE: (f64, f64) = (1.3, 1.6);
 
 /// Protective gaps of a column as set against the nominal voltage across their spans.

@@ -12,7 +12,7 @@
 //! b_k = 2u_k − 2V_f − (q/2)Σ_{j≤k}(n−j+1)/C_j. With equal C this is a peak drop of
 //! (q/C)(2n³/3 + n²/4 + n/12) and a mean drop of (q/C)(2n³/3 + n²/2 + n/3) (half-wave), and
 //! (q/C)(n³/6 + n²/4 + n/12) peak, (q/C)(n³/6 + n²/4 + n/3) mean (symmetric) — the last is the
-//! form that REFERENCES.md §8/§14 fitted to time-domain runs. The textbook half-wave drop
+//! form that docs/references.md §8/§14 fitted to time-domain runs. The textbook half-wave drop
 //! (I/fC)(2n³/3 + n²/2 − n/6) lies between the peak and the mean drop.
 
 use super::error::LadderError;
@@ -21,7 +21,7 @@ use super::params::{
 };
 use serde::Serialize;
 
-/// Half-wave textbook forms (REFERENCES.md §8: Kuffel, Zaengl & Kuffel 2000 Ch. 2; Naidu &
+/// Half-wave textbook forms (docs/references.md §8: Kuffel, Zaengl & Kuffel 2000 Ch. 2; Naidu &
 /// Kamaraju Ch. 6). Valid for small ripple, equal C, no strays, ideal diodes, sine drive.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct HalfWaveForms {
@@ -33,7 +33,7 @@ pub struct HalfWaveForms {
     pub output_v: f64,
     /// n_opt = √(V₀fC/I) (from d(2nV₀ − ΔV)/dn = 0 with the n³ term); infinite at no load.
     pub n_opt: f64,
-    /// ≈ (4/3)·n_opt·V₀, the output at n_opt (REFERENCES.md §8 [M/D]).
+    /// ≈ (4/3)·n_opt·V₀, the output at n_opt (docs/references.md §8 [M/D]).
     pub max_output_v: f64,
 }
 
@@ -41,16 +41,16 @@ pub struct HalfWaveForms {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SymmetricForms {
     /// ΔV = (I/6fC)(n³ + 2n): a secondary compilation, **not confirmed** against a textbook
-    /// and 10–50 % below time-domain runs (REFERENCES.md §8, open items).
+    /// and 10–50 % below time-domain runs (docs/references.md §8, open items).
     pub drop_compilation_v: f64,
     /// δV (peak-to-peak) = I·n/(2fC), same compilation, unconfirmed (holds within ~7 %).
     pub ripple_pp_compilation_v: f64,
-    /// ΔV ≈ (I/fC)(n³/6 + n²/4 + n/3): fitted to ideal-diode time-domain runs (REFERENCES.md
-    /// §14, PRACTICE.md §4.1, derived) and equal to the impulse-model mean drop.
+    /// ΔV ≈ (I/fC)(n³/6 + n²/4 + n/3): fitted to ideal-diode time-domain runs (docs/references.md
+    /// §14, docs/practice.md §4.1, derived) and equal to the impulse-model mean drop.
     pub drop_time_domain_v: f64,
 }
 
-/// Greinacher doubler with oscillating C1 and smoothing C2 (REFERENCES.md §8/§12 ex. 3, an
+/// Greinacher doubler with oscillating C1 and smoothing C2 (docs/references.md §8/§12 ex. 3, an
 /// open textbook-companion worked example, Ex. 1).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct DoublerForms {
@@ -65,7 +65,7 @@ pub struct DoublerForms {
 /// Efficiency of a ladder with strays to earth at no load, η = V_out/(2nV₀).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct StrayForms {
-    /// Discrete capacitive ladder of the oscillating column(s) (REFERENCES.md §8 "discrete
+    /// Discrete capacitive ladder of the oscillating column(s) (docs/references.md §8 "discrete
     /// model", [D], matches circuit simulation exactly).
     pub efficiency_discrete: f64,
     /// Continuum limit tanh(αn)/(αn), α = √(C_s/C) with the column means (Everhart & Lorrain
@@ -97,9 +97,9 @@ pub struct ClosedForm {
     pub stages: usize,
     /// The load current used (for a resistive load, the current at the impulse-model output).
     pub load_current_a: f64,
-    /// 2nV₀ (REFERENCES.md §8 [C]).
+    /// 2nV₀ (docs/references.md §8 [C]).
     pub ideal_no_load_v: f64,
-    /// 2n·V_f, the forward-drop loss (REFERENCES.md §8, informal note [C]).
+    /// 2n·V_f, the forward-drop loss (docs/references.md §8, informal note [C]).
     pub diode_drop_loss_v: f64,
     /// Present when all capacitors are equal and the cascade is half-wave.
     pub half_wave: Option<HalfWaveForms>,
@@ -178,7 +178,7 @@ pub(crate) fn closed_form_unchecked(p: &LadderParams) -> ClosedForm {
             if n <= 4 {
                 notes.push(format!(
                     "n = {n}: the finite conduction angle adds 4-14 % to the textbook drop at \
-                     n = 2-4 (PRACTICE.md §4.1)"
+                     n = 2-4 (docs/practice.md §4.1)"
                 ));
             }
         }
@@ -191,7 +191,7 @@ pub(crate) fn closed_form_unchecked(p: &LadderParams) -> ClosedForm {
             });
             notes.push(
                 "symmetric drop (n³+2n)/6 is an unconfirmed compilation formula; \
-                 (n³/6+n²/4+n/3) fits time-domain runs (REFERENCES.md §8 open item)"
+                 (n³/6+n²/4+n/3) fits time-domain runs (docs/references.md §8 open item)"
                     .to_string(),
             );
         }
@@ -228,14 +228,14 @@ pub(crate) fn closed_form_unchecked(p: &LadderParams) -> ClosedForm {
 }
 
 /// Discrete stray-ladder efficiency for n equal stages with C_s/C = `ratio` on each
-/// oscillating node (REFERENCES.md §8 discrete model, rows 34–35).
+/// oscillating node (docs/references.md §8 discrete model, rows 34–35).
 pub fn stray_efficiency_discrete(stages: usize, ratio: f64) -> Result<f64, LadderError> {
     check_stray_args(stages, ratio)?;
     let u = ac_amplitudes(&vec![1.0; stages], &vec![ratio; stages], 1.0);
     Ok(u.iter().sum::<f64>() / stages as f64)
 }
 
-/// Continuum stray efficiency tanh(αn)/(αn), α = √ratio (REFERENCES.md §8, PRACTICE.md §4.4).
+/// Continuum stray efficiency tanh(αn)/(αn), α = √ratio (docs/references.md §8, docs/practice.md §4.4).
 pub fn stray_efficiency_continuum(stages: usize, ratio: f64) -> Result<f64, LadderError> {
     check_stray_args(stages, ratio)?;
     Ok(continuum(stages, ratio))
@@ -253,7 +253,7 @@ fn check_stray_args(stages: usize, ratio: f64) -> Result<(), LadderError> {
     check_non_negative("stray ratio C_s/C", ratio, "")
 }
 
-/// Energy ½CV² of a capacitor (REFERENCES.md §13, row 40).
+/// Energy ½CV² of a capacitor (docs/references.md §13, row 40).
 pub fn capacitor_energy_j(capacitance_f: f64, voltage_v: f64) -> f64 {
     0.5 * capacitance_f * voltage_v * voltage_v
 }

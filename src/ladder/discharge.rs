@@ -3,7 +3,7 @@
 //! stopped with it (beam off): only the resistors discharge the stack, from the loaded state
 //! at the end of a cycle.
 //!
-//! τ = R·C_eff with C_eff the smoothing column in series (PRACTICE.md §4.5, §8.1: the
+//! τ = R·C_eff with C_eff the smoothing column in series (docs/practice.md §4.5, §8.1: the
 //! divider-only discharge is set mainly by the smoothing column). The oscillating columns keep
 //! their charge until the falling smoothing nodes forward-bias the transfer diodes, then return
 //! it, so the simulated time to 1 % exceeds τ·ln 100.

@@ -6,7 +6,7 @@
 //! Output: [`LadderResult`] — stage voltages (for `potential = "stage:N"`), ratings, ripple,
 //! drop, stored energy, discharge time — and [`ClosedForm`] for comparison. The circuit is
 //! simulated because real drops, strays and finite conduction angles move the answer away from
-//! the closed forms (PRACTICE.md §4.2).
+//! the closed forms (docs/practice.md §4.2).
 
 mod assemble;
 mod band;

@@ -5,7 +5,7 @@
 //! and ripple (see `closed`) give the least capacitance that leaves the required headroom;
 //! candidates from there upward (the offered values, or a continuous value rounded up to three
 //! significant figures and raised by the simulated shortfall) are simulated until one meets
-//! every limit. Designs are ranked by stored energy (the safety-relevant figure, PRACTICE.md
+//! every limit. Designs are ranked by stored energy (the safety-relevant figure, docs/practice.md
 //! §4.3), then by stage count.
 
 use super::assemble::{loaded_output, simulate};

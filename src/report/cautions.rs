@@ -81,7 +81,7 @@ fn fmt_energy(j: f64) -> String {
 
 /// No-load stored energy of a Cockcroft–Walton stack, J: ½·C·V² over its capacitors, with
 /// every stage capacitor charged to 2·V_m except the first capacitor of each oscillating column,
-/// which holds V_m (REFERENCES.md §8, \[M\]; Kuffel et al. 2000, Ch. 2). A half-wave stack has
+/// which holds V_m (docs/references.md §8, \[M\]; Kuffel et al. 2000, Ch. 2). A half-wave stack has
 /// one oscillating and one smoothing column of `stages` capacitors each; a symmetric stack has
 /// two oscillating columns and one smoothing column (the same rule applied to each column,
 /// \[D\]). `None` for an unknown topology or non-finite inputs.
@@ -175,7 +175,7 @@ mod tests {
 
     #[test]
     fn stack_energy_by_half_c_v_squared() {
-        // ½CV² per capacitor (REFERENCES.md §13; 1 nF at 1 MV = 500 J, row 40), with the
+        // ½CV² per capacitor (docs/references.md §13; 1 nF at 1 MV = 500 J, row 40), with the
         // charging rule of §8: half-wave 8 x 2Vm + (Vm + 7 x 2Vm) over 6.8 nF at Vm = 50 kV.
         let half = 0.5 * 6.8e-9 * (8.0 * 1e10 + 2.5e9 + 7.0 * 1e10);
         assert!((multiplier_stored_energy_j(&stack("half-wave")).unwrap() - half).abs() < 1e-9);
