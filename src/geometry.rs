@@ -85,14 +85,34 @@ pub enum Shape {
         points: Vec<Point>,
         fillet: f64,
         #[serde(skip)]
-        outline: Vec<PieceBox>,
+        outline: Outline,
     },
 }
 
-/// A polygon outline piece kept private behind a newtype so that `Shape` stays comparable and
-/// printable while its derived outline stays an implementation detail.
-#[derive(Debug, Clone, PartialEq)]
-pub struct PieceBox(Piece);
+/// The derived outline of a polygon: its lines and arcs in order around the loop. Kept
+/// private behind a newtype so that `Shape` stays comparable and printable while the outline
+/// stays an implementation detail.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Outline {
+    pieces: Vec<Piece>,
+    /// Vertices left sharp that point into the field: convex corners with no fillet.
+    sharp: Vec<Point>,
+}
+
+/// Is the edge `a`–`b` on the axis? Such an edge is the inside of the solid of revolution,
+/// not a surface: it closes the outline but has no distance and no fillet.
+fn on_axis(a: Point, b: Point) -> bool {
+    a.r <= AXIS_TOL && b.r <= AXIS_TOL
+}
+
+/// A vertex whose outline turns by less than this (radians, 5°) is taken as a facet joint of
+/// a curve, not as a sharp edge: the field singularity of a corner whose field-side angle is
+/// π + δ grows only as ρ^(−δ/(π+δ)), a few per cent over the range of any mesh (a modelling
+/// choice, common practice for faceted outlines).
+const SHARP_TURN: f64 = 5.0 * std::f64::consts::PI / 180.0;
+
+/// Radii at or below this count as on the axis, metres.
+const AXIS_TOL: f64 = 1e-12;
 
 impl Shape {
     /// A polygon with filleted vertices. Points are in order (either sense); the outline is
@@ -128,14 +148,17 @@ impl Shape {
                 let (lo, hi) = if *r0 <= 0.0 { (-r1, *r1) } else { (*r0, *r1) };
                 rounded_box(p, lo, hi, *z0, *z1, *corner_radius)
             }
-            Shape::Polygon {
-                points, outline, ..
-            } => {
+            Shape::Polygon { outline, .. } => {
                 let mut d = f64::INFINITY;
-                for piece in outline {
-                    d = d.min(piece_distance(&piece.0, p));
+                for piece in &outline.pieces {
+                    if let Piece::Line { a, b } = piece
+                        && on_axis(*a, *b)
+                    {
+                        continue;
+                    }
+                    d = d.min(piece_distance(piece, p));
                 }
-                if inside_polygon(points, outline, p) {
+                if inside_outline(&outline.pieces, p) {
                     -d
                 } else {
                     d
@@ -213,7 +236,42 @@ impl Shape {
             Shape::Sphere { radius, .. } => *radius,
             Shape::Torus { minor_radius, .. } => *minor_radius,
             Shape::RoundedRect { corner_radius, .. } => *corner_radius,
-            Shape::Polygon { fillet, .. } => *fillet,
+            Shape::Polygon {
+                fillet, outline, ..
+            } => {
+                if outline.sharp.is_empty() {
+                    *fillet
+                } else {
+                    0.0
+                }
+            }
+        }
+    }
+
+    /// Convex corners of the outline left without rounding: points where the field of a
+    /// conductor is singular (it grows without bound as the mesh is refined), so no finite peak
+    /// exists there. The axis is not a corner: a solid body's outline is mirrored about it.
+    pub fn sharp_corners(&self) -> Vec<Point> {
+        match self {
+            Shape::Sphere { .. } | Shape::Torus { .. } => Vec::new(),
+            Shape::RoundedRect {
+                r0,
+                r1,
+                z0,
+                z1,
+                corner_radius,
+            } => {
+                if *corner_radius > 0.0 {
+                    return Vec::new();
+                }
+                let mut c = vec![Point::new(*r1, *z0), Point::new(*r1, *z1)];
+                if *r0 > 0.0 {
+                    c.push(Point::new(*r0, *z0));
+                    c.push(Point::new(*r0, *z1));
+                }
+                c
+            }
+            Shape::Polygon { outline, .. } => outline.sharp.clone(),
         }
     }
 
@@ -333,22 +391,22 @@ fn piece_distance(piece: &Piece, p: Point) -> f64 {
     }
 }
 
-/// Builds the filleted outline of a closed polygon.
-fn build_outline(points: &[Point], fillet: f64) -> Vec<PieceBox> {
+/// Builds the filleted outline of a closed polygon. Vertices on the axis next to an edge on
+/// the axis are not filleted (the axis is not a surface); such a vertex is sharp only when
+/// the body mirrored about the axis has a corner there (its edge meets the axis off square).
+fn build_outline(points: &[Point], fillet: f64) -> Outline {
     let n = points.len();
-    let mut pieces = Vec::new();
+    let mut out = Outline::default();
     if n < 3 {
-        return pieces;
+        return out;
     }
-    if fillet <= 0.0 {
-        for k in 0..n {
-            pieces.push(PieceBox(Piece::Line {
-                a: points[k],
-                b: points[(k + 1) % n],
-            }));
-        }
-        return pieces;
-    }
+    // Orientation: positive area is counter-clockwise in (r, z).
+    let area2: f64 = (0..n)
+        .map(|k| {
+            let (a, b) = (points[k], points[(k + 1) % n]);
+            a.r * b.z - b.r * a.z
+        })
+        .sum();
     // For each vertex: the two tangent points and the arc between them.
     let mut arcs: Vec<(Point, Point, Option<Piece>)> = Vec::with_capacity(n);
     for k in 0..n {
@@ -368,8 +426,39 @@ fn build_outline(points: &[Point], fillet: f64) -> Vec<PieceBox> {
             Point::new(v.r / lv, v.z / lv),
         );
         let cos_t = (u.r * v.r + u.z * v.z).clamp(-1.0, 1.0);
-        let theta = cos_t.acos(); // interior angle between the edges at the vertex
+        let theta = cos_t.acos(); // angle between the edges at the vertex
+        // Convex (the solid's interior angle below π): the turn from the incoming edge to the
+        // outgoing one has the sense of the loop.
+        let cross = (cur.r - prev.r) * (next.z - cur.z) - (cur.z - prev.z) * (next.r - cur.r);
+        let convex = cross * area2 > 0.0;
+        if on_axis(prev, cur) || on_axis(cur, next) {
+            // The mirrored body's corner: the other edge against the axis, doubled.
+            let w = if on_axis(prev, cur) { v } else { u };
+            if w.r.abs() < 1.0 - 1e-9 && cur.r <= AXIS_TOL && w.r > 0.0 {
+                // The edge leaves the axis off square: a cone point on the axis, sharp when
+                // the solid's full angle there (twice the edge's angle to the axis) is below π.
+                let to_axis = w.z.abs().acos(); // angle between the edge and the axis
+                let inside_up = if on_axis(prev, cur) { u.z } else { v.z };
+                let solid_angle = if inside_up * w.z > 0.0 {
+                    2.0 * to_axis
+                } else {
+                    2.0 * (std::f64::consts::PI - to_axis)
+                };
+                if solid_angle < std::f64::consts::PI - SHARP_TURN {
+                    out.sharp.push(cur);
+                }
+            }
+            arcs.push((cur, cur, None));
+            continue;
+        }
         if theta < 1e-9 || (std::f64::consts::PI - theta) < 1e-9 {
+            arcs.push((cur, cur, None));
+            continue;
+        }
+        if fillet <= 0.0 {
+            if convex && std::f64::consts::PI - theta > SHARP_TURN {
+                out.sharp.push(cur);
+            }
             arcs.push((cur, cur, None));
             continue;
         }
@@ -407,56 +496,70 @@ fn build_outline(points: &[Point], fillet: f64) -> Vec<PieceBox> {
     for k in 0..n {
         let (_, out_k, arc) = &arcs[k];
         if let Some(arc) = arc {
-            pieces.push(PieceBox(arc.clone()));
+            out.pieces.push(arc.clone());
         }
         let (in_next, _, _) = &arcs[(k + 1) % n];
-        pieces.push(PieceBox(Piece::Line {
+        out.pieces.push(Piece::Line {
             a: *out_k,
             b: *in_next,
-        }));
+        });
     }
-    pieces
+    out
 }
 
-/// Inside test by crossing number on the outline, with arcs subdivided finely.
-fn inside_polygon(points: &[Point], outline: &[PieceBox], p: Point) -> bool {
-    let mut ring: Vec<Point> = Vec::with_capacity(points.len() * 8);
-    for piece in outline {
-        match &piece.0 {
-            Piece::Line { a, .. } => ring.push(*a),
+/// Inside test by the crossing number of a ray from `p` towards +r, exact for lines and arcs:
+/// each arc is split into pieces monotone in z (at the top and bottom of its circle), and every
+/// piece counts by the same half-open rule as a line, so that joints are counted once.
+fn inside_outline(pieces: &[Piece], p: Point) -> bool {
+    let mut inside = false;
+    let mut count = |a: Point, b: Point, x: f64| {
+        if (a.z > p.z) != (b.z > p.z) && p.r < x {
+            inside = !inside;
+        }
+    };
+    for piece in pieces {
+        match piece {
+            Piece::Line { a, b } => {
+                if (a.z > p.z) != (b.z > p.z) {
+                    let x = a.r + (p.z - a.z) * (b.r - a.r) / (b.z - a.z);
+                    count(*a, *b, x);
+                }
+            }
             Piece::Arc {
                 c,
                 radius,
                 a0,
                 sweep,
             } => {
-                let steps = 64;
-                for s in 0..steps {
-                    let ang = a0 + sweep * (s as f64) / (steps as f64);
-                    ring.push(Point::new(
-                        c.r + radius * ang.cos(),
-                        c.z + radius * ang.sin(),
-                    ));
+                use std::f64::consts::{FRAC_PI_2, PI};
+                // Angles where the circle turns in z: π/2 + kπ, inside the sweep.
+                let (lo, hi) = if *sweep >= 0.0 {
+                    (*a0, a0 + sweep)
+                } else {
+                    (a0 + sweep, *a0)
+                };
+                let mut cuts = vec![lo];
+                let mut t = ((lo - FRAC_PI_2) / PI).ceil() * PI + FRAC_PI_2;
+                while t < hi {
+                    if t > lo {
+                        cuts.push(t);
+                    }
+                    t += PI;
+                }
+                cuts.push(hi);
+                let at = |ang: f64| Point::new(c.r + radius * ang.cos(), c.z + radius * ang.sin());
+                for w in cuts.windows(2) {
+                    let (s, e) = (at(w[0]), at(w[1]));
+                    if (s.z > p.z) != (e.z > p.z) {
+                        let dz = (p.z - c.z) / radius;
+                        let dr = radius * (1.0 - dz * dz).max(0.0).sqrt();
+                        // The piece lies on one side of the circle's vertical diameter.
+                        let side = (0.5 * (w[0] + w[1])).cos().signum();
+                        count(s, e, c.r + side * dr);
+                    }
                 }
             }
         }
-    }
-    if ring.len() < 3 {
-        ring = points.to_vec();
-    }
-    let mut inside = false;
-    let n = ring.len();
-    let mut j = n - 1;
-    for i in 0..n {
-        let a = ring[i];
-        let b = ring[j];
-        if (a.z > p.z) != (b.z > p.z) {
-            let x = a.r + (p.z - a.z) * (b.r - a.r) / (b.z - a.z);
-            if p.r < x {
-                inside = !inside;
-            }
-        }
-        j = i;
     }
     inside
 }

@@ -244,6 +244,60 @@ impl Margins {
     }
 }
 
+/// A sharp convex corner of a conductor exposed to the field: the field there is singular.
+#[derive(Debug, Clone, Serialize)]
+pub struct SharpCorner {
+    pub conductor: String,
+    pub at: Point,
+}
+
+impl SharpCorner {
+    fn describe(&self) -> String {
+        format!(
+            "FIELD SINGULARITY: conductor '{}' has a sharp corner at r, z = {:.1}, {:.1} mm; the \
+             field at a sharp edge grows without bound as the mesh is refined, so it has no \
+             finite peak, margin or hold-off voltage: give the corner a radius \
+             (`corner_radius`, `fillet`)",
+            self.conductor,
+            self.at.r * 1e3,
+            self.at.z * 1e3
+        )
+    }
+}
+
+/// The sharp corners of every conductor that face the field: not buried in another conductor,
+/// not on another conductor's surface and not on the tank wall (a corner against a wall or a
+/// touching conductor is a junction, where the field goes to zero instead).
+pub fn sharp_corners(model: &Model) -> Vec<SharpCorner> {
+    let mut out = Vec::new();
+    for (index, c) in model.conductors.iter().enumerate() {
+        let tol = 1e-6 * (1.0 + c.shape.scale());
+        for at in c.shape.sharp_corners() {
+            let touches = model
+                .conductors
+                .iter()
+                .enumerate()
+                .any(|(other, o)| other != index && o.shape.sdf(at) <= tol);
+            let on_wall = match model.tank {
+                crate::model::Tank::Cylinder {
+                    inner_radius,
+                    length,
+                } => at.z <= tol || at.z >= length - tol || at.r >= inner_radius - tol,
+                crate::model::Tank::Sphere { inner_radius } => {
+                    crate::geometry::magnitude(at.r, at.z - inner_radius) >= inner_radius - tol
+                }
+            };
+            if !touches && !on_wall {
+                out.push(SharpCorner {
+                    conductor: c.name.clone(),
+                    at,
+                });
+            }
+        }
+    }
+    out
+}
+
 fn override_of(model: &Model, key: &str) -> Option<f64> {
     model
         .checks
@@ -1057,6 +1111,23 @@ pub fn evaluate(
     for index in 0..model.dielectrics.len() {
         insulator_rows(&ctx, &fm, index, &fine.samples, &mut rows)?;
     }
+    let singular = sharp_corners(model);
+    for corner in &singular {
+        notes.push(corner.describe());
+        // No finite margin stands for a conductor whose surface field is unbounded.
+        for r in rows.iter_mut().filter(|r| r.item == corner.conductor) {
+            r.margin = None;
+            r.margin_ideal = None;
+            r.status = Status::Fail;
+            r.in_holdoff = false;
+            r.note = Some(format!(
+                "field singularity at the sharp corner at r, z = {:.1}, {:.1} mm: no finite \
+                 peak; give the corner a radius",
+                corner.at.r * 1e3,
+                corner.at.z * 1e3
+            ));
+        }
+    }
     rank(&mut rows);
 
     let v = model.terminal_voltage;
@@ -1096,7 +1167,17 @@ pub fn evaluate(
         ));
         (None, None)
     };
-    if h.is_none() && v > 0.0 {
+    let (h, hi) = if singular.is_empty() {
+        (h, hi)
+    } else {
+        holdoff_notes.push(format!(
+            "no hold-off voltage: {} sharp conductor corner(s) make the peak field unbounded \
+             (a field singularity), so no terminal voltage is known to be safe",
+            singular.len()
+        ));
+        (None, None)
+    };
+    if h.is_none() && v > 0.0 && singular.is_empty() {
         holdoff_notes.push("no row with a number enters the hold-off voltage".to_string());
     }
     Ok(Margins {

@@ -463,6 +463,10 @@ fn fillet_limit(pts: &[Point]) -> Option<f64> {
     let mut limit = f64::INFINITY;
     for k in 0..n {
         let (prev, cur, next) = (pts[(k + n - 1) % n], pts[k], pts[(k + 1) % n]);
+        // A vertex at the end of an edge on the axis takes no fillet (the axis is no surface).
+        if (prev.r <= 0.0 && cur.r <= 0.0) || (cur.r <= 0.0 && next.r <= 0.0) {
+            continue;
+        }
         let u = Point::new(prev.r - cur.r, prev.z - cur.z);
         let v = Point::new(next.r - cur.r, next.z - cur.z);
         let (lu, lv) = (u.r.hypot(u.z), v.r.hypot(v.z));
@@ -517,7 +521,9 @@ pub(crate) fn boundary_samples(shape: &Shape, n: usize) -> Vec<Point> {
                 on_axis && a.r <= 0.0 && b.r <= 0.0
             })
         }
-        Shape::Polygon { points, .. } => outline_samples(shape, points, n, |_, _| false),
+        Shape::Polygon { points, .. } => {
+            outline_samples(shape, points, n, |a, b| a.r <= 0.0 && b.r <= 0.0)
+        }
     }
 }
 
