@@ -464,7 +464,7 @@ fn fillet_limit(pts: &[Point]) -> Option<f64> {
     for k in 0..n {
         let (prev, cur, next) = (pts[(k + n - 1) % n], pts[k], pts[(k + 1) % n]);
         // A vertex at the end of an edge on the axis takes no fillet (the axis is no surface).
-        if (prev.r <= 0.0 && cur.r <= 0.0) || (cur.r <= 0.0 && next.r <= 0.0) {
+        if cur.r <= 0.0 && (prev.r <= 0.0 || next.r <= 0.0) {
             continue;
         }
         let u = Point::new(prev.r - cur.r, prev.z - cur.z);
