@@ -7,8 +7,10 @@
 //! `conductor[terminal].corner_radius` (a table of an array chosen by its `name`, or by its
 //! 1-based position, `column[1].minor_radius`).
 
+use crate::analysis::Analysis;
 use crate::design::{DesignError, from_str};
-use crate::margin::{Margins, RowMedium};
+use crate::margin::{Margins, RowMedium, evaluate};
+use crate::model::Model;
 use crate::review::{ReviewError, review};
 use crate::solve::SolverParams;
 use crate::units::{Dimension, UnitError, parse_quantity};
@@ -179,6 +181,63 @@ fn summarise(m: &Margins, value_si: f64, value: String) -> SweepPoint {
     }
 }
 
+/// The model with the parameter at `v` (SI), and the value as written into the design.
+fn model_at(
+    text: &str,
+    file: &str,
+    path: &str,
+    v: f64,
+    dim: Dimension,
+) -> Result<(Model, String), SweepError> {
+    let value = value_text(v, dim);
+    let edited = set_value(text, path, &value)?;
+    let model = from_str(&edited, file).map_err(|e| SweepError::Design {
+        path: path.to_string(),
+        value: value.clone(),
+        error: Box::new(e),
+    })?;
+    Ok((model, value))
+}
+
+/// A field solved once for every value of a parameter that moves neither geometry nor
+/// potentials (the gas, its pressure and temperature, the `[checks]` overrides): only the
+/// breakdown limits change, so each value needs its margins and no solve.
+struct SharedField {
+    model: Model,
+    fine: Analysis,
+}
+
+/// Whether two models have the same field: equal in everything but the gas and the
+/// `[checks]` overrides, which enter only the breakdown limits.
+fn same_field(a: &Model, b: &Model) -> bool {
+    let mut b = b.clone();
+    b.gas.clone_from(&a.gas);
+    b.checks.clone_from(&a.checks);
+    *a == b
+}
+
+/// The shared field of a sweep from `a` to `b` when the parameter moves no field (the models
+/// at both ends have the same field), solved once at `a`; `None` otherwise, or when either
+/// end is not a valid design (its point then reports why).
+fn shared_field(
+    text: &str,
+    file: &str,
+    path: &str,
+    (a, b, dim): (f64, f64, Dimension),
+) -> Result<Option<SharedField>, SweepError> {
+    let (Ok((ma, _)), Ok((mb, _))) = (
+        model_at(text, file, path, a, dim),
+        model_at(text, file, path, b, dim),
+    ) else {
+        return Ok(None);
+    };
+    if !same_field(&ma, &mb) {
+        return Ok(None);
+    }
+    let fine = review(&ma, &SolverParams::default(), false)?.fine;
+    Ok(Some(SharedField { model: ma, fine }))
+}
+
 /// Reviews the design with the parameter at `v` (SI).
 pub fn evaluate_at(
     text: &str,
@@ -187,13 +246,26 @@ pub fn evaluate_at(
     v: f64,
     dim: Dimension,
 ) -> Result<SweepPoint, SweepError> {
-    let value = value_text(v, dim);
-    let edited = set_value(text, path, &value)?;
-    let model = from_str(&edited, file).map_err(|e| SweepError::Design {
-        path: path.to_string(),
-        value: value.clone(),
-        error: Box::new(e),
-    })?;
+    evaluate_sharing(text, file, path, v, dim, None)
+}
+
+/// As [`evaluate_at`], taking the field from `shared` when the model at `v` has the same
+/// field (then only the margins are evaluated).
+fn evaluate_sharing(
+    text: &str,
+    file: &str,
+    path: &str,
+    v: f64,
+    dim: Dimension,
+    shared: Option<&SharedField>,
+) -> Result<SweepPoint, SweepError> {
+    let (model, value) = model_at(text, file, path, v, dim)?;
+    if let Some(s) = shared
+        && same_field(&s.model, &model)
+    {
+        let m = evaluate(&model, &s.fine, None).map_err(ReviewError::from)?;
+        return Ok(summarise(&m, v, value));
+    }
     let r = review(&model, &SolverParams::default(), false)?;
     Ok(summarise(&r.margins, v, value))
 }
@@ -240,12 +312,13 @@ pub fn sweep_with_progress(
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<Vec<SweepPoint>, SweepError> {
     let steps = steps.max(2);
+    let shared = shared_field(text, file, path, (a, b, dim))?;
     let done = std::sync::atomic::AtomicUsize::new(0);
     (0..steps)
         .into_par_iter()
         .map(|k| {
             let v = a + (b - a) * k as f64 / (steps - 1) as f64;
-            let r = evaluate_at(text, file, path, v, dim);
+            let r = evaluate_sharing(text, file, path, v, dim, shared.as_ref());
             progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1);
             r
         })
@@ -277,6 +350,21 @@ pub fn least_value_sampled(
     sampled: &[SweepPoint],
 ) -> Result<Option<LeastValue>, SweepError> {
     let (lo0, hi0) = (a.min(b), a.max(b));
+    // Solved on the first evaluation that needs a field, when the parameter moves none.
+    let shared: std::cell::OnceCell<Option<SharedField>> = std::cell::OnceCell::new();
+    let evaluate_at = |text: &str, file: &str, path: &str, v: f64, dim: Dimension| {
+        if shared.get().is_none() {
+            let _ = shared.set(shared_field(text, file, path, (lo0, hi0, dim))?);
+        }
+        evaluate_sharing(
+            text,
+            file,
+            path,
+            v,
+            dim,
+            shared.get().and_then(Option::as_ref),
+        )
+    };
     let mut evaluations = 0;
     let mut known: Vec<SweepPoint> = sampled
         .iter()

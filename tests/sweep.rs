@@ -112,3 +112,25 @@ fn alternating_pass_and_fail_is_reported() {
             .is_some_and(|n| n.contains("lowest crossing"))
     );
 }
+
+/// A pressure sweep solves the field once and evaluates only the margins at each value; the
+/// points equal a full review at each value (the second, independent way to the same number:
+/// the field of a design does not depend on its gas, which enters only the breakdown limits).
+#[test]
+fn pressure_sweep_with_one_solve_equals_a_full_review_at_each_value() {
+    let text = demo();
+    let span = range("1.5 bar", "4 bar").expect("range");
+    let points = sweep(&text, "demo", "gas.pressure", span, 3).expect("sweep");
+    for p in &points {
+        let full = evaluate_at(&text, "demo", "gas.pressure", p.value_si, span.2).expect("review");
+        assert_eq!(p.worst_item, full.worst_item);
+        assert_eq!(p.meets_design_factor, full.meets_design_factor);
+        let (a, b) = (p.worst_margin.unwrap(), full.worst_margin.unwrap());
+        assert!((a - b).abs() <= 1e-12 * b.abs(), "{a} against {b}");
+        let (a, b) = (
+            p.holdoff_voltage_v.unwrap(),
+            full.holdoff_voltage_v.unwrap(),
+        );
+        assert!((a - b).abs() <= 1e-9 * b.abs(), "{a} against {b}");
+    }
+}
