@@ -9,7 +9,7 @@ fn json_of(out: &std::process::Output) -> serde_json::Value {
     serde_json::from_str(&text).unwrap_or_else(|e| panic!("not JSON ({e}):\n{text}"))
 }
 
-/// The keys of DESIGN.md §6 that the field solve fills.
+/// The JSON keys of the field solve that the README and the design contract promise.
 fn assert_report_keys(v: &serde_json::Value) {
     for key in [
         "tool",
