@@ -339,14 +339,21 @@ impl<'a> FieldMap<'a> {
     }
 
     /// Potential and field at a point, by bilinear interpolation over the free corners of
-    /// the cell that holds it.
+    /// the cell that holds it. Along r the weight follows the discretisation: the radial links
+    /// carry the shell conductance Δz/ln(r₂/r₁), i.e. a potential linear in ln r between two
+    /// nodes, so the weight is linear in ln r (in r² in the cell on the axis, where the
+    /// potential is even in r).
     pub fn at(&self, p: Point) -> PointField {
         let m = self.mesh;
         let i = m.r.locate(p.r);
         let j = m.z.locate(p.z);
         let (r0, r1) = (m.r.x[i], m.r.x[i + 1]);
         let (z0, z1) = (m.z.x[j], m.z.x[j + 1]);
-        let tr = ((p.r - r0) / (r1 - r0)).clamp(0.0, 1.0);
+        let tr = if r0 > 0.0 {
+            ((p.r / r0).ln() / (r1 / r0).ln()).clamp(0.0, 1.0)
+        } else {
+            ((p.r / r1).powi(2)).clamp(0.0, 1.0)
+        };
         let tz = ((p.z - z0) / (z1 - z0)).clamp(0.0, 1.0);
         let corners = [
             (m.idx(i, j), (1.0 - tr) * (1.0 - tz)),

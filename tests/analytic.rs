@@ -82,8 +82,14 @@ fn coax_peak_field_and_probe_potentials() {
     for p in &fine.probes {
         let r = p.field.at.r;
         let exact_v = v * (b / r).ln() / (b / a).ln();
+        println!(
+            "probe at r = {r}: error {:.2e} of V",
+            (p.field.potential_v - exact_v).abs() / v
+        );
+        // Within 0.05 % of the applied voltage at the default mesh (interpolated in ln r,
+        // as the radial links are discretised).
         assert!(
-            (p.field.potential_v - exact_v).abs() / v < 1e-3,
+            (p.field.potential_v - exact_v).abs() / v < 5e-4,
             "probe at r = {r}: {} vs {exact_v}",
             p.field.potential_v
         );
