@@ -1158,11 +1158,23 @@ pub fn evaluate(
             fixed.join(", ")
         ));
     }
-    let (h, hi) = if v > 0.0 && v.is_finite() {
-        (holdoff(&rows, v, false), holdoff(&rows, v, true))
+    // The field scales with the terminal voltage whatever its sign: the hold-off voltage is a
+    // magnitude, at the design's polarity (a negative terminal holds off −|V|).
+    let (h, hi) = if v != 0.0 && v.is_finite() {
+        if v < 0.0 {
+            holdoff_notes.push(
+                "negative terminal: the hold-off voltage is the magnitude at this polarity; \
+                 cathodic surfaces are those where the field points into the metal"
+                    .to_string(),
+            );
+        }
+        (
+            holdoff(&rows, v.abs(), false),
+            holdoff(&rows, v.abs(), true),
+        )
     } else {
         holdoff_notes.push(format!(
-            "no hold-off voltage: the terminal voltage is {v} V; the scaling needs a positive \
+            "no hold-off voltage: the terminal voltage is {v} V; the scaling needs a non-zero \
              terminal voltage"
         ));
         (None, None)
@@ -1177,7 +1189,7 @@ pub fn evaluate(
         ));
         (None, None)
     };
-    if h.is_none() && v > 0.0 && singular.is_empty() {
+    if h.is_none() && v != 0.0 && singular.is_empty() {
         holdoff_notes.push("no row with a number enters the hold-off voltage".to_string());
     }
     Ok(Margins {

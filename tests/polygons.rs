@@ -166,3 +166,24 @@ fn many_edged_polygon_converges_to_the_sphere() {
     }
     assert!(errors[2] < 0.025, "{errors:?}");
 }
+
+/// A negative terminal holds off the same magnitude as a positive one when every criterion
+/// that limits is polarity-independent (the gas criteria here; the field is linear in the
+/// voltage, so only its sign changes), and the hold-off voltage is a magnitude.
+#[test]
+fn negative_terminal_holds_off_the_same_magnitude() {
+    let shape = "shape = \"rounded_cylinder\"\nr = [\"0 mm\", \"150 mm\"]\nz = [\"400 mm\", \"600 mm\"]\ncorner_radius = \"20 mm\"";
+    let (cp, pos, _) = run_json(&design(shape));
+    let (cn, neg, text) = run_json(&design(shape).replace("\"300 kV\"", "\"-300 kV\""));
+    assert_eq!(cp, cn, "{text}");
+    let (hp, hn) = (
+        pos["holdoff_voltage_v"]
+            .as_f64()
+            .expect("positive hold-off"),
+        neg["holdoff_voltage_v"]
+            .as_f64()
+            .expect("negative hold-off"),
+    );
+    assert!(hn > 0.0 && (hp - hn).abs() / hp < 1e-9, "{hp} vs {hn}");
+    assert!((peak(&pos) - peak(&neg)).abs() / peak(&pos) < 1e-9);
+}
