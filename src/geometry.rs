@@ -101,7 +101,7 @@ pub struct Outline {
 
 /// Is the edge `a`–`b` on the axis? Such an edge is the inside of the solid of revolution,
 /// not a surface: it closes the outline but has no distance and no fillet.
-fn on_axis(a: Point, b: Point) -> bool {
+pub(crate) fn on_axis(a: Point, b: Point) -> bool {
     a.r <= AXIS_TOL && b.r <= AXIS_TOL
 }
 
@@ -434,7 +434,7 @@ fn build_outline(points: &[Point], fillet: f64) -> Outline {
         if on_axis(prev, cur) || on_axis(cur, next) {
             // The mirrored body's corner: the other edge against the axis, doubled.
             let w = if on_axis(prev, cur) { v } else { u };
-            if w.r.abs() < 1.0 - 1e-9 && cur.r <= AXIS_TOL && w.r > 0.0 {
+            if w.r.abs() < 1.0 - 1e-9 && w.r > 0.0 {
                 // The edge leaves the axis off square: a cone point on the axis, sharp when
                 // the solid's full angle there (twice the edge's angle to the axis) is below π.
                 let to_axis = w.z.abs().acos(); // angle between the edge and the axis

@@ -252,15 +252,17 @@ pub struct SharpCorner {
 }
 
 impl SharpCorner {
+    fn location(&self) -> String {
+        format!("r, z = {:.1}, {:.1} mm", self.at.r * 1e3, self.at.z * 1e3)
+    }
+
     fn describe(&self) -> String {
         format!(
-            "FIELD SINGULARITY: conductor '{}' has a sharp corner at r, z = {:.1}, {:.1} mm; the \
-             field at a sharp edge grows without bound as the mesh is refined, so it has no \
-             finite peak, margin or hold-off voltage: give the corner a radius \
-             (`corner_radius`, `fillet`)",
+            "FIELD SINGULARITY: conductor '{}' has a sharp corner at {}; the field at a sharp \
+             edge grows without bound as the mesh is refined, so it has no finite peak, margin \
+             or hold-off voltage: give the corner a radius (`corner_radius`, `fillet`)",
             self.conductor,
-            self.at.r * 1e3,
-            self.at.z * 1e3
+            self.location()
         )
     }
 }
@@ -1121,10 +1123,9 @@ pub fn evaluate(
             r.status = Status::Fail;
             r.in_holdoff = false;
             r.note = Some(format!(
-                "field singularity at the sharp corner at r, z = {:.1}, {:.1} mm: no finite \
-                 peak; give the corner a radius",
-                corner.at.r * 1e3,
-                corner.at.z * 1e3
+                "field singularity at the sharp corner at {}: no finite peak; give the corner a \
+                 radius",
+                corner.location()
             ));
         }
     }
@@ -1160,7 +1161,14 @@ pub fn evaluate(
     }
     // The field scales with the terminal voltage whatever its sign: the hold-off voltage is a
     // magnitude, at the design's polarity (a negative terminal holds off −|V|).
-    let (h, hi) = if v != 0.0 && v.is_finite() {
+    let (h, hi) = if !singular.is_empty() {
+        holdoff_notes.push(format!(
+            "no hold-off voltage: {} sharp conductor corner(s) make the peak field unbounded \
+             (a field singularity), so no terminal voltage is known to be safe",
+            singular.len()
+        ));
+        (None, None)
+    } else if v != 0.0 && v.is_finite() {
         if v < 0.0 {
             holdoff_notes.push(
                 "negative terminal: the hold-off voltage is the magnitude at this polarity; \
@@ -1176,16 +1184,6 @@ pub fn evaluate(
         holdoff_notes.push(format!(
             "no hold-off voltage: the terminal voltage is {v} V; the scaling needs a non-zero \
              terminal voltage"
-        ));
-        (None, None)
-    };
-    let (h, hi) = if singular.is_empty() {
-        (h, hi)
-    } else {
-        holdoff_notes.push(format!(
-            "no hold-off voltage: {} sharp conductor corner(s) make the peak field unbounded \
-             (a field singularity), so no terminal voltage is known to be safe",
-            singular.len()
         ));
         (None, None)
     };

@@ -8,7 +8,7 @@
 
 use super::read::{At, Reader};
 use super::schema::{Leaf, RawShape, RawValue};
-use crate::geometry::{Point, Shape};
+use crate::geometry::{Point, Shape, on_axis};
 use crate::units::{Dimension, format_si};
 use toml::Spanned;
 
@@ -464,7 +464,7 @@ fn fillet_limit(pts: &[Point]) -> Option<f64> {
     for k in 0..n {
         let (prev, cur, next) = (pts[(k + n - 1) % n], pts[k], pts[(k + 1) % n]);
         // A vertex at the end of an edge on the axis takes no fillet (the axis is no surface).
-        if cur.r <= 0.0 && (prev.r <= 0.0 || next.r <= 0.0) {
+        if on_axis(prev, cur) || on_axis(cur, next) {
             continue;
         }
         let u = Point::new(prev.r - cur.r, prev.z - cur.z);
@@ -516,14 +516,10 @@ pub(crate) fn boundary_samples(shape: &Shape, n: usize) -> Vec<Point> {
                 Point::new(*r1, *z1),
                 Point::new(lo, *z1),
             ];
-            let on_axis = *r0 <= 0.0;
-            outline_samples(shape, &corners, n, |a, b| {
-                on_axis && a.r <= 0.0 && b.r <= 0.0
-            })
+            let solid = *r0 <= 0.0;
+            outline_samples(shape, &corners, n, |a, b| solid && on_axis(a, b))
         }
-        Shape::Polygon { points, .. } => {
-            outline_samples(shape, points, n, |a, b| a.r <= 0.0 && b.r <= 0.0)
-        }
+        Shape::Polygon { points, .. } => outline_samples(shape, points, n, on_axis),
     }
 }
 
