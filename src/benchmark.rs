@@ -35,11 +35,7 @@ pub fn problem(nodes: usize) -> Model {
     // nr * nz = nodes with nz = 2 nr: h = radius / nr.
     let nr = ((nodes as f64) / 2.0).sqrt().max(8.0);
     let cell = radius / nr;
-    m.mesh = MeshSpec {
-        cell,
-        max_cell: cell,
-        growth: 1.0,
-    };
+    m.mesh = MeshSpec::graded(cell, cell, 1.0);
     m
 }
 

@@ -248,6 +248,54 @@ impl Shape {
         }
     }
 
+    /// The curved parts of the surface with their radius of curvature: boxes that the mesh
+    /// resolves by a number of cells per radius. Flat faces and sharp corners have none.
+    pub fn curved_parts(&self) -> Vec<(BBox, f64)> {
+        let bx = |r_min: f64, r_max: f64, z_min: f64, z_max: f64| BBox {
+            r_min: r_min.max(0.0),
+            r_max,
+            z_min,
+            z_max,
+        };
+        match self {
+            Shape::Sphere { radius, .. } => vec![(self.bbox(), *radius)],
+            Shape::Torus { minor_radius, .. } => vec![(self.bbox(), *minor_radius)],
+            Shape::RoundedRect {
+                r0,
+                r1,
+                z0,
+                z1,
+                corner_radius: rc,
+            } => {
+                if *rc <= 0.0 {
+                    return Vec::new();
+                }
+                let mut v = vec![
+                    (bx(r1 - rc, *r1, *z0, z0 + rc), *rc),
+                    (bx(r1 - rc, *r1, z1 - rc, *z1), *rc),
+                ];
+                if *r0 > 0.0 {
+                    v.push((bx(*r0, r0 + rc, *z0, z0 + rc), *rc));
+                    v.push((bx(*r0, r0 + rc, z1 - rc, *z1), *rc));
+                }
+                v
+            }
+            Shape::Polygon { points, fillet, .. } => {
+                if *fillet <= 0.0 {
+                    return Vec::new();
+                }
+                // The arc of a fillet lies within fillet / tan(half the turn) of its vertex;
+                // two fillet radii cover turns down to about 53 degrees.
+                let f = 2.0 * fillet;
+                points
+                    .iter()
+                    .filter(|v| v.r > AXIS_TOL)
+                    .map(|v| (bx(v.r - f, v.r + f, v.z - f, v.z + f), *fillet))
+                    .collect()
+            }
+        }
+    }
+
     /// Convex corners of the outline left without rounding: points where the field of a
     /// conductor is singular (it grows without bound as the mesh is refined), so no finite peak
     /// exists there. The axis is not a corner: a solid body's outline is mirrored about it.

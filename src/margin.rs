@@ -1018,8 +1018,10 @@ fn is_conductor_peak(samples: &[SurfaceSample], s: &SurfaceSample) -> bool {
         .all(|o| o.e <= s.e)
 }
 
-/// The highest-field sample of each conductor in `medium` (cathodic only, when asked).
-fn hotspots(model: &Model, samples: &[SurfaceSample], gas: bool) -> Vec<SurfaceSample> {
+/// The highest-field sample of each conductor in `medium` (cathodic only, when asked), with
+/// the field and place of the smooth profile's maximum around it (`FieldMap::peak_near`).
+fn hotspots(fm: &FieldMap, samples: &[SurfaceSample], gas: bool) -> Vec<SurfaceSample> {
+    let model = fm.model;
     let mut best: Vec<Option<SurfaceSample>> = vec![None; model.conductors.len()];
     for s in samples {
         if s.conductor == TANK || !(s.e.is_finite() && s.e > 0.0) {
@@ -1038,7 +1040,10 @@ fn hotspots(model: &Model, samples: &[SurfaceSample], gas: bool) -> Vec<SurfaceS
             *slot = Some(*s);
         }
     }
-    best.into_iter().flatten().collect()
+    best.into_iter()
+        .flatten()
+        .map(|b| fm.peak_near(samples, &b))
+        .collect()
 }
 
 /// Ranks rows worst first (rows with a margin by margin, then the rows outside validity) and
@@ -1095,7 +1100,7 @@ pub fn evaluate(
     let mut rows = Vec::new();
     let mut lines = Vec::new();
     let mut notes = Vec::new();
-    let gas_hot = hotspots(model, &fine.samples, true);
+    let gas_hot = hotspots(&fm, &fine.samples, true);
     if ctx.gas.is_none() && !gas_hot.is_empty() {
         notes.push(
             "the design has no [gas] table: conductor surfaces outside vacuum regions and \
@@ -1107,7 +1112,7 @@ pub fn evaluate(
             gas_rows(&ctx, &fm, hot, &mut lines, &mut rows)?;
         }
     }
-    for hot in hotspots(model, &fine.samples, false) {
+    for hot in hotspots(&fm, &fine.samples, false) {
         vacuum_rows(&ctx, &fm, &hot, &mut lines, &mut rows)?;
     }
     for index in 0..model.dielectrics.len() {

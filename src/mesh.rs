@@ -218,7 +218,7 @@ fn check_budget(
         let trial = crate::model::MeshSpec {
             cell,
             max_cell: spec.max_cell.max(cell),
-            growth: spec.growth,
+            ..spec.clone()
         };
         need = f.estimate(&trial, limit).total_bytes();
         if need <= limit {
@@ -258,11 +258,15 @@ fn check_controls(spec: &crate::model::MeshSpec) -> Result<(), MeshError> {
     Ok(())
 }
 
-/// Extents of the features (fine spacing) and the fixed grid lines of a model.
+/// A stretch of one axis where the spacing is at most `frac × cell`: (lo, hi, frac).
+type Band = (f64, f64, f64);
+
+/// Extents of the features (fine spacing, each with its fraction of the cell) and the fixed
+/// grid lines of a model.
 struct Features {
     dom: crate::geometry::BBox,
-    r_feat: Vec<(f64, f64)>,
-    z_feat: Vec<(f64, f64)>,
+    r_feat: Vec<Band>,
+    z_feat: Vec<Band>,
     r_fix: Vec<f64>,
     z_fix: Vec<f64>,
 }
@@ -270,21 +274,47 @@ struct Features {
 impl Features {
     fn of(model: &Model, snap: bool) -> Features {
         let dom = model.tank.bbox();
+        let spec = &model.mesh;
         let mut r_feat = Vec::new();
         let mut z_feat = Vec::new();
         let mut r_fix = vec![dom.r_min, dom.r_max];
         let mut z_fix = vec![dom.z_min, dom.z_max];
-        let shapes = model
-            .conductors
-            .iter()
-            .map(|c| &c.shape)
-            .chain(model.dielectrics.iter().map(|d| &d.shape))
-            .chain(model.vacuum.iter().map(|v| &v.shape));
-        for s in shapes {
+        let floor = 1.0 / crate::model::MAX_LOCAL_DIVISION;
+        let conductors = model.conductors.iter().map(|c| &c.shape).enumerate();
+        for (k, s) in conductors {
+            let refine = spec.refinement(k).clamp(floor, 1.0);
             let b = s.bbox();
-            r_feat.push((b.r_min, b.r_max));
-            z_feat.push((b.z_min, b.z_max));
-            if snap {
+            r_feat.push((b.r_min, b.r_max, refine));
+            z_feat.push((b.z_min, b.z_max, refine));
+            if spec.adaptive() {
+                // Curved parts: `cells_per_radius` cells per radius of curvature.
+                let start = 1.0 / crate::model::START_DIVISION;
+                for (part, radius) in s.curved_parts() {
+                    let frac = (radius / (spec.cells_per_radius * spec.cell)).clamp(start, 1.0);
+                    let frac = (frac * refine).max(floor);
+                    r_feat.push((part.r_min, part.r_max, frac));
+                    z_feat.push((part.z_min, part.z_max, frac));
+                }
+            }
+        }
+        let others = model
+            .dielectrics
+            .iter()
+            .map(|d| &d.shape)
+            .chain(model.vacuum.iter().map(|v| &v.shape));
+        for s in others {
+            let b = s.bbox();
+            r_feat.push((b.r_min, b.r_max, 1.0));
+            z_feat.push((b.z_min, b.z_max, 1.0));
+        }
+        if snap {
+            let shapes = model
+                .conductors
+                .iter()
+                .map(|c| &c.shape)
+                .chain(model.dielectrics.iter().map(|d| &d.shape))
+                .chain(model.vacuum.iter().map(|v| &v.shape));
+            for s in shapes {
                 let (hr, hz) = s.grid_hints();
                 r_fix.extend(hr);
                 z_fix.extend(hz);
@@ -293,8 +323,8 @@ impl Features {
         if let Tank::Sphere { inner_radius } = model.tank {
             // The whole sphere wall is a surface: fine everywhere near it is not affordable in
             // a tensor grid, so the wall gets the spacing of its extent.
-            r_feat.push((0.0, inner_radius));
-            z_feat.push((0.0, 2.0 * inner_radius));
+            r_feat.push((0.0, inner_radius, 1.0));
+            z_feat.push((0.0, 2.0 * inner_radius, 1.0));
             z_fix.push(inner_radius);
         }
         Features {
@@ -367,13 +397,14 @@ impl Features {
 }
 
 /// A lower bound on the nodes of a graded axis on [a, b]: the union of the feature extents
-/// at spacing `cell`, the rest at `max_cell`, plus the end node.
-fn axis_lower_bound(a: f64, b: f64, feats: &[(f64, f64)], cell: f64, max_cell: f64) -> f64 {
+/// at the coarsest spacing any of them asks for, the rest at `max_cell`, plus the end node.
+fn axis_lower_bound(a: f64, b: f64, feats: &[Band], cell: f64, max_cell: f64) -> f64 {
     let mut iv: Vec<(f64, f64)> = feats
         .iter()
-        .map(|&(lo, hi)| (lo.max(a), hi.min(b)))
+        .map(|&(lo, hi, _)| (lo.max(a), hi.min(b)))
         .filter(|(lo, hi)| lo < hi)
         .collect();
+    let frac = feats.iter().map(|f| f.2).fold(0.0f64, f64::max).max(1e-3);
     iv.sort_by(|x, y| x.0.total_cmp(&y.0));
     let mut covered = 0.0;
     let mut end = f64::NEG_INFINITY;
@@ -385,7 +416,7 @@ fn axis_lower_bound(a: f64, b: f64, feats: &[(f64, f64)], cell: f64, max_cell: f
         }
     }
     let rest = ((b - a) - covered).max(0.0);
-    covered / cell.min(max_cell) + rest / max_cell + 1.0
+    covered / (frac * cell).min(max_cell) + rest / max_cell + 1.0
 }
 
 /// One direction of the grid: node coordinates, increasing.
@@ -704,7 +735,7 @@ impl Mesh {
     /// is estimated to need more than `budget`; the estimate is made before anything the size
     /// of the mesh is allocated.
     pub fn build_within(model: &Model, snap: bool, budget: Budget) -> Result<Mesh, MeshError> {
-        let spec = model.mesh;
+        let spec = model.mesh.clone();
         check_controls(&spec)?;
         let features = Features::of(model, snap);
         let (est, axes) = features.estimate_and_axes(&spec, budget.bytes());
@@ -1083,11 +1114,12 @@ fn index_range(axis: &Axis, lo: f64, hi: f64) -> (usize, usize) {
     (i0.min(n - 1), i1)
 }
 
-/// Target spacing at `x`: `cell` inside any feature's extent, growing geometrically away
+/// Target spacing at `x`: `frac × cell` inside a feature's extent, growing geometrically away
 /// from it, never above `max_cell`.
-fn spacing_at(x: f64, feats: &[(f64, f64)], cell: f64, max_cell: f64, growth: f64) -> f64 {
+fn spacing_at(x: f64, feats: &[Band], cell: f64, max_cell: f64, growth: f64) -> f64 {
     let mut h = max_cell;
-    for &(lo, hi) in feats {
+    let mut finest = max_cell;
+    for &(lo, hi, frac) in feats {
         let d = if x < lo {
             lo - x
         } else if x > hi {
@@ -1095,9 +1127,11 @@ fn spacing_at(x: f64, feats: &[(f64, f64)], cell: f64, max_cell: f64, growth: f6
         } else {
             0.0
         };
-        h = h.min(cell + (growth - 1.0) * d);
+        let hf = (frac * cell).min(max_cell);
+        finest = finest.min(hf);
+        h = h.min(hf + (growth - 1.0) * d);
     }
-    h.max(cell.min(max_cell))
+    h.max(finest)
 }
 
 /// Node positions on [a, b]: every fixed point is a node; between fixed points the nodes
@@ -1105,7 +1139,7 @@ fn spacing_at(x: f64, feats: &[(f64, f64)], cell: f64, max_cell: f64, growth: f6
 fn grade_axis(
     a: f64,
     b: f64,
-    feats: &[(f64, f64)],
+    feats: &[Band],
     fixed: &[f64],
     cell: f64,
     max_cell: f64,
@@ -1138,7 +1172,8 @@ fn grade_axis(
     for w in merged.windows(2) {
         let (x0, x1) = (w[0], w[1]);
         // Integral of 1/h over [x0, x1] by the midpoint rule on a fine sub-grid.
-        let samples = (((x1 - x0) / (0.1 * cell)).ceil() as usize).clamp(8, 200_000);
+        let finest = feats.iter().map(|f| f.2).fold(1.0f64, f64::min) * cell;
+        let samples = (((x1 - x0) / (0.1 * finest)).ceil() as usize).clamp(8, 400_000);
         let dx = (x1 - x0) / samples as f64;
         let mut cum = Vec::with_capacity(samples + 1);
         cum.push(0.0);
@@ -1176,7 +1211,15 @@ mod tests {
 
     #[test]
     fn bucketed_locate_agrees_with_bisection() {
-        let ax = grade_axis(0.0, 1.0, &[(0.2, 0.3)], &[0.25, 0.2, 0.3], 0.001, 0.08, 1.2);
+        let ax = grade_axis(
+            0.0,
+            1.0,
+            &[(0.2, 0.3, 1.0)],
+            &[0.25, 0.2, 0.3],
+            0.001,
+            0.08,
+            1.2,
+        );
         let bisect = |v: f64| match ax.x.binary_search_by(|a| a.total_cmp(&v)) {
             Ok(i) => i.min(ax.x.len() - 2),
             Err(0) => 0,
@@ -1193,7 +1236,15 @@ mod tests {
 
     #[test]
     fn graded_axis_keeps_fixed_points_and_spacing_limits() {
-        let ax = grade_axis(0.0, 1.0, &[(0.2, 0.3)], &[0.25, 0.2, 0.3], 0.01, 0.08, 1.2);
+        let ax = grade_axis(
+            0.0,
+            1.0,
+            &[(0.2, 0.3, 1.0)],
+            &[0.25, 0.2, 0.3],
+            0.01,
+            0.08,
+            1.2,
+        );
         for f in [0.0, 0.2, 0.25, 0.3, 1.0] {
             assert!(ax.x.iter().any(|&x| (x - f).abs() < 1e-12), "missing {f}");
         }

@@ -235,7 +235,7 @@ pub struct Multiplier {
 }
 
 /// Mesh controls, SI units.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct MeshSpec {
     /// Target spacing near conductor and dielectric surfaces, m.
     pub cell: f64,
@@ -243,28 +243,85 @@ pub struct MeshSpec {
     pub max_cell: f64,
     /// Largest ratio between neighbouring spacings (geometric grading).
     pub growth: f64,
+    /// Target on the estimated relative error of every peak that enters a margin row.
+    pub accuracy: f64,
+    /// Cells per radius of curvature on the curved parts of every conductor (the spacing
+    /// there is the smaller of this and `cell`, never below `cell / START_DIVISION` before
+    /// refinement nor `cell / MAX_LOCAL_DIVISION` after it);
+    /// 0 when `cell` was set by hand, which then holds everywhere (the expert override) and
+    /// no refinement is made.
+    pub cells_per_radius: f64,
+    /// Spacing factor of each conductor's neighbourhood (1 unless the accuracy loop refined
+    /// it); empty means 1 everywhere.
+    pub refine: Vec<f64>,
 }
+
+/// Finest local spacing the geometry-derived start and the refinement may ask for, as a
+/// division of `cell`: a bound on the nodes a very small radius can demand.
+pub const MAX_LOCAL_DIVISION: f64 = 16.0;
+
+/// Finest spacing the geometry-derived start gives a curved part, as a division of `cell`
+/// (smaller radii are left to the refinement, which only refines stressed conductors).
+pub const START_DIVISION: f64 = 8.0;
+
+/// Default accuracy target: 0.5 % on every peak that enters a margin row.
+pub const DEFAULT_ACCURACY: f64 = 0.005;
+
+/// Default resolution of curved surfaces: 12 cells per radius of curvature, so that the
+/// coarsest grid of the grid study (twice the spacing) still has six (common practice for
+/// second-order schemes on curved boundaries, checked in tests/accuracy.rs).
+pub const DEFAULT_CELLS_PER_RADIUS: f64 = 12.0;
 
 impl MeshSpec {
     /// The default spacing for a domain of the given size: 1/400 of its largest dimension,
-    /// graded by 1.15 up to 8 cells.
+    /// graded by 1.15 up to 8 cells, with curved surfaces resolved by
+    /// `DEFAULT_CELLS_PER_RADIUS` cells per radius.
     pub fn default_for(domain: &BBox) -> Self {
         let size = (domain.r_max - domain.r_min).max(domain.z_max - domain.z_min);
         let cell = size / 400.0;
         Self {
-            cell,
-            max_cell: 8.0 * cell,
-            growth: 1.15,
+            cells_per_radius: DEFAULT_CELLS_PER_RADIUS,
+            ..Self::graded(cell, 8.0 * cell, 1.15)
         }
     }
 
-    /// The same spacing scaled by `factor` (a coarser grid for the grid study).
+    /// A fixed spacing `cell` at surfaces graded by `growth` up to `max_cell` (no
+    /// geometry-derived spacing, no refinement: the expert override).
+    pub fn graded(cell: f64, max_cell: f64, growth: f64) -> Self {
+        Self {
+            cell,
+            max_cell,
+            growth,
+            accuracy: DEFAULT_ACCURACY,
+            cells_per_radius: 0.0,
+            refine: Vec::new(),
+        }
+    }
+
+    /// A uniform grid of spacing `cell`.
+    pub fn uniform(cell: f64) -> Self {
+        Self::graded(cell, cell, 1.0)
+    }
+
+    /// The same spacing scaled by `factor` (a coarser grid for the grid study): every
+    /// spacing, local ones included, grows by the factor.
     pub fn scaled(&self, factor: f64) -> Self {
         Self {
             cell: self.cell * factor,
             max_cell: self.max_cell * factor,
-            growth: self.growth,
+            cells_per_radius: self.cells_per_radius / factor,
+            ..self.clone()
         }
+    }
+
+    /// Spacing factor of conductor `index`'s neighbourhood.
+    pub fn refinement(&self, index: usize) -> f64 {
+        self.refine.get(index).copied().unwrap_or(1.0)
+    }
+
+    /// Is the spacing derived from the geometry (and refined to the accuracy target)?
+    pub fn adaptive(&self) -> bool {
+        self.cells_per_radius > 0.0
     }
 }
 

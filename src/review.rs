@@ -11,6 +11,7 @@ use crate::margin::{MarginError, Margins, evaluate};
 use crate::model::Model;
 use crate::solve::SolverParams;
 use crate::stack::{StackAnalysis, StackError, analyze_stack};
+use crate::study::Accuracy;
 use crate::study::{GridStudy, grid_study};
 use thiserror::Error;
 
@@ -36,8 +37,23 @@ pub struct Review {
     pub grading: Vec<ColumnSummary>,
 }
 
+/// Refinement rounds the accuracy target may add after the first mesh.
+pub const MAX_REFINEMENTS: usize = 2;
+
+/// The fine grid may grow to this many times the unknowns of the first mesh while the
+/// accuracy target is pursued (a bound on the run time of a review).
+pub const MAX_GROWTH: f64 = 16.0;
+
+/// Margin rows within this factor of the worst margin have their peaks held to the
+/// accuracy target.
+pub const COUNTED_WITHIN: f64 = 2.0;
+
 /// Runs the stack (its loaded stage voltages feed "stage:N" potentials), the field solve, the
-/// grid study when asked, and the margins.
+/// grid study when asked, and the margins. With the study and a geometry-derived mesh, the
+/// neighbourhoods of the conductors whose peaks enter a margin row within a factor 2 of the
+/// worst and miss the accuracy target are refined (spacing × 1/√2 or finer) and the review
+/// is run again, up to `MAX_REFINEMENTS` times and `MAX_GROWTH` times the first mesh's
+/// unknowns; the study then says whether the target was reached.
 pub fn review(
     model: &Model,
     params: &SolverParams,
@@ -45,19 +61,133 @@ pub fn review(
 ) -> Result<Review, ReviewError> {
     let stack = analyze_stack(model, params, &Default::default())?;
     let stage_v = stack.as_ref().map(|s| s.stage_voltages());
-    let fine = analyze(model, params, stage_v.as_deref())?;
-    let study = if with_study {
-        Some(grid_study(model, &fine, params, stage_v.as_deref())?)
-    } else {
-        None
-    };
-    let margins = evaluate(model, &fine, study.as_ref())?;
-    let grading = summarize(model, stage_v.as_deref())?;
-    Ok(Review {
-        stack,
-        fine,
-        study,
-        margins,
-        grading,
-    })
+    let mut m = model.clone();
+    let mut unknowns = Vec::new();
+    let mut round = 0;
+    loop {
+        let fine = analyze(&m, params, stage_v.as_deref())?;
+        unknowns.push(fine.solution.info.unknowns);
+        let study = if with_study {
+            Some(grid_study(&m, &fine, params, stage_v.as_deref())?)
+        } else {
+            None
+        };
+        let margins = evaluate(&m, &fine, study.as_ref())?;
+        let Some(mut study) = study else {
+            let grading = summarize(model, stage_v.as_deref())?;
+            return Ok(Review {
+                stack,
+                fine,
+                study: None,
+                margins,
+                grading,
+            });
+        };
+        let (counted, misses, worst) = judge(&m, &margins, &study);
+        let adaptive = m.mesh.adaptive();
+        let reached = misses.is_empty();
+        let growth = unknowns[round] as f64 / unknowns[0].max(1) as f64;
+        let stop = if reached || !adaptive {
+            None
+        } else if round >= MAX_REFINEMENTS {
+            Some(format!("{MAX_REFINEMENTS} refinements made"))
+        } else if growth * 2.0 > MAX_GROWTH {
+            Some(format!(
+                "the next refinement would pass {MAX_GROWTH:.0} times the first mesh"
+            ))
+        } else if !fits_after_refining(&m, &misses) {
+            Some("the next refinement would not fit the memory budget".to_string())
+        } else {
+            // Refine each missing conductor's neighbourhood by the factor that a second-order
+            // error asks for, at least 1/√2 and at most 1/2 in one round.
+            m.mesh = refined(&m, &misses);
+            round += 1;
+            continue;
+        };
+        study.accuracy = Some(Accuracy {
+            target: m.mesh.accuracy,
+            reached,
+            worst_relative_error: worst.as_ref().map_or(0.0, |w| w.1),
+            worst_item: worst.map(|w| w.0),
+            counted,
+            refinements: round,
+            unknowns,
+            adaptive,
+            stopped: stop,
+        });
+        let grading = summarize(model, stage_v.as_deref())?;
+        return Ok(Review {
+            stack,
+            fine,
+            study: Some(study),
+            margins,
+            grading,
+        });
+    }
+}
+
+/// Counted conductors' names, the misses (conductor index, relative error) and the worst
+/// counted error with its conductor's name.
+type Judgement = (Vec<String>, Vec<(usize, f64)>, Option<(String, f64)>);
+
+/// The conductors whose peaks count for the accuracy target (a margin row within
+/// `COUNTED_WITHIN` of the worst margin; every conductor when there are no margin rows), those that miss it (index, relative error) and the
+/// worst counted error with its conductor.
+fn judge(model: &Model, margins: &Margins, study: &GridStudy) -> Judgement {
+    let worst_margin = margins
+        .rows
+        .iter()
+        .filter_map(|r| r.margin)
+        .fold(f64::INFINITY, f64::min);
+    let mut counted: Vec<usize> = margins
+        .rows
+        .iter()
+        .filter(|r| r.margin.is_some_and(|x| x <= COUNTED_WITHIN * worst_margin))
+        .filter_map(|r| model.conductors.iter().position(|c| c.name == r.item))
+        .collect();
+    if worst_margin.is_infinite() {
+        // No margin row (no gas, no criteria): every conductor's peak is held to the target.
+        counted = (0..model.conductors.len()).collect();
+    }
+    counted.sort_unstable();
+    counted.dedup();
+    let mut misses = Vec::new();
+    let mut worst: Option<(String, f64)> = None;
+    for &k in &counted {
+        let Some(p) = study.peaks.iter().find(|p| p.conductor == k) else {
+            continue;
+        };
+        let e = p.relative_error;
+        if worst.as_ref().is_none_or(|w| e > w.1) {
+            worst = Some((p.name.clone(), e));
+        }
+        if e > model.mesh.accuracy {
+            misses.push((k, e));
+        }
+    }
+    let names = counted
+        .iter()
+        .map(|&k| model.conductors[k].name.clone())
+        .collect();
+    (names, misses, worst)
+}
+
+/// The mesh controls with each missing conductor's neighbourhood refined by the factor a
+/// second-order error asks for, at least 1/√2 and at most 1/2 in one round.
+fn refined(model: &Model, misses: &[(usize, f64)]) -> crate::model::MeshSpec {
+    let mut spec = model.mesh.clone();
+    spec.refine
+        .resize(model.conductors.len().max(spec.refine.len()), 1.0);
+    for &(k, err) in misses {
+        spec.refine[k] *= (spec.accuracy / err).sqrt().clamp(0.5, 0.707);
+    }
+    spec
+}
+
+/// Would the refined mesh (with its solve and grid study) fit this machine's memory budget?
+fn fits_after_refining(model: &Model, misses: &[(usize, f64)]) -> bool {
+    let mut trial = model.clone();
+    trial.mesh = refined(model, misses);
+    crate::mesh::estimate(&trial, crate::mesh::Budget::of_machine())
+        .is_ok_and(|e| e.exact && e.total_bytes() <= crate::mesh::Budget::of_machine().bytes())
 }

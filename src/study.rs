@@ -51,6 +51,34 @@ pub struct GridStudy {
     /// Why the coarsest grid is missing, when it is.
     pub coarse_unavailable: Option<String>,
     pub peaks: Vec<PeakStudy>,
+    /// The accuracy target and whether the mesh met it (set by the review).
+    pub accuracy: Option<Accuracy>,
+}
+
+/// The outcome of the accuracy target on the peaks that enter a margin row.
+#[derive(Debug, Clone, Serialize)]
+pub struct Accuracy {
+    /// Target on the estimated relative error of each peak that counts.
+    pub target: f64,
+    /// Whether every counted peak met the target.
+    pub reached: bool,
+    /// The largest estimated relative error among the counted peaks (the best the mesh
+    /// achieved when the target is not reached).
+    pub worst_relative_error: f64,
+    /// The conductor with that error.
+    pub worst_item: Option<String>,
+    /// The conductors whose peaks count: those of a margin row within a factor 2 of the
+    /// worst margin.
+    pub counted: Vec<String>,
+    /// Refinement rounds made after the first mesh.
+    pub refinements: usize,
+    /// Unknowns of the fine grid at each round.
+    pub unknowns: Vec<usize>,
+    /// False when `[mesh] cell` was set by hand: the spacing is the expert's and no
+    /// refinement is made.
+    pub adaptive: bool,
+    /// Why refinement stopped short of the target, when it did.
+    pub stopped: Option<String>,
 }
 
 /// How far (as a fraction of the formal order) the observed order may lie from the formal
@@ -94,6 +122,46 @@ pub fn richardson(f: [f64; 3], ratio: f64) -> (Option<f64>, f64, f64, &'static s
     }
 }
 
+impl Accuracy {
+    /// One line saying what the target was and whether the mesh met it.
+    pub fn describe(&self) -> String {
+        let pct = |x: f64| format!("{:.2} %", 100.0 * x);
+        let worst = match &self.worst_item {
+            Some(item) => format!("{} on {item}", pct(self.worst_relative_error)),
+            None => "no peak counted".to_string(),
+        };
+        let growth = match (self.unknowns.first(), self.unknowns.last()) {
+            (Some(a), Some(b)) if self.refinements > 0 => format!(
+                " after {} refinement{} ({a} to {b} unknowns)",
+                self.refinements,
+                if self.refinements == 1 { "" } else { "s" }
+            ),
+            _ => String::new(),
+        };
+        if self.reached {
+            format!(
+                "accuracy target ±{} reached{growth}: worst estimated error {worst} \
+                 (peaks of the margin rows within a factor 2 of the worst)",
+                pct(self.target)
+            )
+        } else if !self.adaptive {
+            format!(
+                "accuracy target ±{} not reached with the hand-set [mesh] cell: best ±{worst}; \
+                 remove `cell` to let the mesh follow the geometry and the target, or set a \
+                 finer cell",
+                pct(self.target)
+            )
+        } else {
+            format!(
+                "accuracy target ±{} not reached{growth}: best ±{worst} ({}); the margins \
+                 carry this larger error",
+                pct(self.target),
+                self.stopped.as_deref().unwrap_or("refinement stopped")
+            )
+        }
+    }
+}
+
 /// Runs the medium and coarse solves and builds the study around the fine analysis.
 pub fn grid_study(
     model: &Model,
@@ -120,7 +188,9 @@ pub fn grid_study(
                 .as_ref()
                 .map_or(f64::NAN, |c| c.peaks[k].peak_surface_field_v_per_m),
         ];
-        let (order, ext, err, conv) = richardson(f, RATIO);
+        let (order, ext, gci, conv) = richardson(f, RATIO);
+        // The sampling scatter of the fine grid adds to the trend the three grids show.
+        let err = gci + p.scatter_v_per_m;
         peaks.push(PeakStudy {
             conductor: k,
             name: p.name.clone(),
@@ -145,6 +215,7 @@ pub fn grid_study(
         ],
         coarse_unavailable,
         peaks,
+        accuracy: None,
     })
 }
 

@@ -97,11 +97,7 @@ fn maxwell_matrix_is_reciprocal() {
             1e5 * (k + 1) as f64,
         ));
     }
-    m.mesh = MeshSpec {
-        cell: 0.002,
-        max_cell: 0.016,
-        growth: 1.15,
-    };
+    m.mesh = MeshSpec::graded(0.002, 0.016, 1.15);
     assert_eq!(electrodes(&m).len(), 3);
     let mesh = Mesh::build(&m).expect("mesh");
     let c = capacitance_matrix(&m, &mesh, &SolverParams::default()).expect("solves");

@@ -60,11 +60,7 @@ fn uniform_gap(species: &str, pressure_pa: f64, gap: f64, v: f64) -> Model {
         potential: PotentialSpec::Terminal { fraction: 1.0 },
         origin: Origin::Program,
     });
-    m.mesh = MeshSpec {
-        cell: gap / 40.0,
-        max_cell: gap / 40.0,
-        growth: 1.0,
-    };
+    m.mesh = MeshSpec::graded(gap / 40.0, gap / 40.0, 1.0);
     m
 }
 
@@ -305,11 +301,7 @@ fn peek_row_at_one_centimetre_radius_matches_the_published_value() {
         potential: PotentialSpec::Terminal { fraction: 1.0 },
         origin: Origin::Program,
     });
-    m.mesh = MeshSpec {
-        cell: 0.002,
-        max_cell: 0.016,
-        growth: 1.15,
-    };
+    m.mesh = MeshSpec::graded(0.002, 0.016, 1.15);
     let (_, margins) = margins_of(&m);
     let peek = row(&margins, "ring", Criterion::PeekCorona);
     let delta = corona::peek_delta(p, 298.15).unwrap();

@@ -143,11 +143,7 @@ fn many_edged_polygon_converges_to_the_sphere() {
         let shape = Shape::polygon(pts, 0.0);
         assert!(shape.sharp_corners().is_empty());
         let mut m = Model::new("faceted sphere", Tank::Sphere { inner_radius: b }, v);
-        m.mesh = MeshSpec {
-            cell: 0.5e-3,
-            max_cell: 4e-3,
-            growth: 1.15,
-        };
+        m.mesh = MeshSpec::graded(0.5e-3, 4e-3, 1.15);
         m.conductors.push(conductor("inner", shape, v));
         let mesh = Mesh::build(&m).expect("mesh");
         let mut solver = Solver::new(&mesh, SolverParams::default());

@@ -361,6 +361,7 @@ pub struct RawMesh {
     pub cell: Leaf,
     pub max_cell: Leaf,
     pub growth: Leaf,
+    pub accuracy: Leaf,
 }
 
 /// `[[probe]]`.

@@ -495,10 +495,29 @@ pub(crate) fn read_mesh(rd: &mut Reader, m: &Spanned<RawMesh>, tank: &Tank) -> O
             )
         }
     };
+    let accuracy = match &raw.accuracy {
+        None => Some(default.accuracy),
+        Some(v) => {
+            let x = rd.quantity(v, "mesh.accuracy", Dimension::Ratio);
+            rd.check(
+                x,
+                Some(v),
+                "mesh.accuracy",
+                |x| (0.0005..=0.2).contains(&x),
+                "must be a relative error between 0.05 % and 20 %",
+            )
+        }
+    };
+    // A hand-set cell is the expert override: it holds on every surface and is not refined.
+    let cells_per_radius = if raw.cell.is_some() {
+        0.0
+    } else {
+        default.cells_per_radius
+    };
     Some(MeshSpec {
-        cell: cell?,
-        max_cell: max_cell?,
-        growth: growth?,
+        accuracy: accuracy?,
+        cells_per_radius,
+        ..MeshSpec::graded(cell?, max_cell?, growth?)
     })
 }
 

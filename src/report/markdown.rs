@@ -101,6 +101,9 @@ pub fn render(
             gs.cells_m[1] * 1e3,
             gs.cells_m[2] * 1e3
         );
+        if let Some(a) = &gs.accuracy {
+            let _ = writeln!(o, "- Mesh: {}", a.describe());
+        }
     }
     let _ = writeln!(
         o,

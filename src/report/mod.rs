@@ -181,11 +181,19 @@ impl Report {
                 field_magnitude_v_per_m: p.field.field[0].hypot(p.field.field[1]),
             })
             .collect();
-        let cautions = cautions::cautions(&CautionInputs::for_model(
+        let mut cautions = cautions::cautions(&CautionInputs::for_model(
             model,
             model.terminal_voltage,
             Some(cautions::stored_energy(model, fine.energy_j)),
         ));
+        if let Some(a) = study.as_ref().and_then(|s| s.accuracy.as_ref())
+            && !a.reached
+        {
+            cautions.push(Caution {
+                topic: "numerical accuracy",
+                text: a.describe(),
+            });
+        }
         Report {
             tool: ToolInfo {
                 name: "holdoff",

@@ -154,6 +154,9 @@ pub fn render(report: &Report) -> String {
             mm(gs.cells_m[1]),
             mm(gs.cells_m[2])
         );
+        if let Some(a) = &gs.accuracy {
+            let _ = writeln!(out, "{}", a.describe());
+        }
     }
     let _ = writeln!(out, "field energy {:.3} J\n", report.field_energy_j);
     let _ = writeln!(out, "Cautions");

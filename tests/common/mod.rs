@@ -35,11 +35,7 @@ pub fn sphere_above_plane(radius: f64, gap: f64, v: f64, cell: f64, max_cell: f6
         },
         v,
     ));
-    m.mesh = MeshSpec {
-        cell,
-        max_cell,
-        growth: 1.08,
-    };
+    m.mesh = MeshSpec::graded(cell, max_cell, 1.08);
     m
 }
 
