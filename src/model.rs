@@ -258,7 +258,7 @@ pub struct MeshSpec {
 
 /// Finest local spacing the geometry-derived start and the refinement may ask for, as a
 /// division of `cell`: a bound on the nodes a very small radius can demand.
-pub const MAX_LOCAL_DIVISION: f64 = 16.0;
+pub const MAX_LOCAL_DIVISION: f64 = 64.0;
 
 /// Finest spacing the geometry-derived start gives a curved part, as a division of `cell`
 /// (smaller radii are left to the refinement, which only refines stressed conductors).

@@ -38,7 +38,7 @@ pub struct Review {
 }
 
 /// Refinement rounds the accuracy target may add after the first mesh.
-pub const MAX_REFINEMENTS: usize = 2;
+pub const MAX_REFINEMENTS: usize = 3;
 
 /// The fine grid may grow to this many times the unknowns of the first mesh while the
 /// accuracy target is pursued (a bound on the run time of a review).
@@ -173,13 +173,13 @@ fn judge(model: &Model, margins: &Margins, study: &GridStudy) -> Judgement {
 }
 
 /// The mesh controls with each missing conductor's neighbourhood refined by the factor a
-/// second-order error asks for, at least 1/√2 and at most 1/2 in one round.
+/// second-order error asks for, at least 1/√2 and at most 1/2.9 in one round.
 fn refined(model: &Model, misses: &[(usize, f64)]) -> crate::model::MeshSpec {
     let mut spec = model.mesh.clone();
     spec.refine
         .resize(model.conductors.len().max(spec.refine.len()), 1.0);
     for &(k, err) in misses {
-        spec.refine[k] *= (spec.accuracy / err).sqrt().clamp(0.5, 0.707);
+        spec.refine[k] *= (spec.accuracy / err).sqrt().clamp(0.35, 0.707);
     }
     spec
 }

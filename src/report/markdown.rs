@@ -96,7 +96,7 @@ pub fn render(
     if let Some(gs) = &report.grid_study {
         let _ = writeln!(
             o,
-            "- Grid study: cells {:.2} / {:.2} / {:.2} mm; numerical errors by Richardson extrapolation with Roache's grid convergence index",
+            "- Grid study: every spacing ×1, ×√2, ×2 (cell {:.2} / {:.2} / {:.2} mm, finer on curved parts); numerical errors by Richardson extrapolation with Roache's grid convergence index, plus the sampling scatter",
             gs.cells_m[0] * 1e3,
             gs.cells_m[1] * 1e3,
             gs.cells_m[2] * 1e3

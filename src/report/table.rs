@@ -149,7 +149,7 @@ pub fn render(report: &Report) -> String {
     if let Some(gs) = &report.grid_study {
         let _ = writeln!(
             out,
-            "grid study: cells {} / {} / {} mm; errors by Richardson extrapolation with Roache's grid convergence index",
+            "grid study: every spacing ×1, ×√2, ×2 (cell {} / {} / {} mm, finer on curved parts); errors by Richardson extrapolation with Roache's grid convergence index, plus the sampling scatter",
             mm(gs.cells_m[0]),
             mm(gs.cells_m[1]),
             mm(gs.cells_m[2])
