@@ -317,7 +317,7 @@ impl<'a> FieldMap<'a> {
     /// The maximum of the surface field near the largest sample `best`, taken from the smooth
     /// profile through the samples around it rather than from the one sample: a least-squares
     /// quadratic in arc length over the samples of the same conductor, medium and side within
-    /// a window of 0.3 radius of curvature (at least 2.5 cells), maximised continuously. The
+    /// a window of 0.15 radius of curvature (at least 2.5 cells), maximised continuously. The
     /// individual samples scatter by a few 0.1 % with where the grid happens to cut the
     /// surface; the fitted maximum does not jump with the sampling. On the axis the profile is
     /// mirrored (it is even in r there). Where the surface is not resolved (a cell above half
@@ -345,7 +345,7 @@ impl<'a> FieldMap<'a> {
         if !(rho > 0.0 && h <= 0.5 * rho) {
             return (*best, 0.0);
         }
-        let w = (0.3 * rho).max(2.5 * h);
+        let w = (0.15 * rho).max(2.5 * h);
         let n0 = best.normal;
         let t = Point::new(-n0.z, n0.r);
         // On the axis with the normal along it the profile is even in r: mirror the samples.
