@@ -25,9 +25,9 @@
 //! its limit is given as the gap voltage at which V·E = C); and the inception factor found by
 //! bisection for the streamer integral (not linear in the field). Every margin therefore halves
 //! when the terminal voltage doubles, and the **hold-off voltage** is the terminal voltage times
-//! the smallest margin of the rows that enter it. Gas rows are derated for stressed area (SF6:
-//! [`Derating::sf6_large_area`], common practice; any gas: `[checks] area_derating`); the ideal
-//! hold-off uses every limit without derating.
+//! the smallest margin of the rows that enter it. Gas rows of every gas are derated alike for
+//! stressed area and roughness ([`Derating::large_area`], 0.6, common practice; or
+//! `[checks] area_derating`); the ideal hold-off uses every limit without derating.
 //!
 //! **Status** against `[checks] design_factor` f: fail below f, review from f to 1.1·f
 //! ([`REVIEW_BAND`]), pass above; a row whose criterion is outside its range of validity has no
@@ -438,19 +438,7 @@ fn gas_derating(ctx: &Ctx, state: &GasState) -> Result<Derating, MarginError> {
             reason: e.to_string(),
         });
     }
-    if state.kind.is_sf6_based() {
-        Ok(Derating::sf6_large_area())
-    } else {
-        Ok(Derating {
-            factor: 1.0,
-            basis: format!(
-                "ideal: the gas table has no area derating for {}; set [checks] area_derating \
-                 to derate",
-                state.kind.label()
-            ),
-            mark: None,
-        })
-    }
+    Ok(Derating::large_area(&state.kind.label()))
 }
 
 fn user_limit(limit: Limit, key: &'static str, value: f64) -> Result<Limit, MarginError> {

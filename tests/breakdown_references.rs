@@ -482,7 +482,7 @@ fn sf6_area_derating_keeps_both_values() {
     let ideal = uniform::critical_field(&sf6(3.0 * BAR_PA), &GasOptions::default()).unwrap();
     let derated = ideal
         .clone()
-        .derated(holdoff::breakdown::Derating::sf6_large_area());
+        .derated(holdoff::breakdown::Derating::large_area("SF6"));
     assert_eq!(derated.ideal, ideal.value);
     assert_rel("derated", derated.value, 0.6 * ideal.value, 1e-15);
     assert!(!derated.derating.is_ideal());
