@@ -61,6 +61,15 @@ pub const REVIEW_BAND: f64 = 1.1;
 /// electrodes (Peek 1929 via docs/references.md §5 \[C\]); accelerator electrodes are polished.
 pub const DEFAULT_CORONA_SURFACE_FACTOR: f64 = corona::SURFACE_POLISHED;
 
+/// A conductor surface whose field line reaches an opposite electrode within this many local
+/// radii of curvature faces a **gap**: the streamer (ionisation-integral) criterion along the
+/// field line governs, and Peek's onset, a formula for an isolated conductor far from others
+/// (docs/references.md §5), is shown as a cross-check. Farther (or with no opposite electrode) the
+/// conductor is **isolated** and Peek's onset enters beside the streamer integral. 2 radii, i.e.
+/// a gap up to the diameter: holdoff's choice, common practice, no source (docs/references.md §15;
+/// sphere gaps with d/D ≤ 0.5 agree with the calibration tables by the streamer criterion).
+pub const GAP_TO_RADIUS: f64 = 2.0;
+
 /// Density-reduced pressure from which N2 streamer integrals use the scaled-air model
 /// ([`EffectiveIonisation::n2_scaled_air`]) instead of the Townsend α fit, whose window
 /// (E/p ≥ 100 V/(cm·Torr)) is not reached at tank pressures: 0.1 bar (holdoff's choice).
@@ -183,6 +192,9 @@ pub struct MarginRow {
     pub scaling: Scaling,
     /// Whether the row enters the hold-off voltage.
     pub in_holdoff: bool,
+    /// A cross-check shown beside the criterion that governs here (chosen by the geometry, see
+    /// [`GAP_TO_RADIUS`]): neither in the hold-off voltage nor in the worst status.
+    pub cross_check: bool,
     /// Further notes: field-line end, assumptions, junction advice.
     pub note: Option<String>,
 }
@@ -228,10 +240,12 @@ pub struct Margins {
 }
 
 impl Margins {
-    /// The worst status of the rows with a number (`Pass` when there are none).
+    /// The worst status of the rows with a number (`Pass` when there are none); cross-checks
+    /// do not count.
     pub fn worst_status(&self) -> Status {
         self.rows
             .iter()
+            .filter(|r| !r.cross_check)
             .map(|r| r.status)
             .filter(|s| *s != Status::OutsideValidity)
             .min()
@@ -407,6 +421,7 @@ fn row(ctx: &Ctx, spec: RowSpec, limit: &Limit) -> MarginRow {
         validity: limit.validity.clone(),
         scaling: spec.scaling,
         in_holdoff: spec.in_holdoff,
+        cross_check: false,
         note: spec.note,
     }
 }
@@ -631,7 +646,8 @@ fn gas_rows(
         ));
     }
 
-    // 4. Corona onset in air (Peek) at the local radius of curvature.
+    // 4. Corona onset in air (Peek) at the local radius of curvature; by the geometry either
+    // beside the streamer integral (an isolated conductor) or a cross-check (a gap).
     if state.kind == GasKind::Air && hot.conductor != TANK {
         let shape = &model.conductors[hot.conductor as usize].shape;
         let (m, m_user) = match override_of(model, "corona_surface_factor") {
@@ -642,7 +658,8 @@ fn gas_rows(
             Shape::Sphere { .. } => PeekGeometry::Sphere,
             _ => PeekGeometry::Coaxial,
         };
-        let peek = match local_radius(shape, hot.at) {
+        let radius = local_radius(shape, hot.at);
+        let peek = match radius {
             Some(radius) => {
                 let mut l = corona::onset_field_in_gas(geometry, radius, gas, m).map_err(|e| {
                     MarginError::Override {
@@ -667,11 +684,31 @@ fn gas_rows(
                 "Peek (1929), docs/references.md §5",
             ),
         };
-        let note = match geometry {
+        let form = match geometry {
             PeekGeometry::Sphere => "Peek's sphere form",
             _ => "Peek's coaxial (cylinder) form at the in-plane radius of the hotspot",
         };
-        rows.push(row(
+        let gap = match radius {
+            Some(r) if faces_electrode(&line) && line.length_m <= GAP_TO_RADIUS * r => Some(r),
+            _ => None,
+        };
+        let note = match (gap, radius) {
+            (Some(r), _) => format!(
+                "{form}; cross-check, not in the hold-off or the status: the field line reaches \
+                 {to} after {:.1} mm, within {GAP_TO_RADIUS} local radii ({:.1} mm), so this is \
+                 a gap and the streamer criterion along the field line governs (Peek's formula \
+                 is for a conductor far from others)",
+                line.length_m * 1e3,
+                r * 1e3
+            ),
+            (None, Some(r)) => format!(
+                "{form}; isolated conductor (no opposite electrode within {GAP_TO_RADIUS} local \
+                 radii, {:.1} mm): Peek's onset enters beside the streamer integral",
+                GAP_TO_RADIUS * r * 1e3
+            ),
+            (None, None) => form.to_string(),
+        };
+        let mut peek_row = row(
             ctx,
             RowSpec {
                 item: name,
@@ -681,13 +718,37 @@ fn gas_rows(
                 numerical_error: err,
                 user_set: m_user,
                 scaling: Scaling::Linear,
-                in_holdoff: true,
-                note: Some(note.to_string()),
+                in_holdoff: gap.is_none(),
+                note: Some(note),
             },
             &peek,
-        ));
+        );
+        if gap.is_some() {
+            peek_row.cross_check = true;
+            peek_row.criterion_name = format!(
+                "{} (cross-check: the streamer criterion governs this gap)",
+                peek_row.criterion_name
+            );
+            if let Some(streamer_row) = rows
+                .iter_mut()
+                .rev()
+                .find(|r| r.criterion == Criterion::StreamerIntegral && r.item == peek_row.item)
+                && let Some(n) = streamer_row.note.as_mut()
+            {
+                n.push_str(&format!(
+                    "; governs this gap (field line within {GAP_TO_RADIUS} local radii; Peek \
+                     shown as a cross-check)"
+                ));
+            }
+        }
+        rows.push(peek_row);
     }
     Ok(())
+}
+
+/// True when the field line ends on an electrode (a conductor or the tank).
+fn faces_electrode(line: &FieldLine) -> bool {
+    matches!(line.end, LineEnd::Conductor { .. } | LineEnd::Tank) && line.length_m > 0.0
 }
 
 fn summary(model: &Model, line: &FieldLine, from: &SurfaceSample, to: &str) -> LineSummary {
@@ -1225,6 +1286,7 @@ mod tests {
             validity: Validity::Valid,
             scaling: Scaling::Linear,
             in_holdoff,
+            cross_check: false,
             note: None,
         }
     }

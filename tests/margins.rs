@@ -75,6 +75,136 @@ fn row<'a>(m: &'a Margins, item: &str, criterion: Criterion) -> &'a margin::Marg
         .unwrap_or_else(|| panic!("no row {item} / {criterion:?}"))
 }
 
+/// A sphere gap in air at 1 atm, 20 °C: two spheres of diameter `d_sphere` on the axis, `gap`
+/// apart, the upper at the terminal voltage and the lower earthed, in an earthed tank 2.5
+/// diameters clear of them sideways and about 5 diameters above and below.
+fn sphere_gap(d_sphere: f64, gap: f64, v: f64) -> Model {
+    let r = d_sphere / 2.0;
+    let length = 10.0 * d_sphere + gap;
+    let mut m = Model::new(
+        "sphere gap",
+        Tank::Cylinder {
+            inner_radius: 5.0 * d_sphere,
+            length,
+        },
+        v,
+    );
+    m.gas = Some(pure("air", ATM_PA, T0_K));
+    let mid = length / 2.0;
+    for (name, center_z, potential) in [
+        (
+            "hv sphere",
+            mid + gap / 2.0 + r,
+            PotentialSpec::Terminal { fraction: 1.0 },
+        ),
+        ("earthed sphere", mid - gap / 2.0 - r, PotentialSpec::Ground),
+    ] {
+        m.conductors.push(Conductor {
+            name: name.into(),
+            shape: Shape::Sphere {
+                center_z,
+                radius: r,
+            },
+            potential,
+            origin: Origin::Program,
+        });
+    }
+    m.mesh = MeshSpec {
+        cell: gap / 40.0,
+        max_cell: r,
+        growth: 1.1,
+    };
+    m
+}
+
+#[test]
+fn sphere_gaps_agree_with_the_calibration_tables_by_the_streamer_criterion() {
+    // Sphere-gap calibration tables, AC and DC of either polarity, one sphere earthed, standard
+    // atmosphere, peak kV (docs/references.md §15): IEC 60052 values as reproduced in a public
+    // sphere-gap voltage table ("Sphere Gap Breakdown Voltage Tables", the jimlux HV pages),
+    // the same values as docs/references.md §2 [C, secondary], and, where marked, the IEC 60052
+    // table as recalled from memory (Kuffel, Zaengl & Kuffel, High Voltage Engineering:
+    // Fundamentals, 2nd ed. 2000, Ch. 3 sphere-gap table), cross-checked against the AIEE
+    // sphere-gap table (25 °C) as reproduced in a public spark-gap page. Gaps up to half the
+    // diameter; the ideal hold-off within 5 % (the tables' own accuracy is 3 %).
+    let rows: [(f64, f64, f64, &str); 8] = [
+        (
+            0.05,
+            0.01,
+            32.0e3,
+            "IEC 60052 via the public table: 5 cm spheres, 1 cm",
+        ),
+        (
+            0.05,
+            0.02,
+            57.5e3,
+            "IEC 60052 via the public table: 5 cm spheres, 2 cm",
+        ),
+        (
+            0.10,
+            0.02,
+            58.0e3,
+            "IEC 60052 via the public table: 10 cm spheres, 2 cm",
+        ),
+        (
+            0.10,
+            0.03,
+            85.0e3,
+            "IEC 60052 via the public table: 10 cm spheres, 3 cm",
+        ),
+        (
+            0.10,
+            0.04,
+            105.0e3,
+            "IEC 60052, recalled from memory (AIEE 105 kV at 25 °C)",
+        ),
+        (
+            0.10,
+            0.05,
+            123.0e3,
+            "IEC 60052 via the public table: 10 cm spheres, 5 cm",
+        ),
+        (
+            0.25,
+            0.075,
+            195.0e3,
+            "IEC 60052, recalled from memory (AIEE 194 kV at 25 °C)",
+        ),
+        (
+            0.25,
+            0.10,
+            244.0e3,
+            "IEC 60052, recalled from memory (AIEE 244 kV at 25 °C)",
+        ),
+    ];
+    for (d_sphere, gap, table, source) in rows {
+        let model = sphere_gap(d_sphere, gap, 50e3);
+        let (_, m) = margins_of(&model);
+        let ideal = m.holdoff_ideal.as_ref().expect("hold-off");
+        assert!(
+            rel(ideal.voltage_v, table) < 0.05,
+            "{source}: hold-off {:.1} kV vs table {:.1} kV",
+            ideal.voltage_v / 1e3,
+            table / 1e3
+        );
+        // A gap (d <= 2 local radii): the streamer criterion governs, Peek is a cross-check that
+        // stays visible with its number and says why it does not govern.
+        let s = row(&m, "hv sphere", Criterion::StreamerIntegral);
+        assert!(s.in_holdoff && !s.cross_check);
+        assert!(s.note.as_deref().unwrap_or("").contains("governs this gap"));
+        let peek = row(&m, "hv sphere", Criterion::PeekCorona);
+        assert!(peek.cross_check && !peek.in_holdoff && peek.margin.is_some());
+        assert!(
+            peek.note
+                .as_deref()
+                .unwrap_or("")
+                .contains("streamer criterion")
+        );
+        assert!(peek.criterion_name.contains("cross-check"));
+        assert_ne!(ideal.criterion, Criterion::PeekCorona, "{source}");
+    }
+}
+
 #[test]
 fn field_line_between_concentric_spheres_is_radial_with_the_analytic_field() {
     // Concentric spheres a = 0.1 m, b = 0.2 m, 1 MV (docs/references.md §10, check row 24):
