@@ -25,9 +25,9 @@
 //! its limit is given as the gap voltage at which V·E = C); and the inception factor found by
 //! bisection for the streamer integral (not linear in the field). Every margin therefore halves
 //! when the terminal voltage doubles, and the **hold-off voltage** is the terminal voltage times
-//! the smallest margin of the rows that enter it. Gas rows are derated for stressed area (SF6:
-//! [`Derating::sf6_large_area`], common practice; any gas: `[checks] area_derating`); the ideal
-//! hold-off uses every limit without derating.
+//! the smallest margin of the rows that enter it. Gas rows of every gas are derated alike for
+//! stressed area and roughness ([`Derating::large_area`], 0.6, common practice; or
+//! `[checks] area_derating`); the ideal hold-off uses every limit without derating.
 //!
 //! **Status** against `[checks] design_factor` f: fail below f, review from f to 1.1·f
 //! ([`REVIEW_BAND`]), pass above; a row whose criterion is outside its range of validity has no
@@ -60,6 +60,15 @@ pub const REVIEW_BAND: f64 = 1.1;
 /// Peek's surface factor used when `[checks] corona_surface_factor` is not set: 1, polished
 /// electrodes (Peek 1929 via docs/references.md §5 \[C\]); accelerator electrodes are polished.
 pub const DEFAULT_CORONA_SURFACE_FACTOR: f64 = corona::SURFACE_POLISHED;
+
+/// A conductor surface whose field line reaches an opposite electrode within this many local
+/// radii of curvature faces a **gap**: the streamer (ionisation-integral) criterion along the
+/// field line governs, and Peek's onset, a formula for an isolated conductor far from others
+/// (docs/references.md §5), is shown as a cross-check. Farther (or with no opposite electrode) the
+/// conductor is **isolated** and Peek's onset enters beside the streamer integral. 2 radii, i.e.
+/// a gap up to the diameter: holdoff's choice, common practice, no source (docs/references.md §15;
+/// sphere gaps with d/D ≤ 0.5 agree with the calibration tables by the streamer criterion).
+pub const GAP_TO_RADIUS: f64 = 2.0;
 
 /// Density-reduced pressure from which N2 streamer integrals use the scaled-air model
 /// ([`EffectiveIonisation::n2_scaled_air`]) instead of the Townsend α fit, whose window
@@ -183,6 +192,9 @@ pub struct MarginRow {
     pub scaling: Scaling,
     /// Whether the row enters the hold-off voltage.
     pub in_holdoff: bool,
+    /// A cross-check shown beside the criterion that governs here (chosen by the geometry, see
+    /// [`GAP_TO_RADIUS`]): neither in the hold-off voltage nor in the worst status.
+    pub cross_check: bool,
     /// Further notes: field-line end, assumptions, junction advice.
     pub note: Option<String>,
 }
@@ -228,10 +240,12 @@ pub struct Margins {
 }
 
 impl Margins {
-    /// The worst status of the rows with a number (`Pass` when there are none).
+    /// The worst status of the rows with a number (`Pass` when there are none); cross-checks
+    /// do not count.
     pub fn worst_status(&self) -> Status {
         self.rows
             .iter()
+            .filter(|r| !r.cross_check)
             .map(|r| r.status)
             .filter(|s| *s != Status::OutsideValidity)
             .min()
@@ -407,6 +421,7 @@ fn row(ctx: &Ctx, spec: RowSpec, limit: &Limit) -> MarginRow {
         validity: limit.validity.clone(),
         scaling: spec.scaling,
         in_holdoff: spec.in_holdoff,
+        cross_check: false,
         note: spec.note,
     }
 }
@@ -438,19 +453,7 @@ fn gas_derating(ctx: &Ctx, state: &GasState) -> Result<Derating, MarginError> {
             reason: e.to_string(),
         });
     }
-    if state.kind.is_sf6_based() {
-        Ok(Derating::sf6_large_area())
-    } else {
-        Ok(Derating {
-            factor: 1.0,
-            basis: format!(
-                "ideal: the gas table has no area derating for {}; set [checks] area_derating \
-                 to derate",
-                state.kind.label()
-            ),
-            mark: None,
-        })
-    }
+    Ok(Derating::large_area(&state.kind.label()))
 }
 
 fn user_limit(limit: Limit, key: &'static str, value: f64) -> Result<Limit, MarginError> {
@@ -482,10 +485,137 @@ fn local_radius(shape: &Shape, p: Point) -> Option<f64> {
     Some(1.0 / lap)
 }
 
+/// Most field lines integrated for the streamer criterion of one conductor.
+pub const STREAMER_MAX_LINES: usize = 32;
+
+/// One field line of the streamer criterion and its inception.
+struct StreamerLine {
+    start: SurfaceSample,
+    line: FieldLine,
+    inception: streamer::Inception,
+}
+
+/// The worst field lines of one conductor for the streamer criterion: the worst line whose
+/// integral is inside the fits' validity (its row has a number and enters the hold-off), a worse
+/// line outside validity if there is one (its row is shown without a number), and the first
+/// reason a line gave no inception.
+#[derive(Default)]
+struct WorstLines {
+    valid: Option<StreamerLine>,
+    outside: Option<StreamerLine>,
+    error: Option<String>,
+}
+
+impl WorstLines {
+    fn least_factor(&self) -> Option<f64> {
+        [&self.valid, &self.outside]
+            .into_iter()
+            .flatten()
+            .map(|l| l.inception.factor)
+            .min_by(f64::total_cmp)
+    }
+}
+
+/// The streamer criterion along field lines from the stressed surface of the hotspot's
+/// conductor: the hotspot's line, then the lines from the conductor's other gas samples in
+/// falling surface field, each at least 1/[`STREAMER_MAX_LINES`] of the conductor's extent from
+/// the samples already used, up to [`STREAMER_MAX_LINES`] lines, while a sample's field times
+/// the smallest inception factor so far exceeds the stop field of the model (where α − η ≤ 0:
+/// below it a line whose field does not rise above its surface value has a zero integral at that
+/// factor, so it cannot be worse). Returns the worst lines and the number of lines integrated.
+fn worst_streamer_line(
+    fm: &FieldMap,
+    samples: &[SurfaceSample],
+    hot: &SurfaceSample,
+    hot_line: &FieldLine,
+    gas: &Gas,
+    model_ion: &EffectiveIonisation,
+    p: f64,
+) -> (WorstLines, usize) {
+    let reaches = |l: &FieldLine| !matches!(l.end, LineEnd::Stalled) && l.length_m > 0.0;
+    let mut surface: Vec<SurfaceSample> = samples
+        .iter()
+        .filter(|s| s.conductor == hot.conductor && s.medium == Medium::Gas)
+        .filter(|s| s.e.is_finite() && s.e > 0.0 && s.at != hot.at)
+        .copied()
+        .collect();
+    surface.sort_by(|a, b| b.e.total_cmp(&a.e));
+    let (lo, hi) = surface.iter().fold((hot.at, hot.at), |(lo, hi), s| {
+        (
+            Point::new(lo.r.min(s.at.r), lo.z.min(s.at.z)),
+            Point::new(hi.r.max(s.at.r), hi.z.max(s.at.z)),
+        )
+    });
+    let spacing = (hi.r - lo.r).hypot(hi.z - lo.z) / STREAMER_MAX_LINES as f64;
+    let e_stop = model_ion.stop_field(p);
+    let mut used = vec![hot.at];
+    let mut best = WorstLines::default();
+    let consider = |start: SurfaceSample, line: FieldLine, best: &mut WorstLines| {
+        if !reaches(&line) {
+            best.error.get_or_insert_with(|| {
+                format!(
+                    "the field line from r, z = {:.1}, {:.1} mm reached no opposite surface",
+                    start.at.r * 1e3,
+                    start.at.z * 1e3
+                )
+            });
+            return;
+        }
+        match streamer::inception(&line.profile(), gas, model_ion) {
+            Ok(inception) => {
+                let slot = if inception.integral.validity.is_valid() {
+                    &mut best.valid
+                } else {
+                    &mut best.outside
+                };
+                if slot
+                    .as_ref()
+                    .is_none_or(|b| inception.factor < b.inception.factor)
+                {
+                    *slot = Some(StreamerLine {
+                        start,
+                        line,
+                        inception,
+                    });
+                }
+            }
+            Err(e) => {
+                best.error.get_or_insert_with(|| e.to_string());
+            }
+        }
+    };
+    consider(*hot, hot_line.clone(), &mut best);
+    for s in surface {
+        if used.len() >= STREAMER_MAX_LINES {
+            break;
+        }
+        if best.least_factor().is_some_and(|f| f * s.e <= e_stop) {
+            break;
+        }
+        if used
+            .iter()
+            .any(|u| (u.r - s.at.r).hypot(u.z - s.at.z) < spacing)
+        {
+            continue;
+        }
+        used.push(s.at);
+        let line = fieldline::trace(fm, &s, &TraceParams::default());
+        consider(s, line, &mut best);
+    }
+    // A line outside validity is kept only when it is worse than every valid one.
+    if let (Some(v), Some(o)) = (&best.valid, &best.outside)
+        && o.inception.factor >= v.inception.factor
+    {
+        best.outside = None;
+    }
+    (best, used.len())
+}
+
 /// The gas rows of one conductor hotspot.
 fn gas_rows(
     ctx: &Ctx,
     fm: &FieldMap,
+    samples: &[SurfaceSample],
     hot: &SurfaceSample,
     lines: &mut Vec<LineSummary>,
     rows: &mut Vec<MarginRow>,
@@ -548,46 +678,72 @@ fn gas_rows(
         } else {
             EffectiveIonisation::for_gas(gas, &ctx.options)?
         };
-    let profile = line.profile();
-    let streamer_limit = if !reached {
-        unavailable(
+    let p = state.reduced_pressure_pa;
+    let (worst, integrated) = worst_streamer_line(fm, samples, hot, &line, gas, &model_ion, p);
+    let e_ref = line.profile().first().map_or(hot.e, |&(_, e)| e);
+    let mut streamer_rows = Vec::new();
+    if worst.valid.is_none() && worst.outside.is_none() {
+        let reason = worst
+            .error
+            .clone()
+            .unwrap_or_else(|| "no field line from the stressed surface".to_string());
+        let limit = unavailable(
             Criterion::StreamerIntegral,
             "streamer inception (ionisation integral)",
             LimitKind::Field,
-            format!("the field line from the hotspot reached {to}"),
+            reason,
             &model_ion.source,
-        )
-    } else {
-        match streamer::inception(&profile, gas, &model_ion) {
-            Ok(inc) => inc.field_limit(),
-            Err(e) => unavailable(
-                Criterion::StreamerIntegral,
-                "streamer inception (ionisation integral)",
-                LimitKind::Field,
-                e.to_string(),
-                &model_ion.source,
-            ),
-        }
-    };
-    rows.push(row(
-        ctx,
-        RowSpec {
-            item: name.clone(),
-            medium: RowMedium::Gas,
-            peak: hot.e,
-            at: hot.at,
-            numerical_error: err,
-            user_set: false,
-            scaling: Scaling::Bisection,
-            in_holdoff: true,
-            note: Some(format!(
-                "integral along the {:.1} mm field line to {to}; the limit is the surface field \
-                 at inception",
-                line.length_m * 1e3
-            )),
-        },
-        &streamer_limit.derated(derating.clone()),
-    ));
+        );
+        let note = format!(
+            "no field line from the stressed surface reached inception ({integrated} integrated)"
+        );
+        streamer_rows.push((limit, hot.at, note));
+    }
+    for w in [&worst.valid, &worst.outside].into_iter().flatten() {
+        // Every line's limit is the hotspot's surface field at that line's inception factor, so
+        // that the margin of the row is the line's factor.
+        let limit = w.inception.field_limit();
+        let limit = limit
+            .clone()
+            .scaled(w.inception.factor * e_ref / limit.ideal);
+        let w_to = end_name(model, w.line.end);
+        let note = if w.start.at == hot.at {
+            format!(
+                "integral along the {:.1} mm field line to {w_to} (the worst of {integrated} \
+                 lines from the stressed surface); the limit is the surface field at inception",
+                w.line.length_m * 1e3
+            )
+        } else {
+            lines.push(summary(model, &w.line, &w.start, &w_to));
+            format!(
+                "worst of {integrated} field lines from the stressed surface: the {:.1} mm line \
+                 to {w_to} from r, z = {:.1}, {:.1} mm (surface field {:.2} of the peak); the \
+                 limit is the peak surface field at that line's inception",
+                w.line.length_m * 1e3,
+                w.start.at.r * 1e3,
+                w.start.at.z * 1e3,
+                w.start.e / hot.e
+            )
+        };
+        streamer_rows.push((limit, w.start.at, note));
+    }
+    for (limit, at, note) in streamer_rows {
+        rows.push(row(
+            ctx,
+            RowSpec {
+                item: name.clone(),
+                medium: RowMedium::Gas,
+                peak: hot.e,
+                at,
+                numerical_error: err,
+                user_set: false,
+                scaling: Scaling::Bisection,
+                in_holdoff: true,
+                note: Some(note),
+            },
+            &limit.derated(derating.clone()),
+        ));
+    }
 
     // 3. Gap voltage against the uniform-field breakdown of the same gap.
     if reached && line.voltage_v > 0.0 {
@@ -643,7 +799,8 @@ fn gas_rows(
         ));
     }
 
-    // 4. Corona onset in air (Peek) at the local radius of curvature.
+    // 4. Corona onset in air (Peek) at the local radius of curvature; by the geometry either
+    // beside the streamer integral (an isolated conductor) or a cross-check (a gap).
     if state.kind == GasKind::Air && hot.conductor != TANK {
         let shape = &model.conductors[hot.conductor as usize].shape;
         let (m, m_user) = match override_of(model, "corona_surface_factor") {
@@ -654,7 +811,8 @@ fn gas_rows(
             Shape::Sphere { .. } => PeekGeometry::Sphere,
             _ => PeekGeometry::Coaxial,
         };
-        let peek = match local_radius(shape, hot.at) {
+        let radius = local_radius(shape, hot.at);
+        let peek = match radius {
             Some(radius) => {
                 let mut l = corona::onset_field_in_gas(geometry, radius, gas, m).map_err(|e| {
                     MarginError::Override {
@@ -679,11 +837,31 @@ fn gas_rows(
                 "Peek (1929), docs/references.md §5",
             ),
         };
-        let note = match geometry {
+        let form = match geometry {
             PeekGeometry::Sphere => "Peek's sphere form",
             _ => "Peek's coaxial (cylinder) form at the in-plane radius of the hotspot",
         };
-        rows.push(row(
+        let gap = match radius {
+            Some(r) if faces_electrode(&line) && line.length_m <= GAP_TO_RADIUS * r => Some(r),
+            _ => None,
+        };
+        let note = match (gap, radius) {
+            (Some(r), _) => format!(
+                "{form}; cross-check, not in the hold-off or the status: the field line reaches \
+                 {to} after {:.1} mm, within {GAP_TO_RADIUS} local radii ({:.1} mm), so this is \
+                 a gap and the streamer criterion along the field line governs (Peek's formula \
+                 is for a conductor far from others)",
+                line.length_m * 1e3,
+                r * 1e3
+            ),
+            (None, Some(r)) => format!(
+                "{form}; isolated conductor (no opposite electrode within {GAP_TO_RADIUS} local \
+                 radii, {:.1} mm): Peek's onset enters beside the streamer integral",
+                GAP_TO_RADIUS * r * 1e3
+            ),
+            (None, None) => form.to_string(),
+        };
+        let mut peek_row = row(
             ctx,
             RowSpec {
                 item: name,
@@ -693,13 +871,36 @@ fn gas_rows(
                 numerical_error: err,
                 user_set: m_user,
                 scaling: Scaling::Linear,
-                in_holdoff: true,
-                note: Some(note.to_string()),
+                in_holdoff: gap.is_none(),
+                note: Some(note),
             },
             &peek,
-        ));
+        );
+        if gap.is_some() {
+            peek_row.cross_check = true;
+            peek_row.criterion_name = format!(
+                "{} (cross-check: the streamer criterion governs this gap)",
+                peek_row.criterion_name
+            );
+            for n in rows
+                .iter_mut()
+                .filter(|r| r.criterion == Criterion::StreamerIntegral && r.item == peek_row.item)
+                .filter_map(|r| r.note.as_mut())
+            {
+                n.push_str(&format!(
+                    "; governs this gap (field line within {GAP_TO_RADIUS} local radii; Peek \
+                     shown as a cross-check)"
+                ));
+            }
+        }
+        rows.push(peek_row);
     }
     Ok(())
+}
+
+/// True when the field line ends on an electrode (a conductor or the tank).
+fn faces_electrode(line: &FieldLine) -> bool {
+    matches!(line.end, LineEnd::Conductor { .. } | LineEnd::Tank) && line.length_m > 0.0
 }
 
 fn summary(model: &Model, line: &FieldLine, from: &SurfaceSample, to: &str) -> LineSummary {
@@ -1109,7 +1310,7 @@ pub fn evaluate(
         );
     } else {
         for hot in &gas_hot {
-            gas_rows(&ctx, &fm, hot, &mut lines, &mut rows)?;
+            gas_rows(&ctx, &fm, &fine.samples, hot, &mut lines, &mut rows)?;
         }
     }
     for hot in hotspots(&fm, &fine.samples, false) {
@@ -1242,6 +1443,7 @@ mod tests {
             validity: Validity::Valid,
             scaling: Scaling::Linear,
             in_holdoff,
+            cross_check: false,
             note: None,
         }
     }

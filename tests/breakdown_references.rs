@@ -48,6 +48,51 @@ fn row_03_n2_paschen_minimum() {
     assert_rel("(pd)min", pa_m_to_torr_cm(m.pd_pa_m), 1.0454, 1e-3);
 }
 
+/// The lowest voltage of the Paschen curve found by scanning pd (a construction independent of
+/// the closed-form minimum): 2000 log-spaced points over 0.05–50 Torr·cm, V and pd at the least.
+fn scanned_minimum(c: &paschen::PaschenConstants) -> (f64, f64) {
+    let mut best = (f64::INFINITY, 0.0);
+    for i in 0..2000 {
+        let pd = torr_cm_to_pa_m(0.05 * 1000f64.powf(i as f64 / 1999.0));
+        if let Ok(p) = paschen::voltage_at_pd(c, pd, 0.01)
+            && p.voltage_v < best.0
+        {
+            best = (p.voltage_v, pd);
+        }
+    }
+    best
+}
+
+#[test]
+fn paschen_minimum_of_each_gas_is_within_15_percent_of_the_measured_one() {
+    // Measured minimum sparking potentials, Naidu & Kamaraju, High Voltage Engineering, Ch. 2
+    // table (from memory; air 327 V also confirmed in a public HV article): air 327 V, N2 251 V,
+    // CO2 420 V (docs/references.md §1). The breakdown curve of each gas (air: Raizer A = 15,
+    // B = 365; N2 and CO2: anchored on the measured minima, docs/references.md §15), gamma =
+    // 0.01, scanned over pd, must have its least voltage within 15 % of the measured one.
+    use holdoff::breakdown::GasKind;
+    for (kind, name) in [
+        (GasKind::Air, "air"),
+        (GasKind::N2, "N2"),
+        (GasKind::Co2, "CO2"),
+    ] {
+        let c = paschen::constants_for(kind).unwrap();
+        let measured = paschen::measured_minimum(name).unwrap();
+        let (v, pd) = scanned_minimum(c);
+        assert_rel(&format!("{name} Vmin"), v, measured.v_min_v, 0.15);
+        // The closed form agrees with the scan (0.1 %), and the minimum is inside the window.
+        let m = paschen::minimum(c, 0.01).unwrap();
+        assert_rel(&format!("{name} closed form"), m.voltage_v, v, 1e-3);
+        assert_rel(&format!("{name} (pd)min"), m.pd_pa_m, pd, 0.01);
+        assert!(m.validity.is_valid(), "{name}: {:?}", m.validity);
+    }
+    // The published N2 and CO2 alpha fits (Raizer Table 4.1, from memory) miss the minima by
+    // more than 15 % at gamma = 0.01 (357 V and 292 V): the reason for the anchored curves.
+    for (c, measured) in [(&N2, 251.0), (&paschen::CO2, 420.0)] {
+        assert!(rel(paschen::minimum(c, 0.01).unwrap().voltage_v, measured) > 0.15);
+    }
+}
+
 #[test]
 fn row_04_air_paschen_at_10_torr_cm() {
     // Row 4 [D]: 1048.5 V at pd = 10 Torr·cm, 0.1 %; E/p = 104.9 V/(cm·Torr), inside 100-800.
@@ -437,7 +482,7 @@ fn sf6_area_derating_keeps_both_values() {
     let ideal = uniform::critical_field(&sf6(3.0 * BAR_PA), &GasOptions::default()).unwrap();
     let derated = ideal
         .clone()
-        .derated(holdoff::breakdown::Derating::sf6_large_area());
+        .derated(holdoff::breakdown::Derating::large_area("SF6"));
     assert_eq!(derated.ideal, ideal.value);
     assert_rel("derated", derated.value, 0.6 * ideal.value, 1e-15);
     assert!(!derated.derating.is_ideal());

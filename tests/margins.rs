@@ -71,6 +71,210 @@ fn row<'a>(m: &'a Margins, item: &str, criterion: Criterion) -> &'a margin::Marg
         .unwrap_or_else(|| panic!("no row {item} / {criterion:?}"))
 }
 
+/// A sphere gap in air at 1 atm, 20 °C: two spheres of diameter `d_sphere` on the axis, `gap`
+/// apart, the upper at the terminal voltage and the lower earthed, in an earthed tank 2.5
+/// diameters clear of them sideways and about 5 diameters above and below.
+fn sphere_gap(d_sphere: f64, gap: f64, v: f64) -> Model {
+    let r = d_sphere / 2.0;
+    let length = 10.0 * d_sphere + gap;
+    let mut m = Model::new(
+        "sphere gap",
+        Tank::Cylinder {
+            inner_radius: 5.0 * d_sphere,
+            length,
+        },
+        v,
+    );
+    m.gas = Some(pure("air", ATM_PA, T0_K));
+    let mid = length / 2.0;
+    for (name, center_z, potential) in [
+        (
+            "hv sphere",
+            mid + gap / 2.0 + r,
+            PotentialSpec::Terminal { fraction: 1.0 },
+        ),
+        ("earthed sphere", mid - gap / 2.0 - r, PotentialSpec::Ground),
+    ] {
+        m.conductors.push(Conductor {
+            name: name.into(),
+            shape: Shape::Sphere {
+                center_z,
+                radius: r,
+            },
+            potential,
+            origin: Origin::Program,
+        });
+    }
+    m.mesh = MeshSpec {
+        cell: gap / 40.0,
+        max_cell: r,
+        growth: 1.1,
+    };
+    m
+}
+
+#[test]
+fn sphere_gaps_agree_with_the_calibration_tables_by_the_streamer_criterion() {
+    // Sphere-gap calibration tables, AC and DC of either polarity, one sphere earthed, standard
+    // atmosphere, peak kV (docs/references.md §15): IEC 60052 values as reproduced in a public
+    // sphere-gap voltage table ("Sphere Gap Breakdown Voltage Tables", the jimlux HV pages),
+    // the same values as docs/references.md §2 [C, secondary], and, where marked, the IEC 60052
+    // table as recalled from memory (Kuffel, Zaengl & Kuffel, High Voltage Engineering:
+    // Fundamentals, 2nd ed. 2000, Ch. 3 sphere-gap table), cross-checked against the AIEE
+    // sphere-gap table (25 °C) as reproduced in a public spark-gap page. Gaps up to half the
+    // diameter; the ideal hold-off within 5 % (the tables' own accuracy is 3 %).
+    let rows: [(f64, f64, f64, &str); 8] = [
+        (
+            0.05,
+            0.01,
+            32.0e3,
+            "IEC 60052 via the public table: 5 cm spheres, 1 cm",
+        ),
+        (
+            0.05,
+            0.02,
+            57.5e3,
+            "IEC 60052 via the public table: 5 cm spheres, 2 cm",
+        ),
+        (
+            0.10,
+            0.02,
+            58.0e3,
+            "IEC 60052 via the public table: 10 cm spheres, 2 cm",
+        ),
+        (
+            0.10,
+            0.03,
+            85.0e3,
+            "IEC 60052 via the public table: 10 cm spheres, 3 cm",
+        ),
+        (
+            0.10,
+            0.04,
+            105.0e3,
+            "IEC 60052, recalled from memory (AIEE 105 kV at 25 °C)",
+        ),
+        (
+            0.10,
+            0.05,
+            123.0e3,
+            "IEC 60052 via the public table: 10 cm spheres, 5 cm",
+        ),
+        (
+            0.25,
+            0.075,
+            195.0e3,
+            "IEC 60052, recalled from memory (AIEE 194 kV at 25 °C)",
+        ),
+        (
+            0.25,
+            0.10,
+            244.0e3,
+            "IEC 60052, recalled from memory (AIEE 244 kV at 25 °C)",
+        ),
+    ];
+    for (d_sphere, gap, table, source) in rows {
+        let model = sphere_gap(d_sphere, gap, 50e3);
+        let (_, m) = margins_of(&model);
+        let ideal = m.holdoff_ideal.as_ref().expect("hold-off");
+        assert!(
+            rel(ideal.voltage_v, table) < 0.05,
+            "{source}: hold-off {:.1} kV vs table {:.1} kV",
+            ideal.voltage_v / 1e3,
+            table / 1e3
+        );
+        // A gap (d <= 2 local radii): the streamer criterion governs, Peek is a cross-check that
+        // stays visible with its number and says why it does not govern.
+        let s = row(&m, "hv sphere", Criterion::StreamerIntegral);
+        assert!(s.in_holdoff && !s.cross_check);
+        assert!(s.note.as_deref().unwrap_or("").contains("governs this gap"));
+        let peek = row(&m, "hv sphere", Criterion::PeekCorona);
+        assert!(peek.cross_check && !peek.in_holdoff && peek.margin.is_some());
+        assert!(
+            peek.note
+                .as_deref()
+                .unwrap_or("")
+                .contains("streamer criterion")
+        );
+        assert!(peek.criterion_name.contains("cross-check"));
+        assert_ne!(ideal.criterion, Criterion::PeekCorona, "{source}");
+    }
+}
+
+/// An N2 gap at 0.15 bar: a rounded disc (radius 40 mm, 20 mm thick, edge radius `edge`)
+/// 10 mm above the earthed tank floor, in a tank of radius 120 mm.
+fn disc_gap(edge: f64) -> Model {
+    let gap = 0.01;
+    let mut m = Model::new(
+        "disc gap",
+        Tank::Cylinder {
+            inner_radius: 0.12,
+            length: 0.08,
+        },
+        20e3,
+    );
+    m.gas = Some(pure("N2", 0.15e5, T0_K));
+    m.conductors.push(Conductor {
+        name: "disc".into(),
+        shape: Shape::RoundedRect {
+            r0: 0.0,
+            r1: 0.04,
+            z0: gap,
+            z1: gap + 0.02,
+            corner_radius: edge,
+        },
+        potential: PotentialSpec::Terminal { fraction: 1.0 },
+        origin: Origin::Program,
+    });
+    m.mesh = MeshSpec {
+        cell: 0.00025,
+        max_cell: 0.004,
+        growth: 1.1,
+    };
+    m
+}
+
+#[test]
+fn a_small_edge_radius_never_raises_the_holdoff_above_the_flat_gap() {
+    // The flat centre of the disc is a 10 mm uniform gap: N2 at 0.15 bar breaks at
+    // 0.97 x (24.36 pd + 6.72 sqrt(pd)) kV = 6.07 kV, pd = 0.15 bar·cm (Schumann fit, Kuffel,
+    // Zaengl & Kuffel 2000 Ch. 5, from memory; N2 = 0.97 x air from 30.4 kV at 1 cm, 1 atm,
+    // docs/references.md §2). A 1 mm edge radius must not give a higher hold-off than a 10 mm
+    // one, and neither may exceed the flat gap: the streamer integral runs along field lines
+    // from the whole stressed surface, not only from the edge where the peak is.
+    let pd: f64 = 0.15;
+    let uniform = 0.97 * (24.36 * pd + 6.72 * pd.sqrt()) * 1e3;
+    let holdoff = |edge: f64| {
+        let (_, m) = margins_of(&disc_gap(edge));
+        (m.holdoff_ideal.as_ref().expect("hold-off").voltage_v, m)
+    };
+    let (small, m_small) = holdoff(0.001);
+    let (large, _) = holdoff(0.01);
+    assert!(
+        small <= large * 1.01,
+        "edge 1 mm: {small} V vs 10 mm: {large} V"
+    );
+    for v in [small, large] {
+        assert!(
+            v <= uniform * 1.01 && v > 0.9 * uniform,
+            "{v} V vs {uniform} V"
+        );
+    }
+    // On the 1 mm edge the line from the peak leaves the fit window (no number, shown) and the
+    // worst valid line starts elsewhere on the surface.
+    let streamer: Vec<_> = m_small
+        .rows
+        .iter()
+        .filter(|r| r.criterion == Criterion::StreamerIntegral)
+        .collect();
+    assert!(streamer.iter().any(|r| r.status == Status::OutsideValidity));
+    let valid = streamer
+        .iter()
+        .find(|r| r.margin.is_some())
+        .expect("valid line");
+    assert!(valid.note.as_deref().unwrap_or("").contains("worst of"));
+}
+
 #[test]
 fn field_line_between_concentric_spheres_is_radial_with_the_analytic_field() {
     // Concentric spheres a = 0.1 m, b = 0.2 m, 1 MV (docs/references.md §10, check row 24):
@@ -174,8 +378,46 @@ fn one_cm_air_gap_holdoff_picks_the_valid_criterion() {
     // The streamer integral in the uniform field reproduces the same breakdown within 10 %.
     let s = row(&m, "plate", Criterion::StreamerIntegral);
     assert!(rel(s.limit_ideal.unwrap() * 0.01, 31.4e3) < 0.10);
-    // No area derating is built in for air: the rows say they are ideal.
-    assert!(gap.derating.basis.starts_with("ideal"));
+    // The area derating is the one of every gas (0.6, common practice, docs/references.md §15).
+    assert_eq!(gap.derating.factor, 0.6);
+    assert!(gap.derating.basis.contains("every gas"));
+}
+
+#[test]
+fn every_gas_is_derated_alike_so_gases_compare_like_for_like() {
+    // One area/roughness policy for every gas (docs/references.md §3 for SF6, §15 for the rest:
+    // 0.6, common practice): N2 at 12 bar and SF6 at 4 bar (the usual pressures of the two
+    // choices, docs/references.md §3) and air at 1 atm, each in a 10 mm uniform gap, carry the
+    // same factor on every gas row, so the as-used hold-off is 0.6 x the ideal one for each.
+    for (species, p) in [
+        ("N2", 12.0e5),
+        ("SF6", 4.0e5),
+        ("air", ATM_PA),
+        ("CO2", 12.0e5),
+    ] {
+        let model = uniform_gap(species, p, 0.01, 50e3);
+        let (_, m) = margins_of(&model);
+        let (used, ideal) = (m.holdoff.unwrap(), m.holdoff_ideal.unwrap());
+        assert!(
+            rel(used.voltage_v, 0.6 * ideal.voltage_v) < 1e-9,
+            "{species}: {} vs {}",
+            used.voltage_v,
+            ideal.voltage_v
+        );
+        let gas_rows: Vec<_> = m
+            .rows
+            .iter()
+            .filter(|r| r.medium == RowMedium::Gas)
+            .collect();
+        assert!(!gas_rows.is_empty());
+        for r in gas_rows
+            .iter()
+            .filter(|r| r.criterion != Criterion::PeekCorona)
+        {
+            assert_eq!(r.derating.factor, 0.6, "{species} {:?}", r.criterion);
+            assert!(r.derating.basis.contains("common practice"));
+        }
+    }
 }
 
 #[test]
@@ -272,7 +514,7 @@ fn thin_wire_in_air_is_flagged_for_corona() {
     // The streamer integral (air, K = 9) agrees with Peek on the thin wire within 10 %
     // (docs/references.md §4: K ≈ 9.2 reproduced corona inception on wires).
     let s = row(&m, "thin wire ring", Criterion::StreamerIntegral);
-    assert!(rel(s.limit.unwrap(), peek.limit.unwrap()) < 0.10);
+    assert!(rel(s.limit_ideal.unwrap(), peek.limit.unwrap()) < 0.10);
     assert!(m.any_fail());
     assert_eq!(m.holdoff.as_ref().unwrap().item, "thin wire ring");
 }

@@ -151,11 +151,14 @@ pub struct Derating {
     pub mark: Option<Mark>,
 }
 
-/// Area derating for large stressed electrode areas in SF6 (and SF6 mixtures): technical gaps
+/// Area and roughness derating of every gas limit, the same for every gas: technical SF6 gaps
 /// broke at 50–70 % of the limiting field (a ~0.15 m² coaxial gap ≈ 50 %, a 150 mm plane gap
-/// ≈ 70 %) \[C\] (docs/references.md §3, translated conference excerpt); design practice keeps the peak
-/// SF6 field ≤ 0.5–0.7 × (E/p)_crit·p \[P\]. 0.6 is the middle of that range \[P\].
-pub const SF6_AREA_DERATING: f64 = 0.6;
+/// ≈ 70 %) \[C\] (docs/references.md §3, translated conference excerpt), and design practice keeps
+/// the peak SF6 field ≤ 0.5–0.7 × (E/p)_crit·p \[P\]; 0.6 is the middle of that range \[P\].
+/// holdoff applies the same factor to air, N2, CO2 and mixtures (docs/references.md §15): no
+/// published per-gas figure was found, and one factor keeps a comparison of gases like for
+/// like (common practice, no source for the gases other than SF6).
+pub const AREA_DERATING: f64 = 0.6;
 
 impl Derating {
     /// No derating: the ideal value.
@@ -167,13 +170,16 @@ impl Derating {
         }
     }
 
-    /// The default large-area derating for SF6 ([`SF6_AREA_DERATING`], common practice).
-    pub fn sf6_large_area() -> Self {
+    /// The default area and roughness derating of every gas ([`AREA_DERATING`], common
+    /// practice), with the gas named in its basis.
+    pub fn large_area(gas: &str) -> Self {
         Derating {
-            factor: SF6_AREA_DERATING,
-            basis: "large stressed area in SF6: technical gaps break at 50-70 % of the \
-                    limiting field (docs/references.md §3); 0.6 chosen, common practice"
-                .to_string(),
+            factor: AREA_DERATING,
+            basis: format!(
+                "large stressed area and roughness, one policy for every gas ({gas} here): \
+                 technical SF6 gaps break at 50-70 % of the ideal limit (docs/references.md \
+                 §3); 0.6 applied to every gas alike (docs/references.md §15), common practice"
+            ),
             mark: Some(Mark::CommonPractice),
         }
     }
@@ -301,7 +307,7 @@ mod tests {
 
     #[test]
     fn derating_multiplies_the_ideal_value() {
-        let l = sample().derated(Derating::sf6_large_area());
+        let l = sample().derated(Derating::large_area("SF6"));
         assert_eq!(l.ideal, 10.0);
         assert!((l.value - 6.0).abs() < 1e-12);
         assert_eq!(l.derating.mark, Some(Mark::CommonPractice));
@@ -319,7 +325,7 @@ mod tests {
     #[test]
     fn user_value_is_flagged_and_keeps_the_built_in() {
         let l = sample()
-            .derated(Derating::sf6_large_area())
+            .derated(Derating::large_area("SF6"))
             .with_user_value(20.0)
             .unwrap();
         assert_eq!(l.mark, Mark::UserSet);

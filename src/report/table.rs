@@ -207,6 +207,9 @@ fn margin_row_cells(r: &MarginRow) -> Vec<Cell> {
     if r.user_set {
         criterion.push_str(" [user-set]");
     }
+    if r.cross_check {
+        criterion.push_str(" (cross-check)");
+    }
     vec![
         right(r.rank.to_string()),
         Cell::new(&r.item),
