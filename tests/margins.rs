@@ -105,11 +105,7 @@ fn sphere_gap(d_sphere: f64, gap: f64, v: f64) -> Model {
             origin: Origin::Program,
         });
     }
-    m.mesh = MeshSpec {
-        cell: gap / 40.0,
-        max_cell: r,
-        growth: 1.1,
-    };
+    m.mesh = MeshSpec::graded(gap / 40.0, r, 1.1);
     m
 }
 
@@ -226,11 +222,7 @@ fn disc_gap(edge: f64) -> Model {
         potential: PotentialSpec::Terminal { fraction: 1.0 },
         origin: Origin::Program,
     });
-    m.mesh = MeshSpec {
-        cell: 0.00025,
-        max_cell: 0.004,
-        growth: 1.1,
-    };
+    m.mesh = MeshSpec::graded(0.00025, 0.004, 1.1);
     m
 }
 
