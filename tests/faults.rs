@@ -305,6 +305,30 @@ fn basis_field_equals_a_direct_solve() {
             assert_eq!(together[0][k], pots[f as usize], "node {k}");
         }
     }
+    // The capacitance matrix of the basis against one from direct unit solves to the full
+    // tolerance, column by column (Gauss's law on each electrode, as the basis forms it).
+    let groups = holdoff::capacitance::electrodes(&m);
+    let mut solver = Solver::new(&mesh, params);
+    let c_scale = (0..groups.len())
+        .map(|i| basis.capacitance.c_f[i][i].abs())
+        .fold(0.0, f64::max);
+    for (j, g) in groups.iter().enumerate() {
+        let mut unit = vec![0.0; m.conductors.len()];
+        for &k in &g.conductors {
+            unit[k] = 1.0;
+        }
+        let sol = solver.solve(&unit, None).expect("unit solve");
+        let q = holdoff::capacitance::conductor_charges(&mesh, &sol.phi, &unit);
+        for (i, gi) in groups.iter().enumerate() {
+            let c: f64 = gi.conductors.iter().map(|&k| q[k]).sum();
+            let d = (c - basis.capacitance.c_f[i][j]).abs();
+            assert!(
+                d <= 1e-6 * c_scale,
+                "C[{i}][{j}]: {c} vs {}",
+                basis.capacitance.c_f[i][j]
+            );
+        }
+    }
     // Reciprocity of the capacitance matrix from the same basis (Green's reciprocity).
     assert!(
         basis.capacitance.asymmetry < 0.02,
