@@ -31,6 +31,10 @@ pub struct BenchArgs {
     /// Folder of the example designs for --end-to-end.
     #[arg(long, value_name = "DIR", default_value = "examples")]
     pub examples: PathBuf,
+    /// Only the fault replay of FILE on 1 and on 2 threads in one run (unit solves and
+    /// scenario work timed apart).
+    #[arg(long, value_name = "FILE")]
+    pub speedup: Option<PathBuf>,
     /// Internal: run one command line in this process and report its time and peak memory
     /// on stderr (used by --end-to-end).
     #[arg(long, hide = true, num_args = 1.., allow_hyphen_values = true)]
@@ -51,6 +55,10 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
         return run_step(step);
     }
     println!("{}", threads_line());
+    if let Some(file) = &args.speedup {
+        scenario_speedup(file)?;
+        return Ok(ExitCode::SUCCESS);
+    }
     if args.end_to_end {
         return end_to_end(&args.examples);
     }
