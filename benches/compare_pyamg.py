@@ -4,12 +4,14 @@ conservative 5-point axisymmetric operator that holdoff solves, in the same run.
 
 Not run in CI. Usage (from the repository root):
 
-    python3 benches/compare_pyamg.py [nodes ...]
+    python3 benches/compare_pyamg.py [--threads N] [nodes ...]
 
 It runs `holdoff bench` for each size (which prints holdoff's own timings, the fastest of three
 runs, and exports the symmetric operator), loads the exported CSR arrays, solves to 1e-10
-relative residual with pyamg single-threaded, also the fastest of three runs, and prints seconds
-per unknown for both and their ratio.
+relative residual with pyamg, also the fastest of three runs, and prints seconds per unknown for
+both and their ratio. Both sides run on the same thread count N (default 1): holdoff through
+RAYON_NUM_THREADS, numpy/scipy through OMP_NUM_THREADS, OPENBLAS_NUM_THREADS and
+MKL_NUM_THREADS, all set to N here before anything starts, and both printed.
 """
 import os
 import subprocess
@@ -17,9 +19,23 @@ import sys
 import tempfile
 import time
 
-os.environ.setdefault("OMP_NUM_THREADS", "1")
-os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
-os.environ.setdefault("MKL_NUM_THREADS", "1")
+
+def threads_from_argv():
+    args = sys.argv[1:]
+    n = "1"
+    if "--threads" in args:
+        i = args.index("--threads")
+        if i + 1 >= len(args) or not args[i + 1].isdigit() or int(args[i + 1]) < 1:
+            sys.exit("--threads: expected a whole number of at least 1")
+        n = args[i + 1]
+        del args[i : i + 2]
+    return n, args
+
+
+THREADS, SIZE_ARGS = threads_from_argv()
+PINNED = ("RAYON_NUM_THREADS", "OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
+for var in PINNED:
+    os.environ[var] = THREADS
 
 try:
     import numpy as np
@@ -36,6 +52,7 @@ def holdoff_bench(nodes, export_dir):
     out = subprocess.check_output(
         ["cargo", "run", "--release", "--quiet", "--", "bench", "--sizes", str(nodes), "--export", export_dir],
         text=True,
+        env=os.environ.copy(),
     )
     print(out, end="")
     rows = {}
@@ -57,8 +74,9 @@ def load(export_dir):
 
 
 def main():
-    sizes = [int(a) for a in sys.argv[1:]] or [250_000, 1_000_000]
+    sizes = [int(a) for a in SIZE_ARGS] or [250_000, 1_000_000]
     print("pyamg", pyamg.__version__)
+    print("threads, both sides: " + ", ".join(f"{v}={os.environ[v]}" for v in PINNED))
     for nodes in sizes:
         with tempfile.TemporaryDirectory() as d:
             rows = holdoff_bench(nodes, d)
@@ -78,12 +96,15 @@ def main():
         n = a.shape[0]
         pyamg_total = t2 - t0
         print(
-            f"pyamg RS+CG: rows {n}, iterations {len(residuals) - 1}, relative residual {rel:.2e}, "
+            f"pyamg RS+CG ({THREADS} thread(s)): rows {n}, iterations {len(residuals) - 1}, relative residual {rel:.2e}, "
             f"setup {t1 - t0:.3f} s, solve {t2 - t1:.3f} s, total {pyamg_total:.3f} s"
         )
         for scheme, r in rows.items():
             ratio = (r["total"] / n) / (pyamg_total / n)
-            print(f"  holdoff {scheme}: total {r['total']:.3f} s, time per unknown = {ratio:.2f} x pyamg's")
+            print(
+                f"  holdoff {scheme} ({THREADS} thread(s)): total {r['total']:.3f} s, "
+                f"time per unknown = {ratio:.2f} x pyamg's"
+            )
 
 
 if __name__ == "__main__":

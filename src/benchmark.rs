@@ -55,6 +55,12 @@ pub struct BenchRow {
     pub seconds_total: f64,
     pub unknowns_per_second: f64,
     pub bytes_per_unknown: f64,
+    /// Seconds of one V-cycle of the preconditioner (the fastest of a few).
+    pub seconds_per_cycle: f64,
+    /// Bytes a V-cycle moves per unknown (`Multigrid::bytes_per_cycle`, an estimate).
+    pub cycle_bytes_per_unknown: f64,
+    /// The V-cycle's achieved bandwidth, bytes per second (estimated bytes ÷ measured time).
+    pub cycle_bandwidth: f64,
 }
 
 #[derive(Debug, thiserror::Error)]
@@ -78,6 +84,7 @@ pub fn run(nodes: usize, scheme: Scheme, tolerance: f64) -> Result<BenchRow, Ben
     params.krylov.tolerance = tolerance;
     let mut solver = Solver::new(&mesh, params);
     let sol = solver.solve(&[model.terminal_voltage], None)?;
+    let (cycle_s, cycle_bytes) = solver.time_cycle(&[model.terminal_voltage], 5);
     let i = &sol.info;
     let total = i.seconds_assembly + i.seconds_multigrid_setup + i.seconds_solve;
     Ok(BenchRow {
@@ -93,7 +100,45 @@ pub fn run(nodes: usize, scheme: Scheme, tolerance: f64) -> Result<BenchRow, Ben
         seconds_total: total,
         unknowns_per_second: i.unknowns as f64 / total,
         bytes_per_unknown: i.memory_bytes as f64 / i.unknowns as f64,
+        seconds_per_cycle: cycle_s,
+        cycle_bytes_per_unknown: cycle_bytes / i.unknowns as f64,
+        cycle_bandwidth: cycle_bytes / cycle_s,
     })
+}
+
+/// The machine's memory bandwidth as a STREAM-style triad a = b + s·c (McCalpin's STREAM
+/// counts 24 bytes per element: two loads and one store) on arrays of `len` doubles, run on
+/// the current rayon pool; the fastest of `reps` passes, bytes per second.
+pub fn triad_bandwidth(len: usize, reps: usize) -> f64 {
+    use rayon::prelude::*;
+    let b = vec![1.0f64; len];
+    let c = vec![2.0f64; len];
+    let mut a = vec![0.0f64; len];
+    let mut best = f64::INFINITY;
+    const CHUNK: usize = 1 << 16;
+    for k in 0..reps.max(1) {
+        let s = 3.0 + k as f64;
+        let t = Instant::now();
+        a.par_chunks_mut(CHUNK)
+            .zip(b.par_chunks(CHUNK).zip(c.par_chunks(CHUNK)))
+            .for_each(|(a, (b, c))| {
+                for ((x, y), z) in a.iter_mut().zip(b).zip(c) {
+                    *x = y + s * z;
+                }
+            });
+        best = best.min(t.elapsed().as_secs_f64());
+        std::hint::black_box(&a);
+    }
+    24.0 * len as f64 / best
+}
+
+/// Peak resident memory of this process so far, bytes (`VmHWM` of /proc/self/status), when
+/// the system gives it.
+pub fn peak_rss_bytes() -> Option<u64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kb * 1024)
 }
 
 /// Writes the symmetric operator of the benchmark problem and its right-hand side as raw

@@ -23,6 +23,27 @@ fn multigrid_iterations_stay_flat_under_refinement() {
     }
 }
 
+/// A warm start of another length than the mesh is refused with both lengths named, never
+/// silently replaced by a zero start; a start that is already the solution needs no
+/// iteration (its residual is the converged one).
+#[test]
+fn a_warm_start_of_the_wrong_length_is_an_error() {
+    let model = benchmark::problem(5_000);
+    let mesh = Mesh::build_with(&model, false).expect("mesh");
+    let mut solver = Solver::new(&mesh, SolverParams::default());
+    let sol = solver.solve(&[1e6], None).expect("solve");
+    let short = &sol.phi[..sol.phi.len() - 1];
+    match solver.solve(&[1e6], Some(short)) {
+        Err(holdoff::solve::SolveError::GuessLength { expected, got }) => {
+            assert_eq!(expected, sol.phi.len());
+            assert_eq!(got, sol.phi.len() - 1);
+        }
+        other => panic!("expected a length error, got {:?}", other.map(|s| s.info)),
+    }
+    let again = solver.solve(&[1e6], Some(&sol.phi)).expect("warm solve");
+    assert_eq!(again.info.iterations, 0);
+}
+
 /// The reported residual is the true one: ‖b − Aφ‖/‖b‖ recomputed from the operator.
 #[test]
 fn reported_residual_is_the_true_residual() {

@@ -69,7 +69,11 @@ pub enum Command {
 }
 
 pub fn run() -> anyhow::Result<ExitCode> {
-    let cli = Cli::parse();
+    dispatch(Cli::parse())
+}
+
+/// Runs one parsed command line.
+pub(crate) fn dispatch(cli: Cli) -> anyhow::Result<ExitCode> {
     match cli.command {
         Command::Check(a) => check::run_check(&a),
         Command::Demo(a) => check::run_demo(&a),

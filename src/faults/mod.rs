@@ -62,17 +62,27 @@ pub enum FaultError {
 /// the basis do not depend on the machine's thread count).
 const BASIS_STREAMS: usize = 2;
 
-/// Nodes summed together in one block of a superposition, so that the block of the result
-/// stays in cache while every unit solution streams through it.
-const SUM_BLOCK: usize = 4096;
+/// Free nodes summed together in one block of a superposition, so that the blocks of the
+/// results stay in cache while every unit solution streams through them once.
+const SUM_BLOCK: usize = 2048;
 
 /// The unit-potential solutions of the electrodes, with their capacitance matrix.
+///
+/// Each unit solution is held on the free nodes only (a fixed node's potential is its
+/// conductor's) and in single precision: its rounding, 6e-8 of the unit potential, lies far
+/// below the solver's own error and the discretisation error (tests/faults.rs
+/// `basis_field_equals_a_direct_solve` measures the whole difference against direct solves).
+/// The sums are formed in double precision.
 pub struct Basis {
     pub electrodes: Vec<Electrode>,
     /// Electrode of each conductor (None for earthed conductors).
     pub conductor_electrode: Vec<Option<usize>>,
-    /// Unit solution of each electrode on the mesh nodes.
-    phi: Vec<Vec<f64>>,
+    /// Mesh nodes that are free, in order; the unit solutions are stored on these.
+    free: Vec<u32>,
+    /// Fixed id of every mesh node (`mesh::FREE` for a free node).
+    fixed: Vec<crate::mesh::FixedId>,
+    /// Unit solution of each electrode on the free nodes.
+    phi: Vec<Vec<f32>>,
     pub capacitance: CapacitanceMatrix,
     /// Figures of the last unit solve (for the analyses formed from the basis).
     pub info: SolveInfo,
@@ -93,8 +103,13 @@ impl Basis {
     ) -> Result<Basis, FaultError> {
         let groups = electrodes(model);
         let n = groups.len();
-        // The unit solutions, plus one field per worker thread while the scenarios run.
-        let need = ((n + rayon::current_num_threads()) * mesh.nodes() * 8) as f64;
+        let free: Vec<u32> = (0..mesh.nodes())
+            .filter(|&k| mesh.fixed[k] == crate::mesh::FREE)
+            .map(|k| k as u32)
+            .collect();
+        // The unit solutions (single precision, free nodes), plus one field per worker thread
+        // while the scenarios run.
+        let need = (n * free.len() * 4 + rayon::current_num_threads() * mesh.nodes() * 8) as f64;
         if need > budget.bytes() {
             return Err(FaultError::TooLarge {
                 electrodes: n,
@@ -109,9 +124,11 @@ impl Basis {
                 conductor_electrode[k] = Some(e);
             }
         }
-        // The unit solves run in BASIS_STREAMS contiguous runs side by side, each with its own
-        // operator and hierarchy and each solve warm-started from the previous one of its run.
-        // The split does not depend on the thread count, so the basis is the same everywhere.
+        // The unit solves run in BASIS_STREAMS contiguous runs side by side, all on one
+        // operator and one multigrid hierarchy, set up once (each run has its own copy of the
+        // hierarchy's work vectors), and each solve warm-started from the previous one of its
+        // run. The split does not depend on the thread count, so the basis is the same
+        // everywhere.
         let per = n.div_ceil(BASIS_STREAMS).max(1);
         let runs: Vec<Vec<(usize, &Electrode)>> = groups
             .iter()
@@ -120,27 +137,35 @@ impl Basis {
             .chunks(per)
             .map(|c| c.to_vec())
             .collect();
-        type Unit = (usize, Vec<f64>, Vec<f64>, SolveInfo);
+        let setup = Solver::new(mesh, *params);
+        let free_ref = &free;
+        type Unit = (usize, Vec<f32>, Vec<f64>, SolveInfo);
         let solved: Vec<Vec<Unit>> = runs
             .par_iter()
             .map(|run| -> Result<Vec<Unit>, FaultError> {
-                let mut solver = Solver::new(mesh, *params);
+                let mut solver = setup.clone();
                 let mut out: Vec<Unit> = Vec::with_capacity(run.len());
+                let mut last: Option<Vec<f64>> = None;
                 for &(j, g) in run {
                     let mut pots = vec![0.0; model.conductors.len()];
                     for &k in &g.conductors {
                         pots[k] = 1.0;
                     }
-                    let guess = out.last().map(|u| u.1.as_slice());
-                    let sol = solver.solve(&pots, guess)?;
+                    let sol = solver.solve(&pots, last.as_deref())?;
                     let q = conductor_charges(mesh, &sol.phi, &pots);
-                    out.push((j, sol.phi, q, sol.info));
+                    let unit: Vec<f32> = free_ref
+                        .iter()
+                        .map(|&k| sol.phi[k as usize] as f32)
+                        .collect();
+                    out.push((j, unit, q, sol.info));
+                    last = Some(sol.phi);
                 }
                 Ok(out)
             })
             .collect::<Result<_, _>>()?;
+        drop(setup);
         let mut c_f = vec![vec![0.0; n]; n];
-        let mut phi: Vec<Vec<f64>> = Vec::with_capacity(n);
+        let mut phi: Vec<Vec<f32>> = Vec::with_capacity(n);
         let mut iterations = 0;
         let mut info = None;
         for (j, unit_phi, q, unit_info) in solved.into_iter().flatten() {
@@ -166,6 +191,8 @@ impl Basis {
         Ok(Basis {
             electrodes: groups.clone(),
             conductor_electrode,
+            free,
+            fixed: mesh.fixed.clone(),
             phi,
             capacitance: CapacitanceMatrix {
                 electrodes: groups,
@@ -201,49 +228,102 @@ impl Basis {
 
     /// The field of the given electrode potentials: φ = Σ_e V_e φ_e.
     pub fn field(&self, electrode_v: &[f64]) -> Vec<f64> {
-        let n = self.phi.first().map_or(0, |p| p.len());
-        let mut out = vec![0.0; n];
-        let terms: Vec<(usize, f64)> = electrode_v
-            .iter()
-            .enumerate()
-            .filter(|(_, w)| **w != 0.0)
-            .map(|(e, w)| (e, *w))
-            .collect();
-        self.accumulate(&mut out, &terms);
-        out
+        let zero_v = vec![0.0; self.electrodes.len()];
+        let zero_phi = vec![0.0; self.fixed.len()];
+        self.field_from(&zero_phi, &zero_v, electrode_v)
     }
 
     /// The field of `electrode_v` from a known one, `base_phi` at `base_v`: φ = φ_base +
     /// Σ_e (V_e − V_base,e) φ_e over the electrodes whose potential differs, which for a
     /// fault in one column of several leaves the others out of the sum.
     pub fn field_from(&self, base_phi: &[f64], base_v: &[f64], electrode_v: &[f64]) -> Vec<f64> {
-        let mut out = base_phi.to_vec();
-        let terms: Vec<(usize, f64)> = electrode_v
-            .iter()
-            .zip(base_v)
-            .enumerate()
-            .filter(|(_, (v, b))| v != b)
-            .map(|(e, (v, b))| (e, v - b))
-            .collect();
-        self.accumulate(&mut out, &terms);
-        out
+        self.fields_from(
+            base_phi,
+            base_v,
+            std::slice::from_ref(&electrode_v.to_vec()),
+        )
+        .pop()
+        .unwrap_or_default()
     }
 
-    /// out += Σ w φ_e over `terms` = (e, w), block by block.
-    fn accumulate(&self, out: &mut [f64], terms: &[(usize, f64)]) {
-        for (k, block) in out.chunks_mut(SUM_BLOCK).enumerate() {
-            let start = k * SUM_BLOCK;
-            let len = block.len();
-            for &(e, w) in terms {
-                let Some(p) = self.phi.get(e) else {
-                    continue;
-                };
-                block
-                    .iter_mut()
-                    .zip(&p[start..start + len])
-                    .for_each(|(o, x)| *o += w * x);
+    /// The fields of many sets of electrode potentials from one known field, as
+    /// [`Basis::field_from`] for each: every unit solution streams through memory once for the
+    /// whole set (block by block of free nodes, the blocks in parallel), not once per field.
+    pub fn fields_from(
+        &self,
+        base_phi: &[f64],
+        base_v: &[f64],
+        sets: &[Vec<f64>],
+    ) -> Vec<Vec<f64>> {
+        let ne = self.phi.len();
+        // Weights per set and electrode, and the electrodes any set moves.
+        let weights: Vec<Vec<f64>> = sets
+            .iter()
+            .map(|ev| {
+                (0..ne)
+                    .map(|e| {
+                        let v = ev.get(e).copied().unwrap_or(0.0);
+                        let b = base_v.get(e).copied().unwrap_or(0.0);
+                        if v != b { v - b } else { 0.0 }
+                    })
+                    .collect()
+            })
+            .collect();
+        let moved: Vec<usize> = (0..ne)
+            .filter(|&e| weights.iter().any(|w| w[e] != 0.0))
+            .collect();
+        let m = sets.len();
+        let nf = self.free.len();
+        // Sums on the free nodes, laid out block by block: block b holds the m partial sums
+        // of its free nodes one after another.
+        let mut acc = vec![0.0f64; nf * m];
+        let kernel = |(b, chunk): (usize, &mut [f64])| {
+            let start = b * SUM_BLOCK;
+            let len = SUM_BLOCK.min(nf - start);
+            for &e in &moved {
+                let p = &self.phi[e][start..start + len];
+                for (s, w) in weights.iter().enumerate() {
+                    let w = w[e];
+                    if w == 0.0 {
+                        continue;
+                    }
+                    chunk[s * len..(s + 1) * len]
+                        .iter_mut()
+                        .zip(p)
+                        .for_each(|(o, &x)| *o += w * f64::from(x));
+                }
             }
-        }
+        };
+        acc.par_chunks_mut(SUM_BLOCK * m.max(1))
+            .enumerate()
+            .for_each(kernel);
+        let fixed_shift = |k: usize, w: &[f64]| -> f64 {
+            let id = self.fixed[k];
+            if id == crate::mesh::FREE || id == crate::mesh::TANK {
+                return 0.0;
+            }
+            self.conductor_electrode
+                .get(id as usize)
+                .copied()
+                .flatten()
+                .map_or(0.0, |e| w[e])
+        };
+        weights
+            .par_iter()
+            .enumerate()
+            .map(|(s, w)| {
+                let mut out = base_phi.to_vec();
+                for (k, o) in out.iter_mut().enumerate() {
+                    *o += fixed_shift(k, w);
+                }
+                for (f, &k) in self.free.iter().enumerate() {
+                    let (b, i) = (f / SUM_BLOCK, f % SUM_BLOCK);
+                    let len = SUM_BLOCK.min(nf - b * SUM_BLOCK);
+                    out[k as usize] += acc[b * SUM_BLOCK * m + s * len + i];
+                }
+                out
+            })
+            .collect()
     }
 
     /// Electrostatic energy of the electrodes at the given potentials, ½ VᵀCV, J.
@@ -253,7 +333,7 @@ impl Basis {
 
     /// Bytes held by the unit solutions.
     pub fn memory_bytes(&self) -> usize {
-        self.phi.iter().map(|p| p.len() * 8).sum()
+        self.phi.iter().map(|p| p.len() * 4).sum::<usize>() + self.free.len() * 4
     }
 }
 
@@ -697,20 +777,17 @@ fn resistor_check(
 /// Worst margin, its item and its criterion.
 type Worst = (Option<f64>, Option<String>, Option<String>);
 
-/// The field checks of one set of conductor potentials, formed from the basis.
-/// `base`, when given, is a known field and its electrode potentials to start the sum from.
+/// The field checks of one set of conductor potentials, their field formed from the basis
+/// unless `phi` gives it already (from [`Basis::fields_from`]).
 fn field_margins(
     model: &Model,
     basis: &Basis,
     work: &mut Analysis,
     potentials: Vec<f64>,
-    base: Option<(&[f64], &[f64])>,
+    phi: Option<Vec<f64>>,
 ) -> Result<Worst, FaultError> {
     let ev = basis.electrode_potentials(&potentials);
-    let phi = match base {
-        Some((phi0, v0)) => basis.field_from(phi0, v0, &ev),
-        None => basis.field(&ev),
-    };
+    let phi = phi.unwrap_or_else(|| basis.field(&ev));
     {
         let fm = FieldMap::new(&work.mesh, model, &phi, &potentials);
         let samples = fm.surface_samples();

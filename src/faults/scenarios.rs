@@ -147,6 +147,10 @@ pub(super) fn cases(
     Ok(Cases { cases, fixed })
 }
 
+/// Scenario fields formed together from the basis (a few per worker thread, so that their
+/// sums stay in cache and the margins of one block keep every thread busy).
+const FIELD_BLOCK: usize = 16;
+
 /// A work analysis on `mesh` for one worker thread, its fields formed from the basis.
 pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
     Analysis {
@@ -203,26 +207,40 @@ pub(super) fn evaluate(
             })
         })
         .collect();
-    // The nominal field (case 0), from which every scenario's sum starts.
+    // The nominal field (case 0), from which every scenario's sum starts; the scenarios' fields
+    // are then formed a block at a time, each unit solution read once per block.
     let nominal_ev = basis.electrode_potentials(&prepared[0].2);
     let nominal_phi = basis.field(&nominal_ev);
-    let worst: Vec<Worst> = distinct
-        .par_iter()
-        .map_init(
-            || work_analysis(mesh, basis),
-            |work, &ci| -> Result<Worst, FaultError> {
-                let w = field_margins(
-                    model,
-                    basis,
-                    work,
-                    prepared[ci].2.clone(),
-                    Some((&nominal_phi, &nominal_ev)),
-                )?;
+    // Work analyses for the worker threads, reused across the blocks.
+    let pool: Vec<std::sync::Mutex<Analysis>> = (0..rayon::current_num_threads())
+        .map(|_| std::sync::Mutex::new(work_analysis(mesh, basis)))
+        .collect();
+    let mut worst: Vec<Worst> = Vec::with_capacity(distinct.len());
+    for block in distinct.chunks(FIELD_BLOCK) {
+        let sets: Vec<Vec<f64>> = block
+            .iter()
+            .map(|&ci| basis.electrode_potentials(&prepared[ci].2))
+            .collect();
+        let fields = basis.fields_from(&nominal_phi, &nominal_ev, &sets);
+        let done: Vec<Worst> = block
+            .par_iter()
+            .zip(fields)
+            .map(|(&ci, phi)| -> Result<Worst, FaultError> {
+                // A free work analysis of the pool (a thread waiting inside a parallel margin
+                // check may start another scenario, so a thread can need two).
+                let mut held = pool.iter().find_map(|m| m.try_lock().ok());
+                let mut fresh = None;
+                let work = match held.as_deref_mut() {
+                    Some(w) => w,
+                    None => fresh.insert(work_analysis(mesh, basis)),
+                };
+                let w = field_margins(model, basis, work, prepared[ci].2.clone(), Some(phi))?;
                 tick();
                 Ok(w)
-            },
-        )
-        .collect::<Result<_, _>>()?;
+            })
+            .collect::<Result<_, _>>()?;
+        worst.extend(done);
+    }
     let shared_evaluations = cases.len() - distinct.len();
     // The repeats count as done.
     for _ in distinct.len()..cases.len() {

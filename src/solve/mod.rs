@@ -54,6 +54,10 @@ pub enum SolveError {
         relative_residual: f64,
         tolerance: f64,
     },
+    #[error(
+        "the start vector of the field solve has {got} values but the mesh has {expected} nodes; a warm start must come from a solution on the same mesh"
+    )]
+    GuessLength { expected: usize, got: usize },
 }
 
 /// A solved potential on a mesh.
@@ -64,7 +68,10 @@ pub struct Solution {
     pub info: SolveInfo,
 }
 
-/// The operator and preconditioner of one mesh, reusable for many right-hand sides.
+/// The operator and preconditioner of one mesh, reusable for many right-hand sides. A clone
+/// shares nothing but costs no new setup: it copies the hierarchy with its own work vectors,
+/// so that right-hand sides can be solved side by side.
+#[derive(Clone)]
 pub struct Solver {
     pub op: Operator,
     mg: Multigrid,
@@ -91,8 +98,23 @@ impl Solver {
         }
     }
 
+    /// Seconds per V-cycle of the preconditioner (the fastest of `reps` cycles on the
+    /// right-hand side of `potentials`) and the bytes a cycle moves
+    /// ([`multigrid::Multigrid::bytes_per_cycle`]), for the bandwidth figure of the bench.
+    pub fn time_cycle(&mut self, potentials: &[f64], reps: usize) -> (f64, f64) {
+        let b = self.op.rhs(potentials);
+        let mut z = vec![0.0; b.len()];
+        let mut best = f64::INFINITY;
+        for _ in 0..reps.max(1) {
+            let t = Instant::now();
+            self.mg.apply(&b, &mut z);
+            best = best.min(t.elapsed().as_secs_f64());
+        }
+        (best, self.mg.bytes_per_cycle())
+    }
+
     /// Solves for the given conductor potentials (volts, by conductor index), starting from
-    /// `guess` when given.
+    /// `guess` when given; a guess of another length than the mesh's node count is an error.
     pub fn solve(
         &mut self,
         potentials: &[f64],
@@ -102,7 +124,13 @@ impl Solver {
         let b = self.op.rhs(potentials);
         let mut x = match guess {
             Some(g) if g.len() == b.len() => g.to_vec(),
-            _ => vec![0.0; b.len()],
+            Some(g) => {
+                return Err(SolveError::GuessLength {
+                    expected: b.len(),
+                    got: g.len(),
+                });
+            }
+            None => vec![0.0; b.len()],
         };
         // Fixed nodes hold their potential exactly.
         for (k, &f) in self.op.fixed.iter().enumerate() {
