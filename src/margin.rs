@@ -45,7 +45,7 @@ use crate::breakdown::ionisation::EffectiveIonisation;
 use crate::breakdown::vacuum::{self, CathodeClass, TotalVoltageFit};
 use crate::breakdown::{
     BreakdownError, Criterion, Derating, GasOptions, GasState, Limit, LimitKind, Mark, Validity,
-    streamer, uniform,
+    paschen, streamer, uniform,
 };
 use crate::field::{FieldMap, InsulatorSample, Medium, SurfaceSample};
 use crate::fieldline::{self, FieldLine, LineEnd, TraceParams};
@@ -623,6 +623,7 @@ fn gas_rows(
     let Some((gas, state)) = &ctx.gas else {
         return Ok(());
     };
+    let first_row = rows.len();
     let model = ctx.model;
     let name = name_of(model, hot.conductor);
     let derating = gas_derating(ctx, state)?;
@@ -895,7 +896,52 @@ fn gas_rows(
         }
         rows.push(peek_row);
     }
+    if reached && line.voltage_v > 0.0 {
+        below_paschen_minimum(&mut rows[first_row..], line.voltage_v, state.kind);
+    }
     Ok(())
+}
+
+/// The lowest measured minimum sparking potential of a gas (docs/references.md §1): for an
+/// SF6–N2 mixture the lower of its components' (N2).
+fn paschen_floor(kind: GasKind) -> Option<&'static paschen::MeasuredMinimum> {
+    paschen::measured_minimum(match kind {
+        GasKind::Air => "air",
+        GasKind::N2 | GasKind::Sf6N2 { .. } => "N2",
+        GasKind::Co2 => "CO2",
+        GasKind::Sf6 => "SF6",
+    })
+}
+
+/// Marks outside validity every gas row whose ideal limit puts the breakdown of the field-line
+/// gap (voltage `line_voltage_v` at the design voltage) below the gas's minimum sparking
+/// potential: no gas gap breaks down below it, so a criterion that says so is outside the
+/// density and gap range it holds for (e.g. the SF6 critical field at 1 mbar).
+fn below_paschen_minimum(rows: &mut [MarginRow], line_voltage_v: f64, kind: GasKind) {
+    let Some(floor) = paschen_floor(kind) else {
+        return;
+    };
+    for r in rows {
+        let Some(m) = r.margin_ideal else {
+            continue;
+        };
+        let at_limit = m * line_voltage_v;
+        if at_limit < floor.v_min_v {
+            r.validity = r.validity.clone().and(Validity::OutsideValidity {
+                reason: format!(
+                    "the criterion puts breakdown of the field-line gap at {at_limit:.0} V, below \
+                     the minimum sparking potential of {} ({:.0} V, {}): outside the density \
+                     and gap range of the criterion",
+                    floor.gas, floor.v_min_v, floor.source
+                ),
+            });
+            r.limit = None;
+            r.limit_ideal = None;
+            r.margin = None;
+            r.margin_ideal = None;
+            r.status = Status::OutsideValidity;
+        }
+    }
 }
 
 /// True when the field line ends on an electrode (a conductor or the tank).

@@ -14,7 +14,8 @@
 //!
 //! Peek's law is an empirical onset fit for air; for other or electronegative gases the
 //! streamer integral ([`super::streamer`]) applies, and [`onset_field_in_gas`] flags them.
-//! docs/references.md gives no radius or δ range for the fits; none is enforced.
+//! Validity: Peek's relative density δ within [`PEEK_DELTA_RANGE`] (docs/references.md §15);
+//! no radius range is enforced (none is given for the fits).
 
 use serde::Serialize;
 
@@ -23,6 +24,13 @@ use super::error::BreakdownError;
 use super::gas::{GasKind, GasState, positive};
 use super::limit::{Criterion, Limit, LimitKind, Mark, Validity};
 use crate::model::Gas;
+
+/// Relative air density range of Peek's fits: from about 0.5 (Peek's sphere-gap density tests
+/// covered sea level to 18,000 ft, Peek, "The sphere gap as a means of measuring high voltage",
+/// AIEE 1914, abstract \[C\]) to 1.1 (sea-level data plus 10 %, holdoff's choice, common practice,
+/// no source). Outside it the onset is "outside validity": at a low density the discharge is of
+/// the Townsend type, and in pressurised air the streamer integral applies.
+pub const PEEK_DELTA_RANGE: (f64, f64) = (0.5, 1.1);
 
 /// Surface factor of a polished conductor.
 pub const SURFACE_POLISHED: f64 = 1.0;
@@ -127,6 +135,17 @@ pub fn onset_field(
     positive("relative air density delta", delta)?;
     let m = check_surface_factor(m)?;
     let c = geometry.constants();
+    let (lo, hi) = PEEK_DELTA_RANGE;
+    let validity = if (lo..=hi).contains(&delta) {
+        Validity::Valid
+    } else {
+        Validity::OutsideValidity {
+            reason: format!(
+                "Peek's relative air density delta = {delta:.4} is outside the range {lo}-{hi} \
+                 of his data; the streamer integral applies"
+            ),
+        }
+    };
     Ok(Limit::new(
         Criterion::PeekCorona,
         format!(
@@ -137,7 +156,7 @@ pub fn onset_field(
         c.mark,
         LimitKind::Field,
         field_v_per_m(geometry, radius_m, delta, m),
-        Validity::Valid,
+        validity,
     ))
 }
 
@@ -152,12 +171,12 @@ pub fn onset_field_in_gas(
     let delta = peek_delta(state.pressure_pa, state.temperature_k)?;
     let mut limit = onset_field(geometry, radius_m, delta, m)?;
     if state.kind != GasKind::Air {
-        limit.validity = Validity::OutsideValidity {
+        limit.validity = limit.validity.and(Validity::OutsideValidity {
             reason: format!(
                 "Peek's law is an air fit; {} needs the streamer integral",
                 state.kind.label()
             ),
-        };
+        });
     }
     Ok(limit)
 }
@@ -227,6 +246,28 @@ mod tests {
         assert!(onset_field(PeekGeometry::Sphere, 0.01, 1.0, 1.5).is_err());
         assert!(coaxial_onset_voltage(0.02, 0.01, 1.0, 1.0).is_err());
         assert!(parallel_wire_onset_voltage(0.01, 0.015, 1.0, 1.0).is_err());
+    }
+
+    #[test]
+    fn density_outside_peeks_range_is_flagged() {
+        assert!(
+            !onset_field(PeekGeometry::Sphere, 0.01, 0.001, 1.0)
+                .unwrap()
+                .validity
+                .is_valid()
+        );
+        assert!(
+            !onset_field(PeekGeometry::Coaxial, 0.01, 2.0, 1.0)
+                .unwrap()
+                .validity
+                .is_valid()
+        );
+        assert!(
+            onset_field(PeekGeometry::Coaxial, 0.01, 1.0, 1.0)
+                .unwrap()
+                .validity
+                .is_valid()
+        );
     }
 
     #[test]
