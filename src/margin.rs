@@ -1074,6 +1074,33 @@ pub fn holdoff(rows: &[MarginRow], terminal_voltage_v: f64, ideal: bool) -> Opti
         })
 }
 
+/// Notes on the gas state the criteria use: the mixing rule of a mixture without its own, and
+/// the real-gas compressibility when it is applied.
+fn gas_state_notes(ctx: &Ctx) -> Vec<String> {
+    let Some((gas, state)) = &ctx.gas else {
+        return Vec::new();
+    };
+    let mut notes = Vec::new();
+    if let Some(rule) = crate::breakdown::gas::mixture_rule(gas) {
+        notes.push(format!(
+            "gas {}: {rule}; the rows name {}",
+            gas.species,
+            state.kind.label()
+        ));
+    }
+    if state.compressibility != 1.0 {
+        notes.push(format!(
+            "gas {}: real gas, compressibility Z = {:.3} at {:.3} bar (ideal gas off by more \
+             than 1 %); the criteria use the density-reduced pressure {:.3} bar at 20 degC",
+            gas.species,
+            state.compressibility,
+            state.pressure_pa / 1e5,
+            state.reduced_pressure_pa / 1e5
+        ));
+    }
+    notes
+}
+
 /// Evaluates every check of the model on its fine analysis.
 pub fn evaluate(
     model: &Model,
@@ -1103,6 +1130,7 @@ pub fn evaluate(
                 .to_string(),
         );
     } else {
+        notes.extend(gas_state_notes(&ctx));
         for hot in &gas_hot {
             gas_rows(&ctx, &fm, hot, &mut lines, &mut rows)?;
         }
