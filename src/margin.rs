@@ -34,6 +34,7 @@
 //! number and the status "outside validity".
 
 use serde::Serialize;
+use std::fmt::Write;
 use thiserror::Error;
 
 use crate::analysis::Analysis;
@@ -1074,6 +1075,43 @@ pub fn holdoff(rows: &[MarginRow], terminal_voltage_v: f64, ideal: bool) -> Opti
         })
 }
 
+/// Where the linear scaling from the design voltage `v_design` to the hold-off `holdoff_v`
+/// stays inside the criteria's validity and where it leaves it (both magnitudes, V).
+fn scaling_note(rows: &[MarginRow], holdoff_v: f64, v_design: f64) -> String {
+    let f = holdoff_v / v_design;
+    let mut text = format!(
+        "scaling to {f:.2} x the design voltage ({}): the field limits of the gas, corona and \
+         insulator rows do not depend on the terminal voltage (their validity in gap, pd, \
+         density and uniformity holds at any voltage), and the streamer integral is evaluated \
+         at its own inception voltage",
+        crate::report::kv_three_significant(holdoff_v)
+    );
+    if rows.iter().any(|r| r.criterion == Criterion::Cranberg) {
+        let (lo, hi) = crate::breakdown::vacuum::CRANBERG_VOLTAGE_RANGE_V;
+        let _ = write!(
+            text,
+            "; Cranberg's vacuum rows rest on gap voltages of {} to {} and were checked at \
+             the design gap voltages: scaled {f:.2} x, a gap above {} at the design voltage \
+             leaves that range",
+            crate::report::kv_three_significant(lo),
+            crate::report::kv_three_significant(hi),
+            crate::report::kv_three_significant(hi / f)
+        );
+    }
+    if f > 1.0 {
+        let _ = write!(
+            text,
+            "; outside the field, the scaling leaves what was checked: the grading resistors, \
+             protective gaps, multiplier and stack were checked at the design voltage only, and \
+             at the hold-off they see {f:.2} x their voltage ({:.2} x the resistor dissipation) \
+             and the stored energy is {:.2} x as large",
+            f * f,
+            f * f
+        );
+    }
+    text
+}
+
 /// Notes on the gas state the criteria use: the mixing rule of a mixture without its own, and
 /// the real-gas compressibility when it is applied.
 fn gas_state_notes(ctx: &Ctx) -> Vec<String> {
@@ -1215,6 +1253,9 @@ pub fn evaluate(
         ));
         (None, None)
     };
+    if let Some(h) = &h {
+        holdoff_notes.push(scaling_note(&rows, h.voltage_v, v.abs()));
+    }
     if h.is_none() && v != 0.0 && singular.is_empty() {
         holdoff_notes.push("no row with a number enters the hold-off voltage".to_string());
     }

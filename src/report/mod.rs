@@ -136,6 +136,23 @@ pub struct Report {
 }
 
 /// SHA-256 of the design text, hex.
+/// A voltage in kV to three significant figures ("1670 kV", "851 kV", "95.3 kV"): the precision
+/// the breakdown criteria carry (their fits are good to a few per cent), for hold-off voltages.
+pub fn kv_three_significant(volts: f64) -> String {
+    let kv = volts / 1e3;
+    if !kv.is_finite() || kv == 0.0 {
+        return format!("{kv} kV");
+    }
+    let magnitude = kv.abs().log10().floor() as i32;
+    let decimals = 2 - magnitude;
+    if decimals >= 0 {
+        format!("{kv:.*} kV", decimals as usize)
+    } else {
+        let step = 10f64.powi(-decimals);
+        format!("{:.0} kV", (kv / step).round() * step)
+    }
+}
+
 pub fn sha256_hex(text: &str) -> String {
     let digest = Sha256::digest(text.as_bytes());
     digest.iter().map(|b| format!("{b:02x}")).collect()
@@ -311,4 +328,24 @@ pub fn write_atomic(path: &std::path::Path, bytes: &[u8]) -> std::io::Result<()>
         let _ = std::fs::remove_file(&tmp);
     }
     result
+}
+
+#[cfg(test)]
+mod tests {
+    use super::kv_three_significant;
+
+    #[test]
+    fn hold_off_voltages_print_to_three_significant_figures() {
+        assert_eq!(kv_three_significant(1673.88e3), "1670 kV");
+        assert_eq!(kv_three_significant(851.2e3), "851 kV");
+        assert_eq!(kv_three_significant(95.34e3), "95.3 kV");
+        assert_eq!(kv_three_significant(4.2e6), "4200 kV");
+        assert_eq!(kv_three_significant(-433.4e3), "-433 kV");
+        // Read back, the printed value is within half a unit of the third figure (< 0.5 %).
+        for v in [1.234e3, 12.34e3, 987.6e3, 1673.88e3, 2.4913e6] {
+            let text = kv_three_significant(v);
+            let back: f64 = text.trim_end_matches(" kV").parse().unwrap();
+            assert!(((back * 1e3 - v) / v).abs() < 0.005, "{v} -> {text}");
+        }
+    }
 }
