@@ -1084,7 +1084,7 @@ fn scaling_note(rows: &[MarginRow], holdoff_v: f64, v_design: f64) -> String {
          insulator rows do not depend on the terminal voltage (their validity in gap, pd, \
          density and uniformity holds at any voltage), and the streamer integral is evaluated \
          at its own inception voltage",
-        crate::report::kv_three_significant(holdoff_v)
+        crate::units::kv_three_significant(holdoff_v)
     );
     if rows.iter().any(|r| r.criterion == Criterion::Cranberg) {
         let (lo, hi) = crate::breakdown::vacuum::CRANBERG_VOLTAGE_RANGE_V;
@@ -1093,9 +1093,9 @@ fn scaling_note(rows: &[MarginRow], holdoff_v: f64, v_design: f64) -> String {
             "; Cranberg's vacuum rows rest on gap voltages of {} to {} and were checked at \
              the design gap voltages: scaled {f:.2} x, a gap above {} at the design voltage \
              leaves that range",
-            crate::report::kv_three_significant(lo),
-            crate::report::kv_three_significant(hi),
-            crate::report::kv_three_significant(hi / f)
+            crate::units::kv_three_significant(lo),
+            crate::units::kv_three_significant(hi),
+            crate::units::kv_three_significant(hi / f)
         );
     }
     if f > 1.0 {

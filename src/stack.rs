@@ -206,7 +206,7 @@ pub fn reconcile(terminal_v: f64, stack: &StackAnalysis) -> TerminalReconciliati
         f64::INFINITY
     };
     let within_tolerance = relative.abs() <= TERMINAL_MISMATCH_TOLERANCE;
-    let kv = crate::report::kv_three_significant;
+    let kv = crate::units::kv_three_significant;
     let head = format!(
         "The field is solved at terminal.voltage = {}, which governs every margin; the \
          multiplier gives {} at no load and {} at load ({:+.1} % at no load, tolerance {:.0} %)",
@@ -259,7 +259,8 @@ pub struct StackSpark {
     pub no_load_v: f64,
     /// ½·C_s·V², J.
     pub deliverable_j: f64,
-    /// Every stage capacitor at no load (closed form), J: the upper bound.
+    /// Every stage capacitor at no load (closed form), J: the upper bound (filled in by the
+    /// report, which holds the closed form of the stored energy).
     pub stored_no_load_j: Option<f64>,
     /// Discharge time constant through the divider and dump resistor, s, when modelled.
     pub discharge_tau_s: Option<f64>,
@@ -267,7 +268,7 @@ pub struct StackSpark {
 }
 
 /// The stack's share of a terminal spark.
-pub fn stack_spark(model: &Model, stack: &StackAnalysis) -> StackSpark {
+pub fn stack_spark(stack: &StackAnalysis) -> StackSpark {
     let inv: f64 = stack
         .params
         .capacitors
@@ -281,10 +282,7 @@ pub fn stack_spark(model: &Model, stack: &StackAnalysis) -> StackSpark {
         series_capacitance_f: c_s,
         no_load_v: v,
         deliverable_j: 0.5 * c_s * v * v,
-        stored_no_load_j: model
-            .multiplier
-            .as_ref()
-            .and_then(crate::report::cautions::multiplier_stored_energy_j),
+        stored_no_load_j: None,
         discharge_tau_s: stack.result.discharge.as_ref().map(|d| d.tau_s),
         convention: "at no load (the multiplier's highest output), the same in every command",
     }

@@ -56,7 +56,13 @@ impl FaultSection {
                 replay.terminal_voltage_v,
                 stored,
             )),
-            stack_spark: stack.map(|st| crate::stack::stack_spark(model, st)),
+            stack_spark: stack.map(|st| crate::stack::StackSpark {
+                stored_no_load_j: model
+                    .multiplier
+                    .as_ref()
+                    .and_then(crate::report::cautions::multiplier_stored_energy_j),
+                ..crate::stack::stack_spark(st)
+            }),
             replay,
             seconds,
         }

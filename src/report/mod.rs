@@ -138,22 +138,7 @@ pub struct Report {
 }
 
 /// SHA-256 of the design text, hex.
-/// A voltage in kV to three significant figures ("1670 kV", "851 kV", "95.3 kV"): the precision
-/// the breakdown criteria carry (their fits are good to a few per cent), for hold-off voltages.
-pub fn kv_three_significant(volts: f64) -> String {
-    let kv = volts / 1e3;
-    if !kv.is_finite() || kv == 0.0 {
-        return format!("{kv} kV");
-    }
-    let magnitude = kv.abs().log10().floor() as i32;
-    let decimals = 2 - magnitude;
-    if decimals >= 0 {
-        format!("{kv:.*} kV", decimals as usize)
-    } else {
-        let step = 10f64.powi(-decimals);
-        format!("{:.0} kV", (kv / step).round() * step)
-    }
-}
+pub use crate::units::kv_three_significant;
 
 pub fn sha256_hex(text: &str) -> String {
     let digest = Sha256::digest(text.as_bytes());
