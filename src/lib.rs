@@ -64,4 +64,5 @@ pub mod solve;
 pub mod stack;
 pub mod study;
 pub mod sweep;
+pub mod thermo;
 pub mod units;

@@ -34,6 +34,7 @@
 //! number and the status "outside validity".
 
 use serde::Serialize;
+use std::fmt::Write;
 use thiserror::Error;
 
 use crate::analysis::Analysis;
@@ -66,7 +67,7 @@ pub const DEFAULT_CORONA_SURFACE_FACTOR: f64 = corona::SURFACE_POLISHED;
 /// field line governs, and Peek's onset, a formula for an isolated conductor far from others
 /// (docs/references.md §5), is shown as a cross-check. Farther (or with no opposite electrode) the
 /// conductor is **isolated** and Peek's onset enters beside the streamer integral. 2 radii, i.e.
-/// a gap up to the diameter: holdoff's choice, common practice, no source (docs/references.md §15;
+/// a gap up to the diameter: holdoff's choice, common practice, no source (docs/references.md §16;
 /// sphere gaps with d/D ≤ 0.5 agree with the calibration tables by the streamer criterion).
 pub const GAP_TO_RADIUS: f64 = 2.0;
 
@@ -1326,6 +1327,70 @@ pub fn holdoff(rows: &[MarginRow], terminal_voltage_v: f64, ideal: bool) -> Opti
         })
 }
 
+/// Where the linear scaling from the design voltage `v_design` to the hold-off `holdoff_v`
+/// stays inside the criteria's validity and where it leaves it (both magnitudes, V).
+fn scaling_note(rows: &[MarginRow], holdoff_v: f64, v_design: f64) -> String {
+    let f = holdoff_v / v_design;
+    let mut text = format!(
+        "scaling to {f:.2} x the design voltage ({}): the field limits of the gas, corona and \
+         insulator rows do not depend on the terminal voltage (their validity in gap, pd, \
+         density and uniformity holds at any voltage), and the streamer integral is evaluated \
+         at its own inception voltage",
+        crate::units::kv_three_significant(holdoff_v)
+    );
+    if rows.iter().any(|r| r.criterion == Criterion::Cranberg) {
+        let (lo, hi) = crate::breakdown::vacuum::CRANBERG_VOLTAGE_RANGE_V;
+        let _ = write!(
+            text,
+            "; Cranberg's vacuum rows rest on gap voltages of {} to {} and were checked at \
+             the design gap voltages: scaled {f:.2} x, a gap above {} at the design voltage \
+             leaves that range",
+            crate::units::kv_three_significant(lo),
+            crate::units::kv_three_significant(hi),
+            crate::units::kv_three_significant(hi / f)
+        );
+    }
+    if f > 1.0 {
+        let _ = write!(
+            text,
+            "; outside the field, the scaling leaves what was checked: the grading resistors, \
+             protective gaps, multiplier and stack were checked at the design voltage only, and \
+             at the hold-off they see {f:.2} x their voltage ({:.2} x the resistor dissipation) \
+             and the stored energy is {:.2} x as large",
+            f * f,
+            f * f
+        );
+    }
+    text
+}
+
+/// Notes on the gas state the criteria use: the mixing rule of a mixture without its own, and
+/// the real-gas compressibility when it is applied.
+fn gas_state_notes(ctx: &Ctx) -> Vec<String> {
+    let Some((gas, state)) = &ctx.gas else {
+        return Vec::new();
+    };
+    let mut notes = Vec::new();
+    if let Some(rule) = crate::breakdown::gas::mixture_rule(gas) {
+        notes.push(format!(
+            "gas {}: {rule}; the rows name {}",
+            gas.species,
+            state.kind.label()
+        ));
+    }
+    if state.compressibility != 1.0 {
+        notes.push(format!(
+            "gas {}: real gas, compressibility Z = {:.3} at {:.3} bar (ideal gas off by more \
+             than 1 %); the criteria use the density-reduced pressure {:.3} bar at 20 degC",
+            gas.species,
+            state.compressibility,
+            state.pressure_pa / 1e5,
+            state.reduced_pressure_pa / 1e5
+        ));
+    }
+    notes
+}
+
 /// Evaluates every check of the model on its fine analysis.
 pub fn evaluate(
     model: &Model,
@@ -1355,6 +1420,7 @@ pub fn evaluate(
                 .to_string(),
         );
     } else {
+        notes.extend(gas_state_notes(&ctx));
         for hot in &gas_hot {
             gas_rows(&ctx, &fm, &fine.samples, hot, &mut lines, &mut rows)?;
         }
@@ -1439,6 +1505,9 @@ pub fn evaluate(
         ));
         (None, None)
     };
+    if let Some(h) = &h {
+        holdoff_notes.push(scaling_note(&rows, h.voltage_v, v.abs()));
+    }
     if h.is_none() && v != 0.0 && singular.is_empty() {
         holdoff_notes.push("no row with a number enters the hold-off voltage".to_string());
     }

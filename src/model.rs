@@ -154,10 +154,30 @@ pub struct Gas {
 }
 
 impl Gas {
-    /// Number density from the ideal-gas law, m⁻³.
+    /// Number density, m⁻³: n = p/(Z·k·T), with the real-gas compressibility Z where it
+    /// differs from 1 by more than 1 % ([`crate::thermo::applied_compressibility`]), the
+    /// ideal gas otherwise.
     pub fn number_density(&self) -> f64 {
         const BOLTZMANN: f64 = 1.380_649e-23; // J/K, CODATA 2018 exact
-        self.pressure_pa / (BOLTZMANN * self.temperature_k)
+        self.pressure_pa / (self.compressibility() * BOLTZMANN * self.temperature_k)
+    }
+
+    /// The compressibility factor applied to this gas (1 for the ideal gas).
+    pub fn compressibility(&self) -> f64 {
+        crate::thermo::applied_compressibility(
+            &self.components_or_species(),
+            self.pressure_pa,
+            self.temperature_k,
+        )
+    }
+
+    /// The mole fractions, or the species alone when no table was given.
+    pub fn components_or_species(&self) -> Vec<(String, f64)> {
+        if self.components.is_empty() {
+            vec![(self.species.clone(), 1.0)]
+        } else {
+            self.components.clone()
+        }
     }
 }
 

@@ -171,3 +171,119 @@ pub fn analyze_stack(
         closed_form,
     }))
 }
+
+/// A mismatch between the design's `terminal.voltage` and the multiplier's output beyond this
+/// fraction is a caution with both numbers (common practice, no source: about the accuracy of
+/// a terminal voltmeter).
+pub const TERMINAL_MISMATCH_TOLERANCE: f64 = 0.01;
+
+/// The design's terminal voltage against the multiplier's output. The field is solved at
+/// `terminal.voltage`, which governs every margin; the multiplier's no-load output (its highest)
+/// and its loaded output are stated beside it.
+#[derive(Debug, Clone, Serialize)]
+pub struct TerminalReconciliation {
+    /// `terminal.voltage`, V (signed).
+    pub terminal_v: f64,
+    /// The multiplier's simulated no-load and cycle-mean loaded output, V (magnitudes).
+    pub no_load_v: f64,
+    pub loaded_v: f64,
+    /// (no-load − |terminal|)/|terminal|.
+    pub relative: f64,
+    pub tolerance: f64,
+    pub within_tolerance: bool,
+    /// One sentence, the same in every command.
+    pub text: String,
+}
+
+/// Reconciles the terminal voltage with the stack's output.
+pub fn reconcile(terminal_v: f64, stack: &StackAnalysis) -> TerminalReconciliation {
+    let no_load_v = stack.result.output.no_load_v.abs();
+    let loaded_v = stack.result.output.loaded_mean_v.abs();
+    let v = terminal_v.abs();
+    let relative = if v > 0.0 {
+        (no_load_v - v) / v
+    } else {
+        f64::INFINITY
+    };
+    let within_tolerance = relative.abs() <= TERMINAL_MISMATCH_TOLERANCE;
+    let kv = crate::units::kv_three_significant;
+    let head = format!(
+        "The field is solved at terminal.voltage = {}, which governs every margin; the \
+         multiplier gives {} at no load and {} at load ({:+.1} % at no load, tolerance {:.0} %)",
+        kv(terminal_v),
+        kv(no_load_v),
+        kv(loaded_v),
+        100.0 * relative,
+        100.0 * TERMINAL_MISMATCH_TOLERANCE
+    );
+    let text = if within_tolerance {
+        format!("{head}.")
+    } else if relative > 0.0 {
+        format!(
+            "{head}: at no load the terminal can reach {}, where every margin is {:.3} x the \
+             printed one (the field scales with the voltage); set terminal.voltage to the \
+             no-load output or limit the drive.",
+            kv(no_load_v),
+            v / no_load_v
+        )
+    } else {
+        format!(
+            "{head}: the stack as given does not reach the terminal voltage solved; the margins \
+             hold for {} but the machine runs at most at {}.",
+            kv(terminal_v),
+            kv(no_load_v)
+        )
+    };
+    TerminalReconciliation {
+        terminal_v,
+        no_load_v,
+        loaded_v,
+        relative,
+        tolerance: TERMINAL_MISMATCH_TOLERANCE,
+        within_tolerance,
+        text,
+    }
+}
+
+/// What the stack can add to a terminal spark. The charge reaches the terminal through the
+/// smoothing column, its capacitors in series: C_s = 1/Σ(1/C_k), charged to the no-load
+/// output V, delivers at most ½·C_s·V² (at no load, the highest; every capacitor at 2·V_m this
+/// is n·½·C·(2V_m)², the smoothing column's own energy). The oscillating columns reach the
+/// terminal only through the diodes and the drive; their energy is part of the stack total,
+/// the upper bound. With no output resistor in the design, nothing else limits the discharge
+/// into the spark; after the drive stops the stack decays through the divider (and dump
+/// resistor) with τ = R·C_s.
+#[derive(Debug, Clone, Serialize)]
+pub struct StackSpark {
+    pub series_capacitance_f: f64,
+    pub no_load_v: f64,
+    /// ½·C_s·V², J.
+    pub deliverable_j: f64,
+    /// Every stage capacitor at no load (closed form), J: the upper bound (filled in by the
+    /// report, which holds the closed form of the stored energy).
+    pub stored_no_load_j: Option<f64>,
+    /// Discharge time constant through the divider and dump resistor, s, when modelled.
+    pub discharge_tau_s: Option<f64>,
+    pub convention: &'static str,
+}
+
+/// The stack's share of a terminal spark.
+pub fn stack_spark(stack: &StackAnalysis) -> StackSpark {
+    let inv: f64 = stack
+        .params
+        .capacitors
+        .smoothing_f
+        .iter()
+        .map(|c| 1.0 / c)
+        .sum();
+    let c_s = if inv > 0.0 { 1.0 / inv } else { 0.0 };
+    let v = stack.result.output.no_load_v.abs();
+    StackSpark {
+        series_capacitance_f: c_s,
+        no_load_v: v,
+        deliverable_j: 0.5 * c_s * v * v,
+        stored_no_load_j: None,
+        discharge_tau_s: stack.result.discharge.as_ref().map(|d| d.tau_s),
+        convention: "at no load (the multiplier's highest output), the same in every command",
+    }
+}

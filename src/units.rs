@@ -565,6 +565,23 @@ fn four_figures(x: f64) -> String {
 /// `format_si(750e3, Dimension::Voltage)` is "750.0 kV", `format_si(6.2e6, Dimension::Field)`
 /// is "6.200 kV/mm". Temperatures are shown in degC to 0.01 K (an interval scale, where
 /// significant figures of the Celsius number mean little).
+/// A voltage in kV to three significant figures ("1670 kV", "851 kV", "95.3 kV"): the precision
+/// the breakdown criteria carry (their fits are good to a few per cent), for hold-off voltages.
+pub fn kv_three_significant(volts: f64) -> String {
+    let kv = volts / 1e3;
+    if !kv.is_finite() || kv == 0.0 {
+        return format!("{kv} kV");
+    }
+    let magnitude = kv.abs().log10().floor() as i32;
+    let decimals = 2 - magnitude;
+    if decimals >= 0 {
+        format!("{kv:.*} kV", decimals as usize)
+    } else {
+        let step = 10f64.powi(-decimals);
+        format!("{:.0} kV", (kv / step).round() * step)
+    }
+}
+
 pub fn format_si(value: f64, dim: Dimension) -> String {
     if !value.is_finite() {
         return format!("{value} {}", zero_unit(dim));

@@ -68,7 +68,7 @@ fn paschen_minimum_of_each_gas_is_within_15_percent_of_the_measured_one() {
     // Measured minimum sparking potentials, Naidu & Kamaraju, High Voltage Engineering, Ch. 2
     // table (from memory; air 327 V also confirmed in a public HV article): air 327 V, N2 251 V,
     // CO2 420 V (docs/references.md §1). The breakdown curve of each gas (air: Raizer A = 15,
-    // B = 365; N2 and CO2: anchored on the measured minima, docs/references.md §15), gamma =
+    // B = 365; N2 and CO2: anchored on the measured minima, docs/references.md §16), gamma =
     // 0.01, scanned over pd, must have its least voltage within 15 % of the measured one.
     use holdoff::breakdown::GasKind;
     for (kind, name) in [
@@ -447,10 +447,13 @@ fn raising_the_pressure_raises_every_gas_limit() {
 #[test]
 fn temperature_enters_through_density() {
     // Same density at two temperatures gives the same limit (docs/references.md §1, density
-    // correction, Massarczyk et al. 2016).
+    // correction, Massarczyk et al. 2016). SF6 at 3 bar is a real gas (Z ≈ 0.96, docs/references.md
+    // §17), so the hot pressure of the same density comes from the real-gas mapping.
     let opts = GasOptions::default();
     let cold = pure("SF6", 3.0 * BAR_PA, T0_K);
-    let hot = pure("SF6", 3.0 * BAR_PA * 333.15 / T0_K, 333.15);
+    let sf6 = vec![("SF6".to_string(), 1.0)];
+    let p_hot = holdoff::thermo::same_density_pressure_pa(&sf6, 3.0 * BAR_PA, T0_K, 333.15);
+    let hot = pure("SF6", p_hot, 333.15);
     let a = uniform::critical_field(&cold, &opts).unwrap().value;
     let b = uniform::critical_field(&hot, &opts).unwrap().value;
     assert_rel("density", b, a, 1e-12);

@@ -112,7 +112,7 @@ fn sphere_gap(d_sphere: f64, gap: f64, v: f64) -> Model {
 #[test]
 fn sphere_gaps_agree_with_the_calibration_tables_by_the_streamer_criterion() {
     // Sphere-gap calibration tables, AC and DC of either polarity, one sphere earthed, standard
-    // atmosphere, peak kV (docs/references.md §15): IEC 60052 values as reproduced in a public
+    // atmosphere, peak kV (docs/references.md §16): IEC 60052 values as reproduced in a public
     // sphere-gap voltage table ("Sphere Gap Breakdown Voltage Tables", the jimlux HV pages),
     // the same values as docs/references.md §2 [C, secondary], and, where marked, the IEC 60052
     // table as recalled from memory (Kuffel, Zaengl & Kuffel, High Voltage Engineering:
@@ -271,7 +271,7 @@ fn a_small_edge_radius_never_raises_the_holdoff_above_the_flat_gap() {
 fn criteria_are_refused_outside_their_validity_ranges() {
     // Peek's fits hold for relative air densities of about 0.5 (Peek, AIEE 1914: sphere-gap
     // tests from sea level to 18,000 ft) to 1.1 (common practice, no source;
-    // docs/references.md §15): at delta = 0.001 the Peek rows give no number and do not pass.
+    // docs/references.md §16): at delta = 0.001 the Peek rows give no number and do not pass.
     let mut thin = sphere_gap(0.10, 0.05, 50e3);
     thin.gas = Some(pure("air", 1e-3 * ATM_PA * 298.15 / T0_K, 298.15));
     let (_, m) = margins_of(&thin);
@@ -419,14 +419,14 @@ fn one_cm_air_gap_holdoff_picks_the_valid_criterion() {
     // The streamer integral in the uniform field reproduces the same breakdown within 10 %.
     let s = row(&m, "plate", Criterion::StreamerIntegral);
     assert!(rel(s.limit_ideal.unwrap() * 0.01, 31.4e3) < 0.10);
-    // The area derating is the one of every gas (0.6, common practice, docs/references.md §15).
+    // The area derating is the one of every gas (0.6, common practice, docs/references.md §16).
     assert_eq!(gap.derating.factor, 0.6);
     assert!(gap.derating.basis.contains("every gas"));
 }
 
 #[test]
 fn every_gas_is_derated_alike_so_gases_compare_like_for_like() {
-    // One area/roughness policy for every gas (docs/references.md §3 for SF6, §15 for the rest:
+    // One area/roughness policy for every gas (docs/references.md §3 for SF6, §16 for the rest:
     // 0.6, common practice): N2 at 12 bar and SF6 at 4 bar (the usual pressures of the two
     // choices, docs/references.md §3) and air at 1 atm, each in a 10 mm uniform gap, carry the
     // same factor on every gas row, so the as-used hold-off is 0.6 x the ideal one for each.

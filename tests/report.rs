@@ -61,9 +61,10 @@ fn note_has_its_sections_and_the_numbers_of_check() {
         .output()
         .expect("runs");
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
-    let holdoff_kv = v["holdoff_voltage_v"].as_f64().unwrap() / 1e3;
+    let holdoff_text =
+        holdoff::report::kv_three_significant(v["holdoff_voltage_v"].as_f64().unwrap());
     assert!(
-        a.contains(&format!("Hold-off voltage: {holdoff_kv:.1} kV")),
+        a.contains(&format!("Hold-off voltage: {holdoff_text}")),
         "hold-off"
     );
     assert!(a.contains(v["design"]["sha256"].as_str().unwrap()));

@@ -14,7 +14,7 @@
 //!
 //! Peek's law is an empirical onset fit for air; for other or electronegative gases the
 //! streamer integral ([`super::streamer`]) applies, and [`onset_field_in_gas`] flags them.
-//! Validity: Peek's relative density δ within [`PEEK_DELTA_RANGE`] (docs/references.md §15);
+//! Validity: Peek's relative density δ within [`PEEK_DELTA_RANGE`] (docs/references.md §16);
 //! no radius range is enforced (none is given for the fits).
 
 use serde::Serialize;

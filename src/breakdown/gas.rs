@@ -3,9 +3,12 @@
 //! criteria take.
 //!
 //! All gas fits are written for 20 °C; a different temperature enters through the gas
-//! **density**: the fits are evaluated at the density-reduced pressure p·T0/T with
-//! T0 = 293.15 K (docs/references.md §1, "Temperature / density correction" \[C\], Massarczyk et al.
-//! 2016), computed as N·k_B·T0 from [`Gas::number_density`].
+//! **density**: the fits are evaluated at the density-reduced pressure p20, the pressure the
+//! same gas density has at T0 = 293.15 K (docs/references.md §1, "Temperature / density
+//! correction" \[C\], Massarczyk et al. 2016). The published fits are given against the filling
+//! pressure at 20 °C, so real-gas behaviour enters through that mapping: p20 comes from the
+//! real-gas density ([`crate::thermo`], docs/references.md §17) where the ideal gas is off by
+//! more than 1 %, and is p·T0/T otherwise. At 20 °C, p20 is the given pressure.
 
 use serde::Serialize;
 
@@ -80,10 +83,15 @@ pub struct GasState {
     pub kind: GasKind,
     pub pressure_pa: f64,
     pub temperature_k: f64,
-    /// Number density, m⁻³.
+    /// Number density the criteria use, m⁻³: p20/(k_B·T0), the ideal-gas density at the
+    /// density-reduced pressure (the fits' own variable; the module documentation says why).
     pub number_density_m3: f64,
-    /// Pressure the same density would have at 20 °C, Pa (what the fits call p).
+    /// Real-gas number density p/(Z·k_B·T), m⁻³.
+    pub real_number_density_m3: f64,
+    /// Pressure the same (real-gas) density would have at 20 °C, Pa (what the fits call p).
     pub reduced_pressure_pa: f64,
+    /// Compressibility factor applied (1 for the ideal gas; [`crate::thermo`]).
+    pub compressibility: f64,
 }
 
 /// Tolerance on the sum of mole fractions.
@@ -115,6 +123,7 @@ fn identify(gas: &Gas) -> Result<GasKind, BreakdownError> {
     let mut sum = 0.0;
     let mut sf6 = 0.0;
     let mut n2 = 0.0;
+    let mut others: Vec<&'static str> = Vec::new();
     for (name, fraction) in &gas.components {
         if !(fraction.is_finite() && *fraction >= 0.0) {
             return Err(BreakdownError::BadComposition {
@@ -124,17 +133,12 @@ fn identify(gas: &Gas) -> Result<GasKind, BreakdownError> {
         }
         sum += fraction;
         match canonical_name(name) {
+            Some(_) if *fraction == 0.0 => {}
             Some("SF6") => sf6 += fraction,
             Some("N2") => n2 += fraction,
-            Some(other) if *fraction > 0.0 && gas.components.len() == 1 => {
-                return match other {
-                    "air" => Ok(GasKind::Air),
-                    "CO2" => Ok(GasKind::Co2),
-                    _ => Err(unsupported()),
-                };
-            }
-            _ if *fraction == 0.0 => {}
-            _ => return Err(unsupported()),
+            Some(other) => others.push(other),
+            None if *fraction == 0.0 => {}
+            None => return Err(unsupported()),
         }
     }
     if (sum - 1.0).abs() > FRACTION_SUM_TOL {
@@ -142,6 +146,12 @@ fn identify(gas: &Gas) -> Result<GasKind, BreakdownError> {
             species: gas.species.clone(),
             reason: format!("mole fractions sum to {sum}; expected 1"),
         });
+    }
+    if !others.is_empty() {
+        if n2 > 0.0 {
+            others.push("N2");
+        }
+        return Ok(weakest_component(&others));
     }
     let x = sf6 / sum;
     if n2 == 0.0 || x >= 1.0 - FRACTION_SUM_TOL {
@@ -151,6 +161,38 @@ fn identify(gas: &Gas) -> Result<GasKind, BreakdownError> {
     } else {
         Ok(GasKind::Sf6N2 { sf6_fraction: x })
     }
+}
+
+/// Mixing rule for mixtures without a rule of their own (any mixture with air or CO2): the
+/// criteria of the **weakest non-SF6 component** at the mixture's full density, by the
+/// uniform-field strengths relative to air of the table (CO2 [`CO2_TO_AIR`] < N2
+/// [`N2_TO_AIR`] < air). Mixtures of these non-synergistic gases lie between their components,
+/// and adding SF6 to a gas raises its strength, so the weakest component is a lower bound
+/// (common practice, no source; docs/references.md §17). In the Townsend (Paschen) regime N2
+/// can be weaker than CO2; the rule is stated for the streamer regime of pressurised tanks.
+pub const MIXTURE_RULE: &str = "mixture without a rule of its own: the criteria of its weakest \
+     non-SF6 component (CO2 < N2 < air) at the full mixture density, a lower bound (common \
+     practice, no source; docs/references.md §17)";
+
+fn weakest_component(names: &[&str]) -> GasKind {
+    if names.contains(&"CO2") {
+        GasKind::Co2
+    } else if names.contains(&"N2") {
+        GasKind::N2
+    } else {
+        GasKind::Air
+    }
+}
+
+/// The mixing rule applied to `gas`, when it is a mixture resolved by [`MIXTURE_RULE`].
+pub fn mixture_rule(gas: &Gas) -> Option<&'static str> {
+    let named = gas
+        .components
+        .iter()
+        .filter(|(_, x)| *x > 0.0)
+        .filter_map(|(n, _)| canonical_name(n))
+        .collect::<Vec<_>>();
+    (named.len() > 1 && named.iter().any(|n| matches!(*n, "air" | "CO2"))).then_some(MIXTURE_RULE)
 }
 
 impl GasState {
@@ -171,13 +213,21 @@ impl GasState {
             });
         }
         let kind = identify(gas)?;
-        let n = gas.number_density();
+        let real = gas.number_density();
+        let reduced_pressure_pa = crate::thermo::same_density_pressure_pa(
+            &gas.components_or_species(),
+            gas.pressure_pa,
+            gas.temperature_k,
+            T0_K,
+        );
         Ok(GasState {
             kind,
             pressure_pa: gas.pressure_pa,
             temperature_k: gas.temperature_k,
-            number_density_m3: n,
-            reduced_pressure_pa: convert::reduced_pressure_pa(n),
+            number_density_m3: reduced_pressure_pa / (convert::BOLTZMANN_J_PER_K * T0_K),
+            real_number_density_m3: real,
+            reduced_pressure_pa,
+            compressibility: gas.compressibility(),
         })
     }
 
@@ -370,9 +420,25 @@ mod tests {
         ));
         assert!(GasState::resolve(&pure("air", -1.0, 293.15)).is_err());
         assert!(GasState::resolve(&pure("air", 1e5, 0.0)).is_err());
-        let mut co2_air = pure("CO2", 1e5, 293.15);
-        co2_air.components = vec![("CO2".into(), 0.5), ("air".into(), 0.5)];
-        assert!(GasState::resolve(&co2_air).is_err());
+        let mut co2_he = pure("CO2", 1e5, 293.15);
+        co2_he.components = vec![("CO2".into(), 0.5), ("He".into(), 0.5)];
+        assert!(GasState::resolve(&co2_he).is_err());
+    }
+
+    #[test]
+    fn mixtures_without_a_rule_take_the_weakest_component() {
+        let mix = |c: &[(&str, f64)]| {
+            let mut g = pure("N2", 1e5, 293.15);
+            g.components = c.iter().map(|(n, x)| (n.to_string(), *x)).collect();
+            g.species = "mixture".into();
+            (GasState::resolve(&g).unwrap().kind, mixture_rule(&g))
+        };
+        assert_eq!(mix(&[("N2", 0.8), ("CO2", 0.2)]).0, GasKind::Co2);
+        assert_eq!(mix(&[("air", 0.5), ("N2", 0.5)]).0, GasKind::N2);
+        assert_eq!(mix(&[("SF6", 0.1), ("air", 0.9)]).0, GasKind::Air);
+        assert!(mix(&[("N2", 0.8), ("CO2", 0.2)]).1.is_some());
+        assert!(mixture_rule(&sf6_n2(0.5, 1e5, 293.15)).is_none());
+        assert!(mixture_rule(&pure("CO2", 1e5, 293.15)).is_none());
     }
 
     #[test]

@@ -155,7 +155,7 @@ pub struct Derating {
 /// broke at 50–70 % of the limiting field (a ~0.15 m² coaxial gap ≈ 50 %, a 150 mm plane gap
 /// ≈ 70 %) \[C\] (docs/references.md §3, translated conference excerpt), and design practice keeps
 /// the peak SF6 field ≤ 0.5–0.7 × (E/p)_crit·p \[P\]; 0.6 is the middle of that range \[P\].
-/// holdoff applies the same factor to air, N2, CO2 and mixtures (docs/references.md §15): no
+/// holdoff applies the same factor to air, N2, CO2 and mixtures (docs/references.md §16): no
 /// published per-gas figure was found, and one factor keeps a comparison of gases like for
 /// like (common practice, no source for the gases other than SF6).
 pub const AREA_DERATING: f64 = 0.6;
@@ -178,7 +178,7 @@ impl Derating {
             basis: format!(
                 "large stressed area and roughness, one policy for every gas ({gas} here): \
                  technical SF6 gaps break at 50-70 % of the ideal limit (docs/references.md \
-                 §3); 0.6 applied to every gas alike (docs/references.md §15), common practice"
+                 §3); 0.6 applied to every gas alike (docs/references.md §16), common practice"
             ),
             mark: Some(Mark::CommonPractice),
         }

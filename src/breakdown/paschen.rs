@@ -87,7 +87,7 @@ pub const CURVE_ANCHOR_GAMMA: f64 = super::gas::DEFAULT_GAMMA;
 /// Breakdown-curve constants that put the analytic minimum of Paschen's law on a measured
 /// minimum sparking potential: at the minimum E/p = B and (pd)_min = e·ln(1 + 1/γ)/A, so
 /// B = V_min/(pd)_min and A = e·ln(1 + 1/γ)/(pd)_min at γ = [`CURVE_ANCHOR_GAMMA`] \[D\]
-/// (docs/references.md §15). Not a fit of α: the ionisation coefficient of N2 stays [`N2`].
+/// (docs/references.md §16). Not a fit of α: the ionisation coefficient of N2 stays [`N2`].
 const fn anchored(
     gas: &'static str,
     v_min_v: f64,

@@ -95,7 +95,14 @@ pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
-    let section = FaultSection::new(&model, &file, &text, r, t0.elapsed().as_secs_f64());
+    let section = FaultSection::new(
+        &model,
+        &file,
+        &text,
+        r,
+        t0.elapsed().as_secs_f64(),
+        stack.as_ref(),
+    );
     let code = if section.verdict.pass {
         ExitCode::SUCCESS
     } else {

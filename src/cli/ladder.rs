@@ -42,13 +42,19 @@ pub fn run(args: &LadderArgs) -> Result<ExitCode> {
     println!("{}\n", model.title);
     print!("{}", render(&section));
     println!("\nCautions");
+    let reconciled = holdoff::stack::reconcile(model.terminal_voltage, &stack);
+    if !reconciled.within_tolerance {
+        println!("- terminal voltage: {}", reconciled.text);
+    }
+    let stored = model
+        .multiplier
+        .as_ref()
+        .and_then(holdoff::report::cautions::multiplier_stored_energy_j)
+        .map(|j| (j, holdoff::report::cautions::STACK_ENERGY_BASIS.to_string()));
     for c in cautions(&CautionInputs::for_model(
         &model,
         section.output_no_load_v,
-        Some((
-            section.stored_energy_j,
-            "stage capacitors of the multiplier at load".to_string(),
-        )),
+        stored,
     )) {
         println!("- {}: {}", c.topic, c.text);
     }

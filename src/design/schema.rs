@@ -150,13 +150,15 @@ pub struct RawTank {
 }
 
 /// `[gas]`: species (a name or a mixture table of mole fractions), absolute pressure,
-/// temperature.
+/// temperature, and optionally the lowest temperature the machine sees (`min_temperature`,
+/// for the condensation check).
 #[derive(Debug, Default, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct RawGas {
     pub species: Leaf,
     pub pressure: Leaf,
     pub temperature: Leaf,
+    pub min_temperature: Leaf,
 }
 
 /// `[terminal]`.

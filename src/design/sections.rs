@@ -190,12 +190,85 @@ pub(crate) fn read_gas(rd: &mut Reader, g: &Spanned<RawGas>) -> Option<Gas> {
         |x| (GAS_TEMPERATURE_K.0..=GAS_TEMPERATURE_K.1).contains(&x),
         "is outside -100 degC to 200 degC, where holdoff's gas criteria are applied",
     );
+    let t_min = rd.opt_quantity(
+        &raw.min_temperature,
+        &at,
+        "min_temperature",
+        Dimension::Temperature,
+    );
+    let t_min = rd.check(
+        t_min,
+        raw.min_temperature.as_ref(),
+        "gas.min_temperature",
+        |x| (GAS_TEMPERATURE_K.0..=GAS_TEMPERATURE_K.1).contains(&x),
+        "is outside -100 degC to 200 degC, where holdoff's gas criteria are applied",
+    );
+    if let (Some(t), Some(t_min), Some(v)) = (t, t_min, raw.min_temperature.as_ref())
+        && t_min > t
+    {
+        rd.out_of_range(
+            v,
+            "gas.min_temperature",
+            format!(
+                "`gas.min_temperature = {}` is above `gas.temperature` ({:.2} degC)",
+                v.get_ref().show(),
+                t - 273.15
+            ),
+            Some(
+                "give the lowest temperature the machine sees, at or below the operating \
+                 temperature"
+                    .to_string(),
+            ),
+        );
+        return None;
+    }
     let (species, components) = species?;
+    let (p, t) = (p?, t?);
+    // The gas must be a gas at the operating temperature and at the lowest one: the filling
+    // (its density) stays, so at the lowest temperature the pressure is that of the same
+    // density there.
+    let states = [(t, "gas.pressure", raw.pressure.as_ref(), p)]
+        .into_iter()
+        .chain(t_min.map(|tm| {
+            let p_cold = crate::thermo::same_density_pressure_pa(&components, p, t, tm);
+            (
+                tm,
+                "gas.min_temperature",
+                raw.min_temperature.as_ref(),
+                p_cold,
+            )
+        }));
+    for (temp, key, leaf, p_at) in states {
+        let Some(c) = crate::thermo::condensation(&components, p_at, temp) else {
+            continue;
+        };
+        let Some(v) = leaf.or(raw.pressure.as_ref()) else {
+            continue;
+        };
+        rd.push(
+            "condensation",
+            key,
+            v.span(),
+            format!(
+                "`{key} = {}`: at {:.2} degC the gas is at {:.3} bar and {}",
+                v.get_ref().show(),
+                temp - 273.15,
+                p_at / 1e5,
+                c.describe()
+            ),
+            Some(
+                "lower gas.pressure, raise the (lowest) temperature, or use a mixture with a \
+                 lower fraction of the condensable gas"
+                    .to_string(),
+            ),
+        );
+        return None;
+    }
     Some(Gas {
         species,
         components,
-        pressure_pa: p?,
-        temperature_k: t?,
+        pressure_pa: p,
+        temperature_k: t,
     })
 }
 

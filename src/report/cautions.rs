@@ -46,6 +46,11 @@ impl CautionInputs {
     }
 }
 
+/// How the stack's stored energy is counted, the same in every command and in SAFETY.md: at no
+/// load, the highest.
+pub const STACK_ENERGY_BASIS: &str =
+    "multiplier stack at no load (the highest; 1/2 C V^2, stage capacitors at 2 Vm)";
+
 /// The stored energy of a run: the electrostatic energy of the solved field (J) plus the
 /// multiplier stack's at no load when the design has one, with what it covers.
 pub fn stored_energy(model: &crate::model::Model, field_energy_j: f64) -> (f64, String) {
@@ -57,7 +62,7 @@ pub fn stored_energy(model: &crate::model::Model, field_energy_j: f64) -> (f64, 
         Some(stack) => (
             stack + field_energy_j,
             format!(
-                "multiplier stack {:.1} J at no load (1/2 C V^2, stage capacitors at 2 Vm) plus {:.1} J electrostatic energy of the solved field",
+                "{STACK_ENERGY_BASIS}: {:.1} J, plus {:.1} J electrostatic energy of the solved field",
                 stack, field_energy_j
             ),
         ),

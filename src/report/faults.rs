@@ -24,6 +24,8 @@ pub struct FaultSection {
     /// The high-voltage cautions that end the run (stored energy from the electrode
     /// capacitances at nominal, plus the multiplier stack when modelled).
     pub cautions: Vec<crate::report::cautions::Caution>,
+    /// What the multiplier stack adds to a terminal spark, when a stack is modelled.
+    pub stack_spark: Option<crate::stack::StackSpark>,
 }
 
 impl FaultSection {
@@ -35,6 +37,7 @@ impl FaultSection {
         text: &str,
         replay: FaultReplay,
         seconds: f64,
+        stack: Option<&crate::stack::StackAnalysis>,
     ) -> FaultSection {
         use crate::report::cautions::{CautionInputs, cautions, stored_energy};
         let stored = replay
@@ -53,6 +56,13 @@ impl FaultSection {
                 replay.terminal_voltage_v,
                 stored,
             )),
+            stack_spark: stack.map(|st| crate::stack::StackSpark {
+                stored_no_load_j: model
+                    .multiplier
+                    .as_ref()
+                    .and_then(crate::report::cautions::multiplier_stored_energy_j),
+                ..crate::stack::stack_spark(st)
+            }),
             replay,
             seconds,
         }
@@ -365,6 +375,9 @@ pub fn render(s: &FaultSection, details: usize, rows: Option<usize>) -> String {
              the fast collapse of the terminal",
             e.stored_j, e.released_fast_j
         );
+        if let Some(sp) = &s.stack_spark {
+            let _ = writeln!(out, "{}", stack_spark_line(e.released_fast_j, sp));
+        }
     }
     if let Some(l) = transient_line(r) {
         let _ = writeln!(out, "{l}");
@@ -517,4 +530,38 @@ fn detail(out: &mut String, sc: &ScenarioResult) {
             f.firing_v / 1e3
         );
     }
+}
+
+/// The stack's share of a terminal spark, beside the column's.
+pub fn stack_spark_line(column_j: f64, sp: &crate::stack::StackSpark) -> String {
+    let mut line = format!(
+        "Spark energy with the stack: {:.2} J from the column plus up to {:.1} J from the \
+         multiplier through its smoothing column ({:.3} nF in series at {:.0} kV, at no load) = \
+         {:.1} J",
+        column_j,
+        sp.deliverable_j,
+        sp.series_capacitance_f * 1e9,
+        sp.no_load_v / 1e3,
+        column_j + sp.deliverable_j
+    );
+    if let Some(all) = sp.stored_no_load_j {
+        let _ = write!(
+            line,
+            "; the whole stack stores {all:.1} J at no load (upper bound)"
+        );
+    }
+    match sp.discharge_tau_s {
+        Some(t) => {
+            let _ = write!(
+                line,
+                "; with no output resistor nothing else limits the discharge into the spark, and \
+                 after the drive stops the stack decays with tau = {t:.3} s"
+            );
+        }
+        None => line.push_str(
+            "; with no output resistor nothing else limits the discharge into the spark, and \
+             with no divider or dump resistor the stack holds its charge",
+        ),
+    }
+    line
 }

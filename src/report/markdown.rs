@@ -165,7 +165,12 @@ pub fn render(
         );
     }
     let _ = writeln!(o);
-    let hv = |v: Option<f64>| v.map_or("not reached".to_string(), kv);
+    let hv = |v: Option<f64>| {
+        v.map_or(
+            "not reached".to_string(),
+            crate::report::kv_three_significant,
+        )
+    };
     let _ = writeln!(
         o,
         "Hold-off voltage: {} with the limits as used ({}); {} with every limit ideal ({}).\n",

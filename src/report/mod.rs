@@ -109,6 +109,8 @@ pub struct Report {
     pub field_energy_j: f64,
     /// The multiplier stack, when the design has one (DESIGN §6 `ladder`).
     pub ladder: Option<ladder::LadderSection>,
+    /// The terminal voltage against the multiplier's output, when a stack is modelled.
+    pub terminal_reconciliation: Option<crate::stack::TerminalReconciliation>,
     /// Ranked margin rows, worst first (DESIGN §6 `margins`); empty until margins are added.
     pub margins: Vec<MarginRow>,
     /// Hold-off voltage with the limits as used (gas rows derated where they are), V.
@@ -136,6 +138,8 @@ pub struct Report {
 }
 
 /// SHA-256 of the design text, hex.
+pub use crate::units::kv_three_significant;
+
 pub fn sha256_hex(text: &str) -> String {
     let digest = Sha256::digest(text.as_bytes());
     digest.iter().map(|b| format!("{b:02x}")).collect()
@@ -235,6 +239,7 @@ impl Report {
             grid_study: study,
             field_energy_j: fine.energy_j,
             ladder: None,
+            terminal_reconciliation: None,
             margins: Vec::new(),
             holdoff_voltage_v: None,
             holdoff_limiting: None,
@@ -250,21 +255,23 @@ impl Report {
         }
     }
 
-    /// Adds the multiplier stack: its section, and its stored energy in the cautions.
+    /// Adds the multiplier stack: its section, and the reconciliation of the terminal voltage
+    /// with its output (a caution when they differ beyond the tolerance). The stored-energy
+    /// caution already counts the stack at no load ([`cautions::stored_energy`]).
     pub fn with_ladder(mut self, stack: Option<&crate::stack::StackAnalysis>) -> Report {
         if let Some(st) = stack {
-            let section = ladder::LadderSection::new(st);
-            let stack_j = section.stored_energy_j;
-            let total = stack_j + self.field_energy_j;
-            for c in &mut self.cautions {
-                if c.topic == "stored energy" {
-                    c.text = format!(
-                        "Stored energy at this voltage: about {total:.0} J ({stack_j:.0} J in the stage capacitors of the multiplier at load, {:.1} J in the electrostatic field of the terminal and column). Capacitors recover charge after discharge (dielectric absorption): keep them shorted when idle.",
-                        self.field_energy_j
-                    );
-                }
+            let r = crate::stack::reconcile(self.design.terminal_voltage_v, st);
+            if !r.within_tolerance {
+                self.cautions.insert(
+                    1,
+                    cautions::Caution {
+                        topic: "terminal voltage",
+                        text: r.text.clone(),
+                    },
+                );
             }
-            self.ladder = Some(section);
+            self.terminal_reconciliation = Some(r);
+            self.ladder = Some(ladder::LadderSection::new(st));
         }
         self
     }
@@ -319,4 +326,24 @@ pub fn write_atomic(path: &std::path::Path, bytes: &[u8]) -> std::io::Result<()>
         let _ = std::fs::remove_file(&tmp);
     }
     result
+}
+
+#[cfg(test)]
+mod tests {
+    use super::kv_three_significant;
+
+    #[test]
+    fn hold_off_voltages_print_to_three_significant_figures() {
+        assert_eq!(kv_three_significant(1673.88e3), "1670 kV");
+        assert_eq!(kv_three_significant(851.2e3), "851 kV");
+        assert_eq!(kv_three_significant(95.34e3), "95.3 kV");
+        assert_eq!(kv_three_significant(4.2e6), "4200 kV");
+        assert_eq!(kv_three_significant(-433.4e3), "-433 kV");
+        // Read back, the printed value is within half a unit of the third figure (< 0.5 %).
+        for v in [1.234e3, 12.34e3, 987.6e3, 1673.88e3, 2.4913e6] {
+            let text = kv_three_significant(v);
+            let back: f64 = text.trim_end_matches(" kV").parse().unwrap();
+            assert!(((back * 1e3 - v) / v).abs() < 0.005, "{v} -> {text}");
+        }
+    }
 }

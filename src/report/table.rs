@@ -320,16 +320,16 @@ fn render_margins(report: &Report, out: &mut String) {
         (Some(h), hi) => {
             let _ = writeln!(
                 out,
-                "\nHold-off voltage {} kV (limits as used), limiting: {} — {}",
-                kv(h.voltage_v),
+                "\nHold-off voltage {} (limits as used), limiting: {} — {}",
+                super::kv_three_significant(h.voltage_v),
                 h.item,
                 h.criterion_name
             );
             if let Some(hi) = hi {
                 let _ = writeln!(
                     out,
-                    "Hold-off voltage {} kV (every limit ideal), limiting: {} — {}",
-                    kv(hi.voltage_v),
+                    "Hold-off voltage {} (every limit ideal), limiting: {} — {}",
+                    super::kv_three_significant(hi.voltage_v),
                     hi.item,
                     hi.criterion_name
                 );
@@ -340,7 +340,7 @@ fn render_margins(report: &Report, out: &mut String) {
         }
     }
     for n in &report.holdoff_notes {
-        if n.starts_with("assumption") || n.starts_with("no ") {
+        if n.starts_with("assumption") || n.starts_with("no ") || n.starts_with("scaling to") {
             let _ = writeln!(out, "{n}");
         }
     }
