@@ -102,3 +102,27 @@ fn a_directory_is_refused() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("is a directory"));
 }
+
+#[test]
+fn the_template_stack_delivers_the_terminal_voltage() {
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let file = tmp.path().join("start.toml");
+    common::assert_success(&holdoff().arg("init").arg(&file).output().expect("runs"));
+    let out = holdoff()
+        .arg("ladder")
+        .arg(&file)
+        .args(["--json", "-"])
+        .output()
+        .expect("runs");
+    common::assert_success(&out);
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
+    // Ideal no-load output of an n-stage cascade: 2 n V_m (docs/references.md §8), here
+    // 2 x 4 x 25.5 kV.
+    let ideal = v["closed_form"]["ideal_no_load_v"].as_f64().expect("ideal");
+    assert!((ideal - 204e3).abs() < 1e-6 * 204e3, "{ideal}");
+    // The simulated stack with its 5 pF node strays and 0.5 mA load gives the template's
+    // 200 kV terminal within 1 % (the template is consistent with itself).
+    let mean = v["output_mean_v"].as_f64().expect("output_mean_v");
+    assert!((mean - 200e3).abs() < 0.01 * 200e3, "{mean}");
+    assert!(mean < ideal);
+}
