@@ -11,6 +11,19 @@ fn template() -> String {
     String::from_utf8(out.stdout).expect("UTF-8 template")
 }
 
+/// Writes the template with `holdoff init FILE`, then runs `command FILE --json -` on it.
+fn on_the_template(command: &str) -> std::process::Output {
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let file = tmp.path().join("start.toml");
+    common::assert_success(&holdoff().arg("init").arg(&file).output().expect("runs"));
+    holdoff()
+        .arg(command)
+        .arg(&file)
+        .args(["--json", "-"])
+        .output()
+        .expect("runs")
+}
+
 #[test]
 fn the_template_is_a_valid_design() {
     let text = template();
@@ -27,16 +40,7 @@ fn the_template_is_a_valid_design() {
 
 #[test]
 fn check_reviews_the_template() {
-    let tmp = tempfile::tempdir().expect("temp dir");
-    let file = tmp.path().join("start.toml");
-    let out = holdoff().arg("init").arg(&file).output().expect("runs");
-    common::assert_success(&out);
-    let out = holdoff()
-        .arg("check")
-        .arg(&file)
-        .args(["--json", "-"])
-        .output()
-        .expect("runs");
+    let out = on_the_template("check");
     let code = out.status.code();
     assert!(
         matches!(code, Some(0 | 1)),
@@ -105,15 +109,7 @@ fn a_directory_is_refused() {
 
 #[test]
 fn the_template_stack_delivers_the_terminal_voltage() {
-    let tmp = tempfile::tempdir().expect("temp dir");
-    let file = tmp.path().join("start.toml");
-    common::assert_success(&holdoff().arg("init").arg(&file).output().expect("runs"));
-    let out = holdoff()
-        .arg("ladder")
-        .arg(&file)
-        .args(["--json", "-"])
-        .output()
-        .expect("runs");
+    let out = on_the_template("ladder");
     common::assert_success(&out);
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
     // Ideal no-load output of an n-stage cascade: 2 n V_m (docs/references.md §8), here
