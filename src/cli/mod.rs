@@ -4,6 +4,7 @@ mod bench;
 mod check;
 mod compare;
 mod faults;
+mod init;
 mod ladder;
 mod report;
 mod size;
@@ -48,6 +49,8 @@ pub struct Cli {
 
 #[derive(Debug, Subcommand)]
 pub enum Command {
+    /// Write a commented template design (every section and key) to FILE or standard output.
+    Init(init::InitArgs),
     /// Solve the field of a design file and report peak surface fields.
     Check(check::CheckArgs),
     /// Run `check` on the built-in demo design (an invented 750 kV SF6 column).
@@ -75,6 +78,7 @@ pub fn run() -> anyhow::Result<ExitCode> {
 /// Runs one parsed command line.
 pub(crate) fn dispatch(cli: Cli) -> anyhow::Result<ExitCode> {
     match cli.command {
+        Command::Init(a) => init::run(&a),
         Command::Check(a) => check::run_check(&a),
         Command::Demo(a) => check::run_demo(&a),
         Command::Compare(a) => compare::run(&a),
