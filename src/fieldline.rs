@@ -213,10 +213,20 @@ impl Tracer<'_, '_> {
             return None;
         }
         let in_vacuum = model.vacuum.iter().any(|v| v.shape.contains(p));
-        match self.medium {
-            Medium::Gas if in_vacuum => Some(LineEnd::MediumBoundary),
-            Medium::Vacuum if !in_vacuum => Some(LineEnd::MediumBoundary),
-            _ => None,
+        let crossed = match self.medium {
+            Medium::Gas => in_vacuum,
+            Medium::Vacuum => !in_vacuum,
+            Medium::Dielectric { .. } => false,
+        };
+        if !crossed {
+            return None;
+        }
+        // A vacuum region that ends on an electrode face (the bore closed by a shield) ends the
+        // line on that electrode, even where no grid node near the point is marked as it.
+        let tol = 1e-6 * self.spacing(p);
+        match (0..model.conductors.len()).find(|&k| model.conductors[k].shape.sdf(p) <= tol) {
+            Some(index) => Some(LineEnd::Conductor { index }),
+            None => Some(LineEnd::MediumBoundary),
         }
     }
 

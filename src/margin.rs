@@ -969,6 +969,7 @@ fn vacuum_rows(
     ctx: &Ctx,
     fm: &FieldMap,
     hot: &SurfaceSample,
+    samples: &[SurfaceSample],
     lines: &mut Vec<LineSummary>,
     rows: &mut Vec<MarginRow>,
 ) -> Result<(), MarginError> {
@@ -1008,13 +1009,25 @@ fn vacuum_rows(
         &limit,
     ));
 
-    let line = fieldline::trace(fm, hot, &TraceParams::default());
+    let (line, start, first_end) = vacuum_gap_line(fm, hot, samples);
     let to = end_name(model, line.end);
-    lines.push(summary(model, &line, hot, &to));
-    let reached = matches!(line.end, LineEnd::Conductor { .. } | LineEnd::Tank)
-        && line.length_m > 0.0
-        && line.voltage_v > 0.0;
+    lines.push(summary(model, &line, &start, &to));
+    let reached = gap_reached(&line);
     let gap_item = format!("vacuum gap {name} → {to}");
+    // When the peak's own line leaves the vacuum (e.g. into the insulator beside it), the gap
+    // rows come from the strongest cathodic point whose line reaches an electrode.
+    let from_note = match first_end {
+        Some(end) => format!(
+            "; from the cathode point at ({:.1}, {:.1}) mm ({:.3} MV/m): the line from the peak \
+             reached {}",
+            start.at.r * 1e3,
+            start.at.z * 1e3,
+            start.e / 1e6,
+            end_name(model, end)
+        ),
+        None => String::new(),
+    };
+    let hot = &start;
 
     // 2. Total-voltage effect: gap voltage against V = k d^alpha (Cranberg's case by default).
     let fit = TotalVoltageFit::cranberg(c).map_err(bad_c)?;
@@ -1030,7 +1043,7 @@ fn vacuum_rows(
         )
     };
     let gap_note = format!(
-        "voltage across the {:.1} mm vacuum field-line gap to {to}",
+        "voltage across the {:.1} mm vacuum field-line gap to {to}{from_note}",
         line.length_m * 1e3
     );
     rows.push(row(
@@ -1259,6 +1272,51 @@ fn insulator_rows(
     Ok(())
 }
 
+/// Does a traced line span a gap between two electrodes?
+fn gap_reached(line: &FieldLine) -> bool {
+    matches!(line.end, LineEnd::Conductor { .. } | LineEnd::Tank)
+        && line.length_m > 0.0
+        && line.voltage_v > 0.0
+}
+
+/// Cathodic points of a conductor tried, in falling field, when the peak's own field line
+/// does not reach an electrode.
+const VACUUM_RETRIES: usize = 16;
+
+/// The field line of a vacuum gap from the cathodic hotspot `hot`: its own line when that
+/// reaches an electrode; otherwise the line of the strongest other cathodic vacuum sample of
+/// the same conductor (at least a fifth of the peak field) that does, with the end the peak's line
+/// met. When none does, the peak's line (the rows then say where it ended).
+fn vacuum_gap_line(
+    fm: &FieldMap,
+    hot: &SurfaceSample,
+    samples: &[SurfaceSample],
+) -> (FieldLine, SurfaceSample, Option<LineEnd>) {
+    let params = TraceParams::default();
+    let first = fieldline::trace(fm, hot, &params);
+    if gap_reached(&first) {
+        return (first, *hot, None);
+    }
+    let mut others: Vec<&SurfaceSample> = samples
+        .iter()
+        .filter(|s| {
+            s.conductor == hot.conductor
+                && s.medium == Medium::Vacuum
+                && s.e_normal < 0.0
+                && s.e >= 0.2 * hot.e
+                && (s.at.r != hot.at.r || s.at.z != hot.at.z)
+        })
+        .collect();
+    others.sort_by(|a, b| b.e.total_cmp(&a.e));
+    for s in others.into_iter().take(VACUUM_RETRIES) {
+        let line = fieldline::trace(fm, s, &params);
+        if gap_reached(&line) {
+            return (line, *s, Some(first.end));
+        }
+    }
+    (first, *hot, None)
+}
+
 fn is_conductor_peak(samples: &[SurfaceSample], s: &SurfaceSample) -> bool {
     samples
         .iter()
@@ -1426,7 +1484,7 @@ pub fn evaluate(
         }
     }
     for hot in hotspots(&fm, &fine.samples, false) {
-        vacuum_rows(&ctx, &fm, &hot, &mut lines, &mut rows)?;
+        vacuum_rows(&ctx, &fm, &hot, &fine.samples, &mut lines, &mut rows)?;
     }
     for index in 0..model.dielectrics.len() {
         insulator_rows(&ctx, &fm, index, &fine.samples, &mut rows)?;
