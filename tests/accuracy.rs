@@ -235,14 +235,7 @@ fn error_bars_bracket_the_true_error() {
 #[test]
 fn default_mesh_agrees_with_the_fem_references() {
     let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
-    let dir = root.join("tests/data/fem");
-    let mut jsons: Vec<_> = std::fs::read_dir(&dir)
-        .expect("tests/data/fem")
-        .flatten()
-        .map(|e| e.path())
-        .filter(|p| p.extension().is_some_and(|x| x == "json"))
-        .collect();
-    jsons.sort();
+    let jsons = common::fem_reference_files();
     let (mut n, mut bracketed, mut worst) = (0, 0, 0.0f64);
     for path in &jsons {
         let reference: serde_json::Value =

@@ -5,6 +5,8 @@
 //! are written by tools/fem_reference (tools/fem_reference/README.md says how to regenerate
 //! them); comparing holdoff with them is done elsewhere.
 
+mod common;
+
 use sha2::{Digest, Sha256};
 use std::path::Path;
 
@@ -15,14 +17,7 @@ fn hex(bytes: &[u8]) -> String {
 #[test]
 fn every_reference_matches_its_design() {
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));
-    let dir = root.join("tests/data/fem");
-    let mut jsons: Vec<_> = std::fs::read_dir(&dir)
-        .expect("tests/data/fem")
-        .flatten()
-        .map(|e| e.path())
-        .filter(|p| p.extension().is_some_and(|x| x == "json"))
-        .collect();
-    jsons.sort();
+    let jsons = common::fem_reference_files();
     let mut peaks = 0;
     for path in &jsons {
         let text = std::fs::read_to_string(path).unwrap();

@@ -98,3 +98,16 @@ pub fn assert_success(out: &Output) {
         String::from_utf8_lossy(&out.stderr)
     );
 }
+
+/// The FEM reference files under tests/data/fem (written by tools/fem_reference), sorted.
+pub fn fem_reference_files() -> Vec<std::path::PathBuf> {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/fem");
+    let mut jsons: Vec<_> = std::fs::read_dir(&dir)
+        .expect("tests/data/fem")
+        .flatten()
+        .map(|e| e.path())
+        .filter(|p| p.extension().is_some_and(|x| x == "json"))
+        .collect();
+    jsons.sort();
+    jsons
+}
