@@ -7,7 +7,7 @@ Not run in CI. Usage (from the repository root):
     python3 benches/compare_pyamg.py [--threads N] [nodes ...]
 
 It runs `holdoff bench` for each size (which prints holdoff's own timings, the fastest of three
-runs, and exports the symmetric operator), loads the exported CSR arrays, solves to 1e-10
+runs, and exports the symmetric operator), loads the exported operator and right-hand side (Matrix Market files), solves to 1e-10
 relative residual with pyamg, also the fastest of three runs, and prints seconds per unknown for
 both and their ratio. Both sides run on the same thread count N (default 1): holdoff through
 RAYON_NUM_THREADS, numpy/scipy through OMP_NUM_THREADS, OPENBLAS_NUM_THREADS and
@@ -64,13 +64,11 @@ def holdoff_bench(nodes, export_dir):
 
 
 def load(export_dir):
-    with open(os.path.join(export_dir, "shape.txt")) as f:
-        n, nnz = map(int, f.read().split())
-    indptr = np.fromfile(os.path.join(export_dir, "indptr.u32"), dtype="<u4").astype(np.int64)
-    indices = np.fromfile(os.path.join(export_dir, "indices.u32"), dtype="<u4").astype(np.int64)
-    data = np.fromfile(os.path.join(export_dir, "data.f64"), dtype="<f8")
-    b = np.fromfile(os.path.join(export_dir, "rhs.f64"), dtype="<f8")
-    return sp.csr_matrix((data, indices, indptr), shape=(n, n)), b
+    import scipy.io
+
+    a = scipy.io.mmread(os.path.join(export_dir, "operator.mtx")).tocsr()
+    b = np.asarray(scipy.io.mmread(os.path.join(export_dir, "rhs.mtx"))).ravel()
+    return a, b
 
 
 def main():

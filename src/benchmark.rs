@@ -2,7 +2,7 @@
 //! tank, on a uniform grid of a chosen size, timed from assembly to converged potential.
 //!
 //! Used by `holdoff bench`, by `cargo bench`, and by the comparison script in `benches/`,
-//! which reads the symmetric operator exported by `export_operator`.
+//! which reads the symmetric operator exported by `export_operator` in Matrix Market form.
 
 use crate::geometry::Shape;
 use crate::mesh::{Mesh, MeshError};
@@ -141,9 +141,16 @@ pub fn peak_rss_bytes() -> Option<u64> {
     Some(kb * 1024)
 }
 
-/// Writes the symmetric operator of the benchmark problem and its right-hand side as raw
-/// little-endian arrays (`indptr.u32`, `indices.u32`, `data.f64`, `rhs.f64`, and `shape.txt`)
-/// into `dir`, for an outside solver to time on the same system.
+/// File names `export_operator` writes: the operator and the right-hand side.
+pub const EXPORT_MATRIX: &str = "operator.mtx";
+pub const EXPORT_RHS: &str = "rhs.mtx";
+
+/// Writes the symmetric operator of the benchmark problem into `dir` in the Matrix Market
+/// exchange format (Boisvert, Pozo & Remington, "The Matrix Market Exchange Formats: Initial
+/// Design", NIST IR 5935, 1996; docs/references.md §18): `operator.mtx` in coordinate form
+/// (every stored entry, 1-based, written by sprs) and `rhs.mtx` in array form (one column).
+/// Values are printed in Rust's shortest round-trip form, so a reader gets the same doubles.
+/// Each file is written whole or not at all. Returns the number of rows.
 pub fn export_operator(
     nodes: usize,
     dir: &std::path::Path,
@@ -154,18 +161,23 @@ pub fn export_operator(
     let b = op.rhs(&[model.terminal_voltage]);
     std::fs::create_dir_all(dir)?;
     let matrix = op.to_csr();
-    let ip = matrix.indptr();
-    let bytes_u32 = |v: &[u32]| v.iter().flat_map(|x| x.to_le_bytes()).collect::<Vec<u8>>();
-    let bytes_f64 = |v: &[f64]| v.iter().flat_map(|x| x.to_le_bytes()).collect::<Vec<u8>>();
-    std::fs::write(dir.join("indptr.u32"), bytes_u32(ip.raw_storage()))?;
-    std::fs::write(dir.join("indices.u32"), bytes_u32(matrix.indices()))?;
-    std::fs::write(dir.join("data.f64"), bytes_f64(matrix.data()))?;
-    std::fs::write(dir.join("rhs.f64"), bytes_f64(&b))?;
-    std::fs::write(
-        dir.join("shape.txt"),
-        format!("{} {}\n", op.rows(), matrix.nnz()),
-    )?;
+    let mut text = Vec::with_capacity(32 * matrix.nnz());
+    sprs::io::write_matrix_market_to_bufwrite(&mut text, &matrix)?;
+    crate::report::write_atomic(&dir.join(EXPORT_MATRIX), &text)?;
+    crate::report::write_atomic(&dir.join(EXPORT_RHS), matrix_market_column(&b).as_bytes())?;
     Ok(op.rows())
+}
+
+/// A column vector in the Matrix Market array form.
+pub fn matrix_market_column(v: &[f64]) -> String {
+    use std::fmt::Write;
+    let mut s = String::with_capacity(24 * v.len() + 64);
+    s.push_str("%%MatrixMarket matrix array real general\n");
+    let _ = writeln!(s, "{} 1", v.len());
+    for x in v {
+        let _ = writeln!(s, "{x}");
+    }
+    s
 }
 
 #[cfg(test)]

@@ -20,7 +20,8 @@ pub struct BenchArgs {
     /// on the machine), with the median beside it.
     #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u32).range(1..=50))]
     pub repeat: u32,
-    /// Also write the symmetric operator of the first size to DIR for an outside solver.
+    /// Also write the symmetric operator of the first size and its right-hand side to DIR in
+    /// the Matrix Market format (operator.mtx, rhs.mtx), for an outside solver.
     #[arg(long, value_name = "DIR")]
     pub export: Option<PathBuf>,
     /// Instead of the solver table: the demo, the tandem check, the tandem fault replay and a
@@ -122,8 +123,10 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
     if let (Some(dir), Some(&n)) = (&args.export, args.sizes.first()) {
         match benchmark::export_operator(n, dir) {
             Ok(rows) => println!(
-                "wrote the symmetric operator ({rows} rows) to {}",
-                dir.display()
+                "wrote the symmetric operator ({rows} rows) and its right-hand side to {} ({}, {}, Matrix Market)",
+                dir.display(),
+                benchmark::EXPORT_MATRIX,
+                benchmark::EXPORT_RHS
             ),
             Err(e) => anyhow::bail!("cannot export the operator to {}: {e}", dir.display()),
         }
