@@ -54,6 +54,24 @@ pub fn analyze(
     let mut solver = Solver::new(&mesh, *params);
     let solution = solver.solve(&potentials, None)?;
     let fm = FieldMap::new(&mesh, model, &solution.phi, &potentials);
+    let energy_j = fm.energy(&solver.op);
+    let (samples, peaks, probes) = field_products(&fm, model)?;
+    Ok(Analysis {
+        mesh,
+        potentials,
+        solution,
+        samples,
+        peaks,
+        probes,
+        energy_j,
+    })
+}
+
+/// The surface samples, the conductor peaks and the probes of a solved potential, each peak
+/// and probe checked to be finite.
+type FieldProducts = (Vec<SurfaceSample>, Vec<ConductorPeak>, Vec<ProbeResult>);
+
+fn field_products(fm: &FieldMap, model: &Model) -> Result<FieldProducts, AnalysisError> {
     let samples = fm.surface_samples();
     let peaks = fm.conductor_peaks(&samples);
     let probes = model
@@ -64,7 +82,6 @@ pub fn analyze(
             field: fm.at(p.at),
         })
         .collect::<Vec<_>>();
-    let energy_j = fm.energy(&solver.op);
     for p in &peaks {
         if !p.peak_surface_field_v_per_m.is_finite() {
             return Err(AnalysisError::NotFinite {
@@ -79,14 +96,30 @@ pub fn analyze(
             });
         }
     }
+    Ok((samples, peaks, probes))
+}
 
-    Ok(Analysis {
-        mesh,
-        potentials,
-        solution,
-        samples,
-        peaks,
-        probes,
-        energy_j,
-    })
+impl Analysis {
+    /// The analysis of the same mesh with every conductor potential multiplied by `factor`,
+    /// without a solve: the field equation is linear and its boundary values all scale, so the
+    /// potential scales everywhere and the stored energy by `factor²`. `model` is the design
+    /// the scaled potentials belong to (its probes are sampled).
+    pub fn scaled(&self, model: &Model, factor: f64) -> Result<Analysis, AnalysisError> {
+        let phi: Vec<f64> = self.solution.phi.iter().map(|v| v * factor).collect();
+        let potentials: Vec<f64> = self.potentials.iter().map(|v| v * factor).collect();
+        let fm = FieldMap::new(&self.mesh, model, &phi, &potentials);
+        let (samples, peaks, probes) = field_products(&fm, model)?;
+        Ok(Analysis {
+            mesh: self.mesh.clone(),
+            potentials,
+            solution: Solution {
+                phi,
+                info: self.solution.info.clone(),
+            },
+            samples,
+            peaks,
+            probes,
+            energy_j: self.energy_j * factor * factor,
+        })
+    }
 }

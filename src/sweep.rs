@@ -7,7 +7,7 @@
 //! `conductor[terminal].corner_radius` (a table of an array chosen by its `name`, or by its
 //! 1-based position, `column[1].minor_radius`).
 
-use crate::analysis::Analysis;
+use crate::analysis::{Analysis, AnalysisError};
 use crate::design::{DesignError, from_str};
 use crate::margin::{Margins, RowMedium, evaluate};
 use crate::model::Model;
@@ -54,6 +54,9 @@ pub struct SweepPoint {
     pub worst_gas_margin: Option<f64>,
     pub holdoff_voltage_v: Option<f64>,
     pub meets_design_factor: bool,
+    /// Why the design cannot be built or meshed at this value (then there are no margins and
+    /// the point does not meet the design factor); the sweep goes on past such a point.
+    pub unbuildable: Option<String>,
 }
 
 /// The least value that meets the design factor, by bisection.
@@ -72,35 +75,44 @@ pub struct LeastValue {
     pub note: Option<String>,
 }
 
-/// The SI unit written into the design file for a dimension.
-fn si_unit(dim: Dimension) -> &'static str {
-    match dim {
-        Dimension::Length => "m",
-        Dimension::Voltage => "V",
-        Dimension::Field => "V/m",
-        Dimension::Pressure => "Pa",
-        Dimension::Temperature => "K",
-        Dimension::Capacitance => "F",
-        Dimension::Resistance => "Ohm",
-        Dimension::Current => "A",
-        Dimension::Frequency => "Hz",
-        Dimension::Energy => "J",
-        Dimension::Power => "W",
-        Dimension::Ratio => "%",
-    }
-}
-
-/// The value with its unit as the design file takes it.
+/// The value with its unit as the design file takes it, in the unit an engineer reads it in
+/// (the unit `units::format_si` chooses: "20 mm", not "2e-2 m"), to nine significant figures
+/// so that the design gets the swept value, not a rounded one.
 pub fn value_text(v: f64, dim: Dimension) -> String {
-    match dim {
-        Dimension::Ratio => format!("{} %", v * 100.0),
-        _ => format!("{v:e} {}", si_unit(dim)),
+    let shown = crate::units::format_si(v, dim);
+    let unit = shown
+        .split_whitespace()
+        .last()
+        .and_then(crate::units::lookup_unit)
+        .filter(|u| u.dimension == dim && u.factor != 0.0);
+    let Some(u) = unit else {
+        return shown;
+    };
+    let x = (v - u.offset) / u.factor;
+    let mut s = format!("{:.*e}", 8, x);
+    // 1.23450000e3 -> 1234.5 when the exponent is small, else keep the exponent form.
+    if let Some((_, e)) = s.split_once('e')
+        && let Ok(e) = e.parse::<i32>()
+        && (-4..=8).contains(&e)
+    {
+        let decimals = (8 - e).max(0) as usize;
+        s = format!("{x:.decimals$}");
+        if s.contains('.') {
+            s = s.trim_end_matches('0').trim_end_matches('.').to_string();
+        }
     }
+    if s == "-0" {
+        s = "0".into();
+    }
+    format!("{s} {}", u.symbol)
 }
 
-/// Writes `value` (a string with its unit) at `path` in the design text.
+/// Writes `value` (a string with its unit) at `path` in the design text. Only the value's
+/// own characters change, so every line and column of the file stays where it was and the
+/// diagnostics of an edited design point at the lines of the original file.
 pub fn set_value(text: &str, path: &str, value: &str) -> Result<String, SweepError> {
-    let mut doc: toml::Table = toml::from_str(text).map_err(|e| SweepError::Toml(e.to_string()))?;
+    use toml::de::{DeTable, DeValue};
+    let doc = DeTable::parse(text).map_err(|e| SweepError::Toml(e.to_string()))?;
     let err = |why: String| SweepError::Path {
         path: path.to_string(),
         why,
@@ -109,18 +121,22 @@ pub fn set_value(text: &str, path: &str, value: &str) -> Result<String, SweepErr
     let Some((leaf, tables)) = parts.split_last() else {
         return Err(err("the path is empty".into()));
     };
-    let mut cur: &mut toml::Table = &mut doc;
+    let get = |t: &'_ DeTable<'_>, key: &str| -> Option<usize> {
+        t.iter().position(|(k, _)| k.get_ref().as_ref() == key)
+    };
+    let mut cur: &DeTable<'_> = doc.get_ref();
     for seg in tables {
         let (name, sel) = match seg.find('[') {
             Some(k) if seg.ends_with(']') => (&seg[..k], Some(&seg[k + 1..seg.len() - 1])),
             _ => (*seg, None),
         };
-        let Some(v) = cur.get_mut(name) else {
+        let Some(at) = get(cur, name) else {
             return Err(err(format!("there is no table '{name}'")));
         };
+        let v = cur.iter().nth(at).map(|(_, v)| v.get_ref());
         cur = match (v, sel) {
-            (toml::Value::Table(t), None) => t,
-            (toml::Value::Array(items), Some(sel)) => {
+            (Some(DeValue::Table(t)), None) => t,
+            (Some(DeValue::Array(items)), Some(sel)) => {
                 let index = match sel.parse::<usize>() {
                     Ok(n) if n >= 1 && n <= items.len() => n - 1,
                     Ok(n) => {
@@ -131,15 +147,23 @@ pub fn set_value(text: &str, path: &str, value: &str) -> Result<String, SweepErr
                     }
                     Err(_) => items
                         .iter()
-                        .position(|t| t.get("name").and_then(|n| n.as_str()) == Some(sel))
+                        .position(|t| match t.get_ref() {
+                            DeValue::Table(t) => get(t, "name").is_some_and(|k| {
+                                matches!(
+                                    t.iter().nth(k).map(|(_, v)| v.get_ref()),
+                                    Some(DeValue::String(n)) if n.as_ref() == sel
+                                )
+                            }),
+                            _ => false,
+                        })
                         .ok_or_else(|| err(format!("no entry of '{name}' has name = \"{sel}\"")))?,
                 };
-                match items.get_mut(index) {
-                    Some(toml::Value::Table(t)) => t,
+                match items.get(index).map(|v| v.get_ref()) {
+                    Some(DeValue::Table(t)) => t,
                     _ => return Err(err(format!("entry {sel} of '{name}' is not a table"))),
                 }
             }
-            (toml::Value::Array(_), None) => {
+            (Some(DeValue::Array(_)), None) => {
                 return Err(err(format!(
                     "'{name}' is a list of tables: choose one, as {name}[NAME] or {name}[1]"
                 )));
@@ -147,8 +171,8 @@ pub fn set_value(text: &str, path: &str, value: &str) -> Result<String, SweepErr
             _ => return Err(err(format!("'{name}' is not a table"))),
         };
     }
-    match cur.get_mut(*leaf) {
-        Some(v @ toml::Value::String(_)) => *v = toml::Value::String(value.to_string()),
+    let span = match get(cur, leaf).and_then(|k| cur.iter().nth(k)) {
+        Some((_, v)) if matches!(v.get_ref(), DeValue::String(_)) => v.span(),
         Some(_) => {
             return Err(err(format!(
                 "'{leaf}' is not a quantity with a unit, so it cannot be swept"
@@ -159,8 +183,13 @@ pub fn set_value(text: &str, path: &str, value: &str) -> Result<String, SweepErr
                 "there is no key '{leaf}' (it must be set to be swept)"
             )));
         }
-    }
-    toml::to_string(&doc).map_err(|e| SweepError::Toml(e.to_string()))
+    };
+    let literal = toml::Value::String(value.to_string()).to_string();
+    Ok(format!(
+        "{}{literal}{}",
+        &text[..span.start],
+        &text[span.end..]
+    ))
 }
 
 fn summarise(m: &Margins, value_si: f64, value: String) -> SweepPoint {
@@ -178,6 +207,21 @@ fn summarise(m: &Margins, value_si: f64, value: String) -> SweepPoint {
         worst_gas_margin: worst_gas,
         holdoff_voltage_v: m.holdoff.as_ref().map(|h| h.voltage_v),
         meets_design_factor: !m.any_fail(),
+        unbuildable: None,
+    }
+}
+
+/// A point at which the design cannot be built, with the diagnostics that say why.
+fn unbuildable(value_si: f64, value: String, why: String) -> SweepPoint {
+    SweepPoint {
+        value_si,
+        value,
+        worst_margin: None,
+        worst_item: None,
+        worst_gas_margin: None,
+        holdoff_voltage_v: None,
+        meets_design_factor: false,
+        unbuildable: Some(why),
     }
 }
 
@@ -199,9 +243,10 @@ fn model_at(
     Ok((model, value))
 }
 
-/// A field solved once for every value of a parameter that moves neither geometry nor
-/// potentials (the gas, its pressure and temperature, the `[checks]` overrides): only the
-/// breakdown limits change, so each value needs its margins and no solve.
+/// A field solved once for every value of a parameter that moves no geometry: the gas, its
+/// pressure and temperature and the `[checks]` overrides enter only the breakdown limits, so
+/// each value needs its margins and no solve; the terminal voltage scales every potential
+/// when the grading divides it linearly, and the field is then the shared one scaled.
 struct SharedField {
     model: Model,
     fine: Analysis,
@@ -214,6 +259,53 @@ fn same_field(a: &Model, b: &Model) -> bool {
     b.gas.clone_from(&a.gas);
     b.checks.clone_from(&a.checks);
     *a == b
+}
+
+/// Whether two models differ at most in the terminal voltage besides the gas and the
+/// `[checks]` overrides (the same geometry; whether the potentials scale is checked apart).
+fn same_geometry(a: &Model, b: &Model) -> bool {
+    let mut b = b.clone();
+    b.terminal_voltage = a.terminal_voltage;
+    same_field(a, &b)
+}
+
+impl SharedField {
+    /// The factor that turns the shared field into the field of `model`: 1 for the same
+    /// field; the ratio of terminal voltages when only the terminal voltage differs and the
+    /// conductor potentials of `model` (from its own stack and grading) are the shared ones
+    /// times that ratio, to 1e-12 of the largest; `None` when the field must be solved.
+    fn factor_for(&self, model: &Model) -> Result<Option<f64>, SweepError> {
+        if same_field(&self.model, model) {
+            return Ok(Some(1.0));
+        }
+        let v0 = self.model.terminal_voltage;
+        if !same_geometry(&self.model, model) || v0 == 0.0 || !v0.is_finite() {
+            return Ok(None);
+        }
+        let factor = model.terminal_voltage / v0;
+        // Stage voltages enter only the potentials of conductors drawn at a stage; the
+        // stack's simulation is run only when there are such conductors.
+        let staged = model
+            .conductors
+            .iter()
+            .any(|c| matches!(c.potential, crate::model::PotentialSpec::Stage { .. }));
+        let stack = if staged {
+            crate::stack::analyze_stack(model, &SolverParams::default(), &Default::default())
+                .map_err(ReviewError::from)?
+        } else {
+            None
+        };
+        let stage_v = stack.as_ref().map(|s| s.stage_voltages());
+        let potentials =
+            crate::grading::potentials(model, stage_v.as_deref()).map_err(ReviewError::from)?;
+        let largest = potentials.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+        let linear = potentials.len() == self.fine.potentials.len()
+            && potentials
+                .iter()
+                .zip(&self.fine.potentials)
+                .all(|(p, q)| (p - factor * q).abs() <= 1e-12 * largest);
+        Ok(linear.then_some(factor))
+    }
 }
 
 /// The shared field of a sweep from `a` to `b` when the parameter moves no field (the models
@@ -231,7 +323,7 @@ fn shared_field(
     ) else {
         return Ok(None);
     };
-    if !same_field(&ma, &mb) {
+    if !same_geometry(&ma, &mb) {
         return Ok(None);
     }
     let fine = review(&ma, &SolverParams::default(), false)?.fine;
@@ -250,7 +342,7 @@ pub fn evaluate_at(
 }
 
 /// As [`evaluate_at`], taking the field from `shared` when the model at `v` has the same
-/// field (then only the margins are evaluated).
+/// field or the same one scaled (then only the margins are evaluated).
 fn evaluate_sharing(
     text: &str,
     file: &str,
@@ -259,15 +351,33 @@ fn evaluate_sharing(
     dim: Dimension,
     shared: Option<&SharedField>,
 ) -> Result<SweepPoint, SweepError> {
-    let (model, value) = model_at(text, file, path, v, dim)?;
+    let (model, value) = match model_at(text, file, path, v, dim) {
+        Ok(m) => m,
+        Err(e @ SweepError::Design { .. }) => {
+            return Ok(unbuildable(v, value_text(v, dim), e.to_string()));
+        }
+        Err(e) => return Err(e),
+    };
     if let Some(s) = shared
-        && same_field(&s.model, &model)
+        && let Some(factor) = s.factor_for(&model)?
     {
-        let m = evaluate(&model, &s.fine, None).map_err(ReviewError::from)?;
+        let m = if factor == 1.0 {
+            evaluate(&model, &s.fine, None)
+        } else {
+            let fine = s.fine.scaled(&model, factor).map_err(ReviewError::from)?;
+            evaluate(&model, &fine, None)
+        }
+        .map_err(ReviewError::from)?;
         return Ok(summarise(&m, v, value));
     }
-    let r = review(&model, &SolverParams::default(), false)?;
-    Ok(summarise(&r.margins, v, value))
+    match review(&model, &SolverParams::default(), false) {
+        Ok(r) => Ok(summarise(&r.margins, v, value)),
+        Err(ReviewError::Analysis(AnalysisError::Mesh(e))) => {
+            let why = format!("the design with {path} = {value} cannot be meshed: {e}");
+            Ok(unbuildable(v, value, why))
+        }
+        Err(e) => Err(e.into()),
+    }
 }
 
 /// The range from two quantities with units, of the same dimension.

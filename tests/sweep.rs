@@ -90,6 +90,7 @@ fn alternating_pass_and_fail_is_reported() {
         worst_gas_margin: None,
         holdoff_voltage_v: None,
         meets_design_factor: pass,
+        unbuildable: None,
     };
     let sampled = vec![
         point(0.04, false),
@@ -132,5 +133,77 @@ fn pressure_sweep_with_one_solve_equals_a_full_review_at_each_value() {
             full.holdoff_voltage_v.unwrap(),
         );
         assert!((a - b).abs() <= 1e-9 * b.abs(), "{a} against {b}");
+    }
+}
+
+/// A terminal-voltage sweep solves the field once and scales it (the field equation is linear
+/// and the demo's grading divides the terminal voltage linearly); a point equals a full review
+/// at its voltage, a second and independent way to the same numbers. The stored energy goes
+/// as the square of the voltage, W = ½CV² (any electrostatics text).
+#[test]
+fn voltage_sweep_by_scaling_equals_a_full_review_at_a_swept_value() {
+    let text = demo();
+    let span = range("600 kV", "800 kV").expect("range");
+    let points = sweep(&text, "demo", "terminal.voltage", span, 4).expect("sweep");
+    let p = &points[1];
+    let full = evaluate_at(&text, "demo", "terminal.voltage", p.value_si, span.2).expect("review");
+    assert_eq!(p.worst_item, full.worst_item);
+    assert_eq!(p.meets_design_factor, full.meets_design_factor);
+    let (a, b) = (p.worst_margin.unwrap(), full.worst_margin.unwrap());
+    assert!((a - b).abs() <= 1e-9 * b.abs(), "{a} against {b}");
+    let (a, b) = (p.worst_gas_margin.unwrap(), full.worst_gas_margin.unwrap());
+    assert!((a - b).abs() <= 1e-9 * b.abs(), "{a} against {b}");
+
+    // The scaled analysis itself: potentials ×k, energy ×k², peaks ×k.
+    let model = holdoff::design::from_str(&text, "demo").expect("demo loads");
+    let fine = holdoff::review::review(&model, &Default::default(), false)
+        .expect("review")
+        .fine;
+    let k = 0.75;
+    let scaled = fine.scaled(&model, k).expect("scaled");
+    assert!((scaled.energy_j - k * k * fine.energy_j).abs() <= 1e-12 * fine.energy_j);
+    for (a, b) in scaled.peaks.iter().zip(&fine.peaks) {
+        let (a, b) = (a.peak_surface_field_v_per_m, b.peak_surface_field_v_per_m);
+        assert!((a - k * b).abs() <= 1e-9 * b.abs(), "{a} against {k} x {b}");
+    }
+}
+
+/// A pitch at which neighbouring rings touch makes that one value unbuildable: the sweep
+/// marks it and goes on with the others, and the diagnostics point at the pitch's line of
+/// the original file and give the value in millimetres.
+#[test]
+fn an_unbuildable_value_is_marked_and_the_sweep_goes_on() {
+    let text = demo();
+    let span = range("20 mm", "45 mm").expect("range");
+    let points = sweep(&text, "demo", "column[column].pitch", span, 2).expect("sweep");
+    let why = points[0].unbuildable.as_deref().expect("20 mm rings touch");
+    assert!(!points[0].meets_design_factor && points[0].worst_margin.is_none());
+    assert!(points[1].unbuildable.is_none() && points[1].worst_margin.is_some());
+    let line = 1 + text
+        .lines()
+        .position(|l| l.trim_start().starts_with("pitch ="))
+        .expect("the demo sets a pitch");
+    assert!(why.contains(&format!("demo:{line}:")), "{why}");
+    assert!(why.contains("= 20 mm"), "{why}");
+    assert!(!why.contains("e-2"), "{why}");
+}
+
+#[test]
+fn swept_values_are_written_in_the_unit_an_engineer_reads() {
+    use holdoff::sweep::value_text;
+    use holdoff::units::{Dimension, parse};
+    for (v, dim, shown) in [
+        (0.02, Dimension::Length, "20 mm"),
+        (628_571.428_571_428_6, Dimension::Voltage, "628.571429 kV"),
+        (3.5e5, Dimension::Pressure, "3.5 bar"),
+        (293.15, Dimension::Temperature, "20 degC"),
+    ] {
+        let text = value_text(v, dim);
+        assert_eq!(text, shown);
+        let back = parse(&text, dim).expect("the design reads it back");
+        assert!(
+            (back - v).abs() <= 1e-8 * v.abs(),
+            "{text}: {back} against {v}"
+        );
     }
 }

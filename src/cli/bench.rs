@@ -25,7 +25,7 @@ pub struct BenchArgs {
     #[arg(long, value_name = "DIR")]
     pub export: Option<PathBuf>,
     /// Instead of the solver table: the demo, the tandem check, the tandem fault replay and a
-    /// pressure sweep of the demo end to end, each in its own process with its peak memory,
+    /// pressure and a voltage sweep of the demo end to end, each in its own process with its peak memory,
     /// then the fault replay's scenario work on 1 and 2 threads in one run.
     #[arg(long)]
     pub end_to_end: bool,
@@ -181,6 +181,21 @@ fn end_to_end(examples: &Path) -> Result<ExitCode> {
                 "2 bar".into(),
                 "--to".into(),
                 "4 bar".into(),
+                "--steps".into(),
+                "8".into(),
+            ],
+        ),
+        (
+            "demo voltage sweep, 8 points",
+            vec![
+                "sweep".into(),
+                s(&demo),
+                "--vary".into(),
+                "terminal.voltage".into(),
+                "--from".into(),
+                "600 kV".into(),
+                "--to".into(),
+                "800 kV".into(),
                 "--steps".into(),
                 "8".into(),
             ],

@@ -68,6 +68,22 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
+    // A value at which the design cannot be built is reported and the sweep goes on; when no
+    // value can be built there is nothing to show.
+    let broken: Vec<&str> = points
+        .iter()
+        .filter_map(|p| p.unbuildable.as_deref())
+        .collect();
+    for why in &broken {
+        eprintln!("warning: {why}");
+    }
+    if broken.len() == points.len() {
+        eprintln!(
+            "error: the design cannot be built at any value of {} from {} to {}",
+            a.vary, a.from, a.to
+        );
+        return Ok(ExitCode::from(2));
+    }
     let least = if a.least {
         least_value_sampled(&text, &file, &a.vary, span, 1e-3, &points)?
     } else {
@@ -118,7 +134,11 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         t.add_row(vec![
             Cell::new(holdoff::units::format_si(p.value_si, span.2)),
             right(num(p.worst_margin)),
-            Cell::new(p.worst_item.as_deref().unwrap_or("-")),
+            Cell::new(if p.unbuildable.is_some() {
+                "unbuildable (see the warning above)"
+            } else {
+                p.worst_item.as_deref().unwrap_or("-")
+            }),
             right(num(p.worst_gas_margin)),
             right(
                 p.holdoff_voltage_v
