@@ -232,34 +232,70 @@ impl Level {
         let block = |cols: std::ops::Range<usize>| {
             let [_, w, e, s, n, sw, se, nw, ne] = st;
             let first = cols.start + (cols.start + colour) % 2;
-            // SAFETY: a block writes `x` and `dp` only in its own columns of this colour; it
-            // reads `x` in the neighbouring columns, which are of the other colour and are
-            // written by no block of this pass. Blocks cover disjoint columns, so no element
-            // is written by two tasks or read by one while another writes it. Access is by raw
-            // pointer only, so no references alias.
+            if first >= cols.end {
+                return;
+            }
+            // The last column of this colour in the block.
+            let last = first + 2 * ((cols.end - 1 - first) / 2);
+            let len = last - first + 1;
+            // SAFETY: a block writes `x` only in its own columns of this colour and `dp` only
+            // in its own columns; it reads `x` in the columns first − 1 ..= last + 1, of which
+            // those of this colour are its own (not written during the elimination, which
+            // only reads `x`) and the others are of the other colour, written by no block of
+            // this pass. Blocks cover disjoint columns, so no element is written by two tasks
+            // or read by one while another writes it. The slices of one row below never
+            // overlap a slice written at the same time.
             unsafe {
                 let (xp, dq) = (x.get(), dp.get());
+                // Elimination over the contiguous columns first ..= last, both colours, so
+                // that the loop vectorises; the values left in `dp` at the columns of the
+                // other colour are scratch and never read.
                 for j in 0..nz {
-                    let base = (j + 1) * pw + 1;
-                    for i in (first..cols.end).step_by(2) {
-                        let p = base + i;
-                        let mut rhs = b[p] - w[p] * *xp.add(p - 1) - e[p] * *xp.add(p + 1);
-                        if nine {
-                            rhs -= sw[p] * *xp.add(p - pw - 1)
-                                + se[p] * *xp.add(p - pw + 1)
-                                + nw[p] * *xp.add(p + pw - 1)
-                                + ne[p] * *xp.add(p + pw + 1);
+                    let p0 = (j + 1) * pw + 1 + first;
+                    let row = p0..p0 + len;
+                    let xs =
+                        |off: isize| std::slice::from_raw_parts(xp.offset(p0 as isize + off), len);
+                    let (xl, xr) = (xs(-1), xs(1));
+                    let prev = std::slice::from_raw_parts(dq.add(p0 - pw), len);
+                    let cur = std::slice::from_raw_parts_mut(dq.add(p0), len);
+                    let (bb, ww, ee, ss, ii) = (
+                        &b[row.clone()],
+                        &w[row.clone()],
+                        &e[row.clone()],
+                        &s[row.clone()],
+                        &inv[row.clone()],
+                    );
+                    if nine {
+                        let pw = pw as isize;
+                        let (xdl, xdr, xul, xur) =
+                            (xs(-pw - 1), xs(-pw + 1), xs(pw - 1), xs(pw + 1));
+                        let (a, b2, c2, d) = (
+                            &sw[row.clone()],
+                            &se[row.clone()],
+                            &nw[row.clone()],
+                            &ne[row],
+                        );
+                        for k in 0..len {
+                            let rhs = bb[k]
+                                - ww[k] * xl[k]
+                                - ee[k] * xr[k]
+                                - (a[k] * xdl[k] + b2[k] * xdr[k] + c2[k] * xul[k] + d[k] * xur[k]);
+                            cur[k] = (rhs - ss[k] * prev[k]) * ii[k];
                         }
-                        *dq.add(p) = (rhs - s[p] * *dq.add(p - pw)) * inv[p];
+                    } else {
+                        for k in 0..len {
+                            let rhs = bb[k] - ww[k] * xl[k] - ee[k] * xr[k];
+                            cur[k] = (rhs - ss[k] * prev[k]) * ii[k];
+                        }
                     }
                 }
                 let top = nz * pw + 1;
-                for i in (first..cols.end).step_by(2) {
+                for i in (first..=last).step_by(2) {
                     *xp.add(top + i) = *dq.add(top + i);
                 }
                 for j in (0..nz - 1).rev() {
                     let base = (j + 1) * pw + 1;
-                    for i in (first..cols.end).step_by(2) {
+                    for i in (first..=last).step_by(2) {
                         let p = base + i;
                         *xp.add(p) = *dq.add(p) - n[p] * inv[p] * *xp.add(p + pw);
                     }
