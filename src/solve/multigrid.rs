@@ -73,8 +73,11 @@ struct Level {
     /// Scratch: line right-hand sides during relaxation, the residual after it.
     dp: Vec<f32>,
     /// Reciprocal Thomas pivots of the z-lines, computed once (the upper factors are the north
-    /// coefficients times these); r-line pivots are formed during each solve.
+    /// coefficients times these).
     z_inv: Vec<f32>,
+    /// Reciprocal Thomas pivots of the r-lines, computed once (upper factors: east × these),
+    /// which takes the division out of the sequential recurrence of every r-line solve.
+    r_inv: Vec<f32>,
 }
 
 /// Settings of the V-cycle.
@@ -157,6 +160,7 @@ impl Level {
             b: full(),
             dp: full(),
             z_inv: full(),
+            r_inv: full(),
         }
     }
 
@@ -174,6 +178,16 @@ impl Level {
                 up_prev = n[p] * inv;
             }
         }
+        let (w, e) = (&self.st[1], &self.st[2]);
+        for j in 0..nz {
+            let mut up = 0.0f32;
+            for i in 0..nr {
+                let p = (j + 1) * pw + 1 + i;
+                let inv = 1.0 / (c[p] - w[p] * up);
+                self.r_inv[p] = inv;
+                up = e[p] * inv;
+            }
+        }
     }
 
     #[inline(always)]
@@ -184,7 +198,7 @@ impl Level {
     fn bytes(&self) -> usize {
         let np = self.pw * (self.nz + 2);
         let slots = if self.nine { 9 } else { 5 };
-        np * 4 * (slots + 4) + np
+        np * 4 * (slots + 5) + np
     }
 
     /// Exact solves on every r-line of one colour (j ≡ colour mod 2); the lines of one colour
@@ -193,6 +207,7 @@ impl Level {
         let (nr, pw, nz, nine) = (self.nr, self.pw, self.nz, self.nine);
         let st = &self.st;
         let b = &self.b;
+        let r_inv = &self.r_inv;
         let x = Shared(self.x.as_mut_ptr());
         let dp = Shared(self.dp.as_mut_ptr());
         let line = |j: usize| {
@@ -209,7 +224,7 @@ impl Level {
                     std::slice::from_raw_parts_mut(dp.get().add(base), nr),
                 )
             };
-            relax_one_r_line(st, b, base, nr, nine, xd, xu, xrow, out);
+            relax_one_r_line(st, b, r_inv, base, nr, nine, xd, xu, xrow, out);
         };
         let lines = (colour..nz).step_by(2);
         if nr * nz >= PARALLEL_NODES {
@@ -466,8 +481,7 @@ impl Multigrid {
     /// and the processor, from the stencil width and the sweeps of every level: each pass
     /// streams the arrays it reads and writes once (single precision, 4 bytes; a mask byte),
     /// and what one pass leaves in cache is not counted again. Per node and pass: a line
-    /// relaxation reads the stencil slots, b and x and writes x and its scratch (z-lines also
-    /// read their pivots); the residual reads the stencil, b and x and writes the scratch; the
+    /// relaxation reads the stencil slots, b, x and its pivots and writes x and its scratch; the residual reads the stencil, b and x and writes the scratch; the
     /// restriction reads the scratch and mask; the prolongation reads and writes x and reads
     /// the mask; the zero start writes x. The finest level also converts the double-precision
     /// residual in (8 + 4) and the correction out (4 + 8).
@@ -482,7 +496,7 @@ impl Multigrid {
                 continue;
             }
             let slots = if l.nine { 9.0 } else { 5.0 };
-            let r_pass = 4.0 * (slots + 4.0);
+            let r_pass = 4.0 * (slots + 5.0);
             let z_pass = 4.0 * (slots + 5.0);
             let per_sweep = if self.params.symmetric {
                 2.0 * (r_pass + z_pass)
@@ -934,14 +948,15 @@ impl Shared {
     }
 }
 
-/// One r-line: right-hand side from the rows below and above, then the Thomas solve. The
-/// line's own row of `x` is not part of its right-hand side, so it holds the upper factors of
-/// the elimination until the back substitution overwrites them with the solution.
-/// `xd` and `xu` are the padded rows below and above (one ghost each side).
+/// One r-line: right-hand side from the rows below and above, then the Thomas solve with the
+/// reciprocal pivots `r_inv` factored once (upper factors east × pivot), so the sequential
+/// recurrences hold no division. `xd` and `xu` are the padded rows below and above (one ghost
+/// each side).
 #[allow(clippy::too_many_arguments)]
 fn relax_one_r_line(
     st: &[Vec<f32>; 9],
     b: &[f32],
+    r_inv: &[f32],
     base: usize,
     nr: usize,
     nine: bool,
@@ -950,7 +965,7 @@ fn relax_one_r_line(
     xrow: &mut [f32],
     out: &mut [f32],
 ) {
-    let [c, w, e, s, n, sw, se, nw, ne] = st;
+    let [_, w, e, s, n, sw, se, nw, ne] = st;
     let row = base..base + nr;
     let (ss, nn, bb) = (&s[row.clone()], &n[row.clone()], &b[row.clone()]);
     let (xdc, xuc) = (&xd[1..nr + 1], &xu[1..nr + 1]);
@@ -970,19 +985,16 @@ fn relax_one_r_line(
             out[k] -= a[k] * xdl[k] + b2[k] * xdr[k] + c2[k] * xul[k] + d[k] * xur[k];
         }
     }
-    let (cc, ww, ee) = (&c[row.clone()], &w[row.clone()], &e[row]);
-    let (mut prev, mut up) = (0.0f32, 0.0f32);
+    let (ww, ee, inv) = (&w[row.clone()], &e[row.clone()], &r_inv[row]);
+    let mut prev = 0.0f32;
     for k in 0..nr {
-        let inv = 1.0 / (cc[k] - ww[k] * up);
-        up = ee[k] * inv;
-        xrow[k] = up;
-        let v = (out[k] - ww[k] * prev) * inv;
+        let v = (out[k] - ww[k] * prev) * inv[k];
         out[k] = v;
         prev = v;
     }
     let mut next = 0.0f32;
     for k in (0..nr).rev() {
-        let v = out[k] - xrow[k] * next;
+        let v = out[k] - ee[k] * inv[k] * next;
         xrow[k] = v;
         next = v;
     }
