@@ -1548,7 +1548,10 @@ pub fn evaluate(
         if v < 0.0 {
             holdoff_notes.push(
                 "negative terminal: the hold-off voltage is the magnitude at this polarity; \
-                 cathodic surfaces are those where the field points into the metal"
+                 cathodic surfaces are those where the field points into the metal, and the \
+                 vacuum cathode-field and Cranberg rows are taken there; the gas criteria used \
+                 (Paschen, critical reduced field, streamer integral, Peek's onset) carry no \
+                 polarity term as published, so the gas rows are the same at either polarity"
                     .to_string(),
             );
         }

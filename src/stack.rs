@@ -207,12 +207,14 @@ pub fn reconcile(terminal_v: f64, stack: &StackAnalysis) -> TerminalReconciliati
     };
     let within_tolerance = relative.abs() <= TERMINAL_MISMATCH_TOLERANCE;
     let kv = crate::units::kv_three_significant;
+    // The multiplier's diodes set its polarity; it is stated in the terminal's.
+    let sign = if terminal_v < 0.0 { -1.0 } else { 1.0 };
     let head = format!(
         "The field is solved at terminal.voltage = {}, which governs every margin; the \
          multiplier gives {} at no load and {} at load ({:+.1} % at no load, tolerance {:.0} %)",
         kv(terminal_v),
-        kv(no_load_v),
-        kv(loaded_v),
+        kv(sign * no_load_v),
+        kv(sign * loaded_v),
         100.0 * relative,
         100.0 * TERMINAL_MISMATCH_TOLERANCE
     );
@@ -223,15 +225,15 @@ pub fn reconcile(terminal_v: f64, stack: &StackAnalysis) -> TerminalReconciliati
             "{head}: at no load the terminal can reach {}, where every margin is {:.3} x the \
              printed one (the field scales with the voltage); set terminal.voltage to the \
              no-load output or limit the drive.",
-            kv(no_load_v),
+            kv(sign * no_load_v),
             v / no_load_v
         )
     } else {
         format!(
             "{head}: the stack as given does not reach the terminal voltage solved; the margins \
-             hold for {} but the machine runs at most at {}.",
+             hold for {} but the machine reaches at most {}.",
             kv(terminal_v),
-            kv(no_load_v)
+            kv(sign * no_load_v)
         )
     };
     TerminalReconciliation {

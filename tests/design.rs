@@ -46,7 +46,7 @@ fn demo_a_expands_its_column_with_tube_electrodes() {
         }
     );
     assert_eq!((m.ends, m.side), (Wall::Grounded, Wall::Grounded));
-    assert!(close(m.terminal_voltage, 800e3));
+    assert!(close(m.terminal_voltage, -800e3)); // an electron machine: negative terminal
     let gas = m.gas.as_ref().unwrap();
     assert_eq!(gas.species, "SF6");
     assert_eq!(gas.components, vec![("SF6".to_string(), 1.0)]);

@@ -140,6 +140,16 @@ pub struct Report {
 /// SHA-256 of the design text, hex.
 pub use crate::units::kv_three_significant;
 
+/// What follows a hold-off voltage: nothing for a positive terminal; for a negative one, that
+/// the hold-off is a magnitude (the terminal would reach minus that).
+pub fn holdoff_polarity(terminal_v: f64) -> &'static str {
+    if terminal_v < 0.0 {
+        "; a magnitude, the terminal is negative"
+    } else {
+        ""
+    }
+}
+
 pub fn sha256_hex(text: &str) -> String {
     let digest = Sha256::digest(text.as_bytes());
     digest.iter().map(|b| format!("{b:02x}")).collect()
