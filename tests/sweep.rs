@@ -143,7 +143,7 @@ fn pressure_sweep_with_one_solve_equals_a_full_review_at_each_value() {
 #[test]
 fn voltage_sweep_by_scaling_equals_a_full_review_at_a_swept_value() {
     let text = demo();
-    let span = range("600 kV", "800 kV").expect("range");
+    let span = range("-600 kV", "-800 kV").expect("range");
     let points = sweep(&text, "demo", "terminal.voltage", span, 4).expect("sweep");
     let p = &points[1];
     let full = evaluate_at(&text, "demo", "terminal.voltage", p.value_si, span.2).expect("review");
@@ -194,7 +194,7 @@ fn swept_values_are_written_in_the_unit_an_engineer_reads() {
     use holdoff::units::{Dimension, parse};
     for (v, dim, shown) in [
         (0.02, Dimension::Length, "20 mm"),
-        (628_571.428_571_428_6, Dimension::Voltage, "628.571429 kV"),
+        (-628_571.428_571_428_6, Dimension::Voltage, "-628.571429 kV"),
         (3.5e5, Dimension::Pressure, "3.5 bar"),
         (293.15, Dimension::Temperature, "20 degC"),
     ] {
