@@ -1014,7 +1014,7 @@ fn network_notes(model: &Model, networks: &[Network]) -> Vec<String> {
                             names.join(", "),
                             crate::units::format_si(rl, crate::units::Dimension::Resistance),
                             rc / rl,
-                            crate::design::materials::RESISTIVITY_SOURCE
+                            crate::materials::RESISTIVITY_SOURCE
                         )),
                         _ => notes.push(format!(
                             "column '{}': no insulator with a known material spans its gaps, so \
