@@ -51,7 +51,7 @@ use crate::breakdown::{
 use crate::field::{FieldMap, InsulatorSample, Medium, SurfaceSample};
 use crate::fieldline::{self, FieldLine, LineEnd, TraceParams};
 use crate::geometry::{Point, Shape};
-use crate::mesh::TANK;
+use crate::mesh::{FixedId, Holder};
 use crate::model::{Gas, Model, PotentialSpec};
 use crate::study::GridStudy;
 
@@ -325,20 +325,20 @@ fn override_of(model: &Model, key: &str) -> Option<f64> {
 }
 
 /// Names a fixed surface.
-fn name_of(model: &Model, id: u32) -> String {
-    if id == TANK {
-        "tank".to_string()
-    } else {
-        model
+fn name_of(model: &Model, id: FixedId) -> String {
+    match id.holder() {
+        Holder::Tank => "tank".to_string(),
+        Holder::Conductor(c) => model
             .conductors
-            .get(id as usize)
-            .map_or_else(|| format!("conductor {id}"), |c| c.name.clone())
+            .get(c)
+            .map_or_else(|| format!("conductor {c}"), |c| c.name.clone()),
+        Holder::Free => "no conductor".to_string(),
     }
 }
 
 fn end_name(model: &Model, end: LineEnd) -> String {
     match end {
-        LineEnd::Conductor { index } => name_of(model, index as u32),
+        LineEnd::Conductor { index } => name_of(model, FixedId::conductor(index)),
         LineEnd::Tank => "tank".to_string(),
         LineEnd::Dielectric { index } => format!(
             "insulator '{}'",
@@ -362,11 +362,11 @@ struct Ctx<'a> {
 }
 
 impl Ctx<'_> {
-    fn relative_error(&self, conductor: u32) -> Option<f64> {
+    fn relative_error(&self, conductor: FixedId) -> Option<f64> {
         self.study?
             .peaks
             .iter()
-            .find(|p| p.conductor as u32 == conductor)
+            .find(|p| Some(p.conductor) == conductor.conductor_index())
             .map(|p| p.relative_error)
     }
 }
@@ -803,8 +803,10 @@ fn gas_rows(
 
     // 4. Corona onset in air (Peek) at the local radius of curvature; by the geometry either
     // beside the streamer integral (an isolated conductor) or a cross-check (a gap).
-    if state.kind == GasKind::Air && hot.conductor != TANK {
-        let shape = &model.conductors[hot.conductor as usize].shape;
+    if state.kind == GasKind::Air
+        && let Some(c) = hot.conductor.conductor_index()
+    {
+        let shape = &model.conductors[c].shape;
         let (m, m_user) = match override_of(model, "corona_surface_factor") {
             Some(v) => (v, true),
             None => (DEFAULT_CORONA_SURFACE_FACTOR, false),
@@ -1212,9 +1214,9 @@ fn insulator_rows(
     // Triple junctions: conductor surface samples in gas or vacuum within 1.5 cells of this
     // insulator; per conductor and side the highest field.
     let reach = 1.5 * fm.mesh.cell;
-    let mut best: Vec<(u32, Medium, SurfaceSample)> = Vec::new();
+    let mut best: Vec<(FixedId, Medium, SurfaceSample)> = Vec::new();
     for s in samples {
-        if s.conductor == TANK || !matches!(s.medium, Medium::Gas | Medium::Vacuum) {
+        if s.conductor.is_tank() || !matches!(s.medium, Medium::Gas | Medium::Vacuum) {
             continue;
         }
         if diel.shape.sdf(s.at).abs() > reach {
@@ -1330,7 +1332,10 @@ fn hotspots(fm: &FieldMap, samples: &[SurfaceSample], gas: bool) -> Vec<SurfaceS
     let model = fm.model;
     let mut best: Vec<Option<SurfaceSample>> = vec![None; model.conductors.len()];
     for s in samples {
-        if s.conductor == TANK || !(s.e.is_finite() && s.e > 0.0) {
+        let Some(c) = s.conductor.conductor_index() else {
+            continue;
+        };
+        if !(s.e.is_finite() && s.e > 0.0) {
             continue;
         }
         let wanted = if gas {
@@ -1341,7 +1346,7 @@ fn hotspots(fm: &FieldMap, samples: &[SurfaceSample], gas: bool) -> Vec<SurfaceS
         if !wanted {
             continue;
         }
-        let slot = &mut best[s.conductor as usize];
+        let slot = &mut best[c];
         if slot.is_none_or(|b| s.e > b.e) {
             *slot = Some(*s);
         }

@@ -16,12 +16,71 @@ use serde::Serialize;
 use std::sync::OnceLock;
 use thiserror::Error;
 
-/// Identifier of what holds a fixed node: conductor index, or the tank.
-pub type FixedId = u32;
-/// The tank (always at 0 V).
-pub const TANK: FixedId = u32::MAX;
-/// A free node.
-pub const FREE: FixedId = u32::MAX - 1;
+/// What holds a grid node: nothing (a free node, an unknown of the solve), a conductor, or the
+/// tank. One `u32` per node (the mesh keeps one per node, so it stays four bytes); read it
+/// through [`FixedId::holder`] or the `is_*` methods, never as a number. Serialised as that
+/// number (conductor index; 4294967295 the tank).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
+#[serde(transparent)]
+#[repr(transparent)]
+pub struct FixedId(u32);
+
+/// What a [`FixedId`] stands for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Holder {
+    /// A free node (an unknown of the solve).
+    Free,
+    /// The tank (always at 0 V).
+    Tank,
+    /// The conductor of this index in `Model::conductors`.
+    Conductor(usize),
+}
+
+impl FixedId {
+    /// The tank (always at 0 V).
+    pub const TANK: FixedId = FixedId(u32::MAX);
+    /// A free node.
+    pub const FREE: FixedId = FixedId(u32::MAX - 1);
+
+    /// The conductor of index `index` (far below `u32::MAX - 1`: a design has a few hundred
+    /// conductors at most).
+    pub fn conductor(index: usize) -> FixedId {
+        debug_assert!(index < (u32::MAX - 1) as usize);
+        FixedId(index as u32)
+    }
+
+    /// What the id stands for.
+    pub fn holder(self) -> Holder {
+        match self {
+            FixedId::FREE => Holder::Free,
+            FixedId::TANK => Holder::Tank,
+            FixedId(c) => Holder::Conductor(c as usize),
+        }
+    }
+
+    /// A free node.
+    pub fn is_free(self) -> bool {
+        self == FixedId::FREE
+    }
+
+    /// The tank.
+    pub fn is_tank(self) -> bool {
+        self == FixedId::TANK
+    }
+
+    /// The conductor index, if a conductor holds the node.
+    pub fn conductor_index(self) -> Option<usize> {
+        match self.holder() {
+            Holder::Conductor(c) => Some(c),
+            Holder::Free | Holder::Tank => None,
+        }
+    }
+}
+
+/// The tank (always at 0 V); the same as [`FixedId::TANK`].
+pub const TANK: FixedId = FixedId::TANK;
+/// A free node; the same as [`FixedId::FREE`].
+pub const FREE: FixedId = FixedId::FREE;
 
 /// Largest number of grid nodes a mesh may have where the machine's available memory cannot be
 /// read (no `/proc/meminfo`).
@@ -512,7 +571,7 @@ impl Axis {
 pub struct Cut {
     /// Fraction of the link length from the free node to the surface, in (0, 1].
     pub theta: f64,
-    /// What is on the other side (conductor index or `TANK`).
+    /// What is on the other side (a conductor or the tank).
     pub id: FixedId,
 }
 
@@ -587,7 +646,7 @@ pub const DIRS: [Dir; 4] = [Dir::E, Dir::W, Dir::N, Dir::S];
 pub struct Mesh {
     pub r: Axis,
     pub z: Axis,
-    /// Per node (index `j * nr + i`): `FREE`, a conductor index, or `TANK`.
+    /// Per node (index `j * nr + i`): free, a conductor, or the tank.
     pub fixed: Vec<FixedId>,
     /// Per node and direction: the cut, where the link from this free node ends on a surface.
     pub cuts: CutTable,
@@ -648,7 +707,7 @@ impl Mesh {
 
     /// Number of free nodes (the unknowns of the solve).
     pub fn free_nodes(&self) -> usize {
-        self.fixed.iter().filter(|&&f| f == FREE).count()
+        self.fixed.iter().filter(|&&f| f.is_free()).count()
     }
 
     /// The free-surface sites of dielectric `index` of `model` (the model this mesh was built
@@ -753,7 +812,7 @@ impl Mesh {
                 .map(|w| if w[0] > 0.0 { (w[1] / w[0]).ln() } else { 0.0 })
                 .collect();
         let mut mesh = Mesh {
-            fixed: vec![FREE; nodes],
+            fixed: vec![FixedId::FREE; nodes],
             cuts: CutTable::new(nodes),
             eps_r_link: vec![1.0f32; nodes],
             eps_z_link: vec![1.0f32; nodes],
@@ -781,13 +840,13 @@ impl Mesh {
             Tank::Cylinder { .. } => {
                 if model.side == Wall::Grounded {
                     for j in 0..nz {
-                        self.fixed[j * nr + nr - 1] = TANK;
+                        self.fixed[j * nr + nr - 1] = FixedId::TANK;
                     }
                 }
                 if model.ends == Wall::Grounded {
                     for i in 0..nr {
-                        self.fixed[i] = TANK;
-                        self.fixed[(nz - 1) * nr + i] = TANK;
+                        self.fixed[i] = FixedId::TANK;
+                        self.fixed[(nz - 1) * nr + i] = FixedId::TANK;
                     }
                 }
             }
@@ -796,7 +855,7 @@ impl Mesh {
                     for i in 0..nr {
                         let p = Point::new(self.r.x[i], self.z.x[j]);
                         if model.tank.sdf_inside(p) >= -1e-6 * self.cell {
-                            self.fixed[j * nr + i] = TANK;
+                            self.fixed[j * nr + i] = FixedId::TANK;
                         }
                     }
                 }
@@ -813,10 +872,10 @@ impl Mesh {
                     let k = j * nr + i;
                     // A node within a millionth of a cell of the surface is taken as on
                     // it, which keeps every cut link at a well-conditioned length.
-                    if self.fixed[k] == FREE
+                    if self.fixed[k].is_free()
                         && cond.shape.sdf(Point::new(self.r.x[i], self.z.x[j])) <= on_surface
                     {
-                        self.fixed[k] = c as FixedId;
+                        self.fixed[k] = FixedId::conductor(c);
                     }
                 }
             }
@@ -828,7 +887,7 @@ impl Mesh {
     fn check_every_conductor_has_nodes(&self, model: &Model) -> Result<(), MeshError> {
         let mut held = vec![false; model.conductors.len()];
         for &f in &self.fixed {
-            if let Some(h) = held.get_mut(f as usize) {
+            if let Some(h) = f.conductor_index().and_then(|c| held.get_mut(c)) {
                 *h = true;
             }
         }
@@ -862,7 +921,7 @@ impl Mesh {
     fn find_cuts(&mut self, model: &Model) -> Result<(), MeshError> {
         let tol = 1e-9 * self.cell.max(1e-6);
         for k in 0..self.nodes() {
-            if self.fixed[k] != FREE {
+            if !self.fixed[k].is_free() {
                 continue;
             }
             let p = self.point(k);
@@ -871,18 +930,21 @@ impl Mesh {
                     continue;
                 };
                 let id = self.fixed[q];
-                if id == FREE {
+                if id.is_free() {
                     continue;
                 }
                 let qp = self.point(q);
-                let theta = if id == TANK {
+                let theta = if id.is_tank() {
                     match model.tank {
                         // Cylinder walls lie on grid lines.
                         Tank::Cylinder { .. } => 1.0,
                         Tank::Sphere { .. } => crossing(|x| -model.tank.sdf_inside(x), p, qp, tol),
                     }
                 } else {
-                    let shape: &Shape = &model.conductors[id as usize].shape;
+                    let Some(c) = id.conductor_index() else {
+                        continue;
+                    };
+                    let shape: &Shape = &model.conductors[c].shape;
                     crossing(|x| shape.sdf(x), p, qp, tol)
                 };
                 // A node a hair's breadth from the surface would make a near-singular row:
@@ -902,7 +964,7 @@ impl Mesh {
             for j in j0..=j1 {
                 for i in i0..=i1 {
                     let k = j * nr + i;
-                    if self.fixed[k] != FREE {
+                    if !self.fixed[k].is_free() {
                         continue;
                     }
                     for (q, mid) in [
@@ -923,7 +985,7 @@ impl Mesh {
                         // second order in the spacing); a part that reaches a tenth of the
                         // link deep between two free nodes is not resolved.
                         if let (Some(q), Some(mid)) = (q, mid)
-                            && self.fixed[q] == FREE
+                            && self.fixed[q].is_free()
                             && cond.shape.sdf(mid) < -0.1 * link_len(self, k, q)
                         {
                             return Err(MeshError::TooThin {
@@ -1015,7 +1077,7 @@ impl Mesh {
     ) -> (Point, Point) {
         let lerp =
             |t: f64, a: Point, b: Point| Point::new(a.r + t * (b.r - a.r), a.z + t * (b.z - a.z));
-        match (self.fixed[k] == FREE, self.fixed[q] == FREE) {
+        match (self.fixed[k].is_free(), self.fixed[q].is_free()) {
             (true, true) => (p, qp),
             (true, false) => {
                 let t = self.cuts[k][dk as usize].map_or(1.0, |c| c.theta);

@@ -79,7 +79,7 @@ pub struct Basis {
     pub conductor_electrode: Vec<Option<usize>>,
     /// Mesh nodes that are free, in order; the unit solutions are stored on these.
     free: Vec<u32>,
-    /// Fixed id of every mesh node (`mesh::FREE` for a free node).
+    /// Fixed id of every mesh node (`FixedId::FREE` for a free node).
     fixed: Vec<crate::mesh::FixedId>,
     /// Unit solution of each electrode on the free nodes.
     phi: Vec<Vec<f32>>,
@@ -104,7 +104,7 @@ impl Basis {
         let groups = electrodes(model);
         let n = groups.len();
         let free: Vec<u32> = (0..mesh.nodes())
-            .filter(|&k| mesh.fixed[k] == crate::mesh::FREE)
+            .filter(|&k| mesh.fixed[k].is_free())
             .map(|k| k as u32)
             .collect();
         // The unit solutions (single precision, free nodes), plus one field per worker thread
@@ -298,12 +298,11 @@ impl Basis {
             .enumerate()
             .for_each(kernel);
         let fixed_shift = |k: usize, w: &[f64]| -> f64 {
-            let id = self.fixed[k];
-            if id == crate::mesh::FREE || id == crate::mesh::TANK {
+            let Some(c) = self.fixed[k].conductor_index() else {
                 return 0.0;
-            }
+            };
             self.conductor_electrode
-                .get(id as usize)
+                .get(c)
                 .copied()
                 .flatten()
                 .map_or(0.0, |e| w[e])

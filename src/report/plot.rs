@@ -6,7 +6,6 @@
 
 use crate::analysis::Analysis;
 use crate::field::FieldMap;
-use crate::mesh::FREE;
 use crate::model::Model;
 use crate::report::Report;
 use plotters::coord::types::RangedCoordf64;
@@ -129,7 +128,7 @@ pub fn field_map(model: &Model, fine: &Analysis) -> PlotResult {
             e[j * nr + i] = f.field[0].hypot(f.field[1]);
             let k = mesh.idx(mesh.r.locate(p.r), mesh.z.locate(p.z));
             solid[j * nr + i] =
-                mesh.fixed[k] != FREE || model.conductors.iter().any(|c| c.shape.contains(p));
+                !mesh.fixed[k].is_free() || model.conductors.iter().any(|c| c.shape.contains(p));
         }
     }
     let grid = Raster {
@@ -495,7 +494,7 @@ pub fn surface_profiles(model: &Model, fine: &Analysis, conductors: usize) -> Pl
         let mut pts: Vec<(f64, f64)> = fine
             .samples
             .iter()
-            .filter(|s| s.conductor == k as u32)
+            .filter(|s| s.conductor.conductor_index() == Some(k))
             .map(|s| {
                 let ang = (s.at.z - cz).atan2(s.at.r - cr).to_degrees();
                 (ang, s.e / 1e6)
