@@ -80,11 +80,13 @@ pub const N2_SCALED_AIR_FROM_PA: f64 = 1.0e4;
 pub enum MarginError {
     #[error("breakdown criteria: {0}")]
     Breakdown(#[from] BreakdownError),
+    /// A `[checks]` override the criterion refuses, with the criterion's own error (shown in
+    /// the message, so not also given as the source: the CLI prints the chain).
     #[error("[checks] {key} = {value}: {reason}")]
     Override {
         key: &'static str,
         value: f64,
-        reason: String,
+        reason: BreakdownError,
     },
 }
 
@@ -451,7 +453,7 @@ fn gas_derating(ctx: &Ctx, state: &GasState) -> Result<Derating, MarginError> {
         return Derating::user(f, "[checks] area_derating").map_err(|e| MarginError::Override {
             key: "area_derating",
             value: f,
-            reason: e.to_string(),
+            reason: e,
         });
     }
     Ok(Derating::large_area(&state.kind.label()))
@@ -463,7 +465,7 @@ fn user_limit(limit: Limit, key: &'static str, value: f64) -> Result<Limit, Marg
         .map_err(|e| MarginError::Override {
             key,
             value,
-            reason: e.to_string(),
+            reason: e,
         })
 }
 
@@ -822,7 +824,7 @@ fn gas_rows(
                     MarginError::Override {
                         key: "corona_surface_factor",
                         value: m,
-                        reason: e.to_string(),
+                        reason: e,
                     }
                 })?;
                 l.name = format!("{} at local radius {:.2} mm", l.name, radius * 1e3);
@@ -985,7 +987,7 @@ fn vacuum_rows(
     let bad_c = |e: BreakdownError| MarginError::Override {
         key: "cranberg_constant",
         value: c,
-        reason: e.to_string(),
+        reason: e,
     };
 
     // 1. Cathode surface field.
@@ -1146,7 +1148,7 @@ fn surface_limit(
                     Some(f) => MarginError::Override {
                         key: "insulator_gas_fraction",
                         value: f,
-                        reason: e.to_string(),
+                        reason: e,
                     },
                     None => MarginError::Breakdown(e),
                 },

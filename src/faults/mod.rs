@@ -33,6 +33,52 @@ pub use transient::{
     ClampedStep, GapLink, clamped_step, fast_step, gap_links, node_electrode, spark_energy_with,
 };
 
+/// Why the fast transient after a spark cannot be formed.
+#[derive(Debug, Error)]
+pub enum TransientError {
+    #[error("the design has no conductor off earth potential")]
+    NothingOffEarth,
+    #[error(
+        "{electrodes} electrodes in the capacitance matrix, but {floating} / {before} / {after} entries given"
+    )]
+    Lengths {
+        electrodes: usize,
+        floating: usize,
+        before: usize,
+        after: usize,
+    },
+    #[error("the floating part of the capacitance matrix is singular")]
+    Singular,
+    #[error(
+        "a protective gap joins electrode {a:?} and {b:?}, but there are {electrodes} electrodes"
+    )]
+    GapElectrode {
+        a: Option<usize>,
+        b: Option<usize>,
+        electrodes: usize,
+    },
+    #[error("a protective gap clamps at {clamp_v} V; a positive voltage is needed")]
+    GapClamp { clamp_v: f64 },
+    #[error("the protective gaps found no consistent set of conducting gaps in {passes} passes")]
+    GapsInconsistent { passes: usize },
+    #[error("the capacitance matrix with the conducting protective gaps is singular")]
+    SingularWithGaps,
+    #[error("no conductor apart from the grading electrodes is off earth potential")]
+    NoStrayConductor,
+    /// Columns and gaps counted from 1, as the user names them.
+    #[error("shorted section names column {column}, but the design has {columns} columns")]
+    SectionColumn { column: usize, columns: usize },
+    #[error(
+        "shorted section of column {column}: gaps {first} to {last} are not within 1 to {gaps}"
+    )]
+    SectionGaps {
+        column: usize,
+        first: usize,
+        last: usize,
+        gaps: usize,
+    },
+}
+
 #[derive(Debug, Error)]
 pub enum FaultError {
     #[error(transparent)]
@@ -46,7 +92,7 @@ pub enum FaultError {
     #[error("the design has no [[column]]: there is no grading network to replay faults on")]
     NoColumns,
     #[error("the fast transient cannot be formed: {0}")]
-    Transient(String),
+    Transient(#[from] TransientError),
     #[error(
         "the fault replay needs {electrodes} unit solutions of {nodes} nodes, about {gib:.2} GiB, more than {budget}; set [mesh] cell coarser (the memory falls with its square) or replay fewer electrodes"
     )]
@@ -177,9 +223,7 @@ impl Basis {
             phi.push(unit_phi);
         }
         let Some(info) = info else {
-            return Err(FaultError::Transient(
-                "the design has no conductor off earth potential".to_string(),
-            ));
+            return Err(TransientError::NothingOffEarth.into());
         };
         let scale = (0..n).map(|i| c_f[i][i].abs()).fold(0.0, f64::max);
         let mut asymmetry: f64 = 0.0;

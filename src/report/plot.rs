@@ -11,12 +11,21 @@ use crate::report::Report;
 use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 
-/// Errors of a figure are carried as text: a figure that cannot be drawn is reported, never
-/// silently dropped.
-pub type PlotResult = Result<String, String>;
+/// A figure that cannot be drawn: reported, never silently dropped. The drawing library's
+/// error is generic over its backend, so its message is kept.
+#[derive(Debug, thiserror::Error)]
+#[error("figure could not be drawn: {reason}")]
+pub struct PlotError {
+    pub reason: String,
+}
 
-fn err<E: std::fmt::Display>(e: E) -> String {
-    format!("figure could not be drawn: {e}")
+/// An SVG figure, or why it cannot be drawn.
+pub type PlotResult = Result<String, PlotError>;
+
+fn err<E: std::fmt::Display>(e: E) -> PlotError {
+    PlotError {
+        reason: e.to_string(),
+    }
 }
 
 /// Colour for a value in [0, 1]: dark blue → yellow, readable in print.
@@ -264,7 +273,7 @@ struct Frame<'t> {
 
 fn xy_figure(
     frame: Frame<'_>,
-    draw: impl FnOnce(&mut XyChart<'_, '_>) -> Result<(), String>,
+    draw: impl FnOnce(&mut XyChart<'_, '_>) -> Result<(), PlotError>,
 ) -> PlotResult {
     let mut svg = String::new();
     {
