@@ -9,7 +9,6 @@
 //! for every free node next to a fixed one the true distance to the surface along the link is
 //! found by root finding on the signed distance, which is what makes the boundary second order
 //! instead of a staircase.
-
 //!
 //! Files: `budget` (memory estimate checked before building), `axis` (graded node lines),
 //! `classify` (fixed nodes), `cuts` (surface crossings of links, link permittivities), `sites`
