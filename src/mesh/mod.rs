@@ -35,6 +35,15 @@ use serde::Serialize;
 use std::sync::OnceLock;
 use thiserror::Error;
 
+/// Meshes built in this process (read by [`builds`]).
+static MESH_BUILDS: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+
+/// How many meshes this process has built so far: lets a test count the meshes (and so the
+/// field solves) a command makes.
+pub fn builds() -> usize {
+    MESH_BUILDS.load(std::sync::atomic::Ordering::Relaxed)
+}
+
 /// What holds a grid node: nothing (a free node, an unknown of the solve), a conductor, or the
 /// tank. One `u32` per node (the mesh keeps one per node, so it stays four bytes); read it
 /// through [`FixedId::holder`] or the `is_*` methods, never as a number. Serialised as that
@@ -305,6 +314,7 @@ impl Mesh {
     /// is estimated to need more than `budget`; the estimate is made before anything the size
     /// of the mesh is allocated.
     pub fn build_within(model: &Model, snap: bool, budget: Budget) -> Result<Mesh, MeshError> {
+        MESH_BUILDS.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
         let spec = model.mesh.clone();
         check_controls(&spec)?;
         let features = Features::of(model, snap);
