@@ -145,27 +145,33 @@ pub fn peak_rss_bytes() -> Option<u64> {
 pub const EXPORT_MATRIX: &str = "operator.mtx";
 pub const EXPORT_RHS: &str = "rhs.mtx";
 
-/// Writes the symmetric operator of the benchmark problem into `dir` in the Matrix Market
-/// exchange format (Boisvert, Pozo & Remington, "The Matrix Market Exchange Formats: Initial
-/// Design", NIST IR 5935, 1996; docs/references.md §18): `operator.mtx` in coordinate form
-/// (every stored entry, 1-based, written by sprs) and `rhs.mtx` in array form (one column).
-/// Values are printed in Rust's shortest round-trip form, so a reader gets the same doubles.
-/// Each file is written whole or not at all. Returns the number of rows.
+/// The exported files: name and contents.
+pub type ExportFiles = [(&'static str, Vec<u8>); 2];
+
+/// The symmetric operator of the benchmark problem and its right-hand side in the Matrix
+/// Market exchange format (Boisvert, Pozo & Remington, "The Matrix Market Exchange Formats:
+/// Initial Design", NIST IR 5935, 1996; docs/references.md §18), as the texts of the files
+/// [`EXPORT_MATRIX`] (coordinate form: every stored entry, 1-based, written by sprs) and
+/// [`EXPORT_RHS`] (array form, one column), with the number of rows. Values are printed in
+/// Rust's shortest round-trip form, so a reader gets the same doubles. `holdoff bench
+/// --export` writes them, each file whole or not at all.
 pub fn export_operator(
     nodes: usize,
-    dir: &std::path::Path,
-) -> Result<usize, Box<dyn std::error::Error>> {
+) -> Result<(usize, ExportFiles), Box<dyn std::error::Error>> {
     let model = problem(nodes);
     let mesh = Mesh::build_with(&model, false)?;
     let op = crate::solve::operator::Operator::assemble(&mesh, Scheme::Symmetric);
     let b = op.rhs(&[model.terminal_voltage]);
-    std::fs::create_dir_all(dir)?;
     let matrix = op.to_csr();
     let mut text = Vec::with_capacity(32 * matrix.nnz());
     sprs::io::write_matrix_market_to_bufwrite(&mut text, &matrix)?;
-    crate::report::write_atomic(&dir.join(EXPORT_MATRIX), &text)?;
-    crate::report::write_atomic(&dir.join(EXPORT_RHS), matrix_market_column(&b).as_bytes())?;
-    Ok(op.rows())
+    Ok((
+        op.rows(),
+        [
+            (EXPORT_MATRIX, text),
+            (EXPORT_RHS, matrix_market_column(&b).into_bytes()),
+        ],
+    ))
 }
 
 /// A column vector in the Matrix Market array form.

@@ -82,7 +82,7 @@ fn auto_strays(
     model: &Model,
     stages: usize,
     solver: &SolverParams,
-) -> Result<(Vec<f64>, CapacitanceMatrix), StackError> {
+) -> Result<(Vec<f64>, CapacitanceMatrix, Mesh), StackError> {
     let drawn = stage_conductors(model, stages);
     let missing: Vec<String> = drawn
         .iter()
@@ -119,7 +119,7 @@ fn auto_strays(
             })
         })
         .collect();
-    Ok((per_stage, cm))
+    Ok((per_stage, cm, mesh))
 }
 
 /// Builds, and simulates, the stack of a design; `None` when it has no `[multiplier]`.
@@ -128,16 +128,28 @@ pub fn analyze_stack(
     solver: &SolverParams,
     controls: &SimControls,
 ) -> Result<Option<StackAnalysis>, StackError> {
+    analyze_stack_keeping_mesh(model, solver, controls).map(|(stack, _)| stack)
+}
+
+/// As [`analyze_stack`], also handing back the design's mesh when the automatic strays built
+/// it (so that a review solves the field on it instead of meshing the design again).
+pub fn analyze_stack_keeping_mesh(
+    model: &Model,
+    solver: &SolverParams,
+    controls: &SimControls,
+) -> Result<(Option<StackAnalysis>, Option<Mesh>), StackError> {
     let Some(m) = &model.multiplier else {
-        return Ok(None);
+        return Ok((None, None));
     };
+    let mut mesh = None;
     let (params, strays) = match m.stray_capacitance_f {
         Some(c) => (
             LadderParams::from_multiplier(m, None)?,
             StraySource::Given { farads: c },
         ),
         None => {
-            let (per_stage, cm) = auto_strays(model, m.stages, solver)?;
+            let (per_stage, cm, built) = auto_strays(model, m.stages, solver)?;
+            mesh = Some(built);
             let mut drawn = m.clone();
             drawn.stray_capacitance_f = Some(0.0);
             let mut p = LadderParams::from_multiplier(&drawn, None)?;
@@ -164,12 +176,15 @@ pub fn analyze_stack(
     };
     let result = simulate(&params, controls)?;
     let closed_form = closed_form(&params)?;
-    Ok(Some(StackAnalysis {
-        params,
-        strays,
-        result,
-        closed_form,
-    }))
+    Ok((
+        Some(StackAnalysis {
+            params,
+            strays,
+            result,
+            closed_form,
+        }),
+        mesh,
+    ))
 }
 
 /// A mismatch between the design's `terminal.voltage` and the multiplier's output beyond this

@@ -508,7 +508,7 @@ fn a_conductor_may_cut_through_a_dielectric_but_not_another_conductor() {
 
 #[test]
 fn built_in_permittivities_match_the_reference_table() {
-    use holdoff::design::materials::{Mark, lookup};
+    use holdoff::materials::{Mark, lookup};
     // (material, eps_r used, low and high end of the published range, mark), after the
     // permittivity table of docs/references.md §11: alumina from manufacturers' data sheets, the
     // rest from published permittivity tables; mineral oil and glass-epoxy from memory.

@@ -35,7 +35,11 @@ fn a_negative_terminal_is_the_cathode_and_a_positive_one_the_anode() {
     for (volts, sign) in [("-100 kV", -1.0), ("100 kV", 1.0)] {
         let model = sphere_in_sphere(volts);
         let fine = holdoff::analysis::analyze(&model, &SolverParams::default(), None).unwrap();
-        let ball: Vec<_> = fine.samples.iter().filter(|s| s.conductor == 0).collect();
+        let ball: Vec<_> = fine
+            .samples
+            .iter()
+            .filter(|s| s.conductor.conductor_index() == Some(0))
+            .collect();
         assert!(!ball.is_empty());
         for s in &ball {
             assert!(s.e_normal * sign > 0.0, "{volts}: e_normal {}", s.e_normal);

@@ -121,15 +121,21 @@ pub fn run(args: &BenchArgs) -> Result<ExitCode> {
          every level) over its measured time, against the triad's bandwidth"
     );
     if let (Some(dir), Some(&n)) = (&args.export, args.sizes.first()) {
-        match benchmark::export_operator(n, dir) {
-            Ok(rows) => println!(
-                "wrote the symmetric operator ({rows} rows) and its right-hand side to {} ({}, {}, Matrix Market)",
-                dir.display(),
-                benchmark::EXPORT_MATRIX,
-                benchmark::EXPORT_RHS
-            ),
-            Err(e) => anyhow::bail!("cannot export the operator to {}: {e}", dir.display()),
+        let (rows, files) = benchmark::export_operator(n)
+            .map_err(|e| anyhow::anyhow!("cannot form the operator to export: {e}"))?;
+        std::fs::create_dir_all(dir)
+            .with_context(|| format!("cannot create the folder {}", dir.display()))?;
+        for (name, bytes) in &files {
+            let path = dir.join(name);
+            holdoff::report::write_atomic(&path, bytes)
+                .with_context(|| format!("cannot write {}", path.display()))?;
         }
+        println!(
+            "wrote the symmetric operator ({rows} rows) and its right-hand side to {} ({}, {}, Matrix Market)",
+            dir.display(),
+            benchmark::EXPORT_MATRIX,
+            benchmark::EXPORT_RHS
+        );
     }
     Ok(ExitCode::SUCCESS)
 }

@@ -61,7 +61,7 @@ pub struct SolverSeconds {
 
 #[derive(Debug, Clone, Serialize)]
 pub struct SolverInfo {
-    pub method: &'static str,
+    pub method: crate::solve::SolveMethod,
     pub scheme: crate::solve::operator::Scheme,
     pub unknowns: usize,
     pub multigrid_levels: usize,
@@ -307,9 +307,10 @@ impl Report {
         self
     }
 
-    /// The report as pretty JSON.
-    pub fn to_json(&self) -> String {
-        serde_json::to_string_pretty(self).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
+    /// The report as pretty JSON; a value serde cannot write is an error, never a stand-in
+    /// document.
+    pub fn to_json(&self) -> Result<String, serde_json::Error> {
+        serde_json::to_string_pretty(self)
     }
 }
 
