@@ -155,9 +155,7 @@ pub type ExportFiles = [(&'static str, Vec<u8>); 2];
 /// [`EXPORT_RHS`] (array form, one column), with the number of rows. Values are printed in
 /// Rust's shortest round-trip form, so a reader gets the same doubles. `holdoff bench
 /// --export` writes them, each file whole or not at all.
-pub fn export_operator(
-    nodes: usize,
-) -> Result<(usize, ExportFiles), Box<dyn std::error::Error>> {
+pub fn export_operator(nodes: usize) -> Result<(usize, ExportFiles), Box<dyn std::error::Error>> {
     let model = problem(nodes);
     let mesh = Mesh::build_with(&model, false)?;
     let op = crate::solve::operator::Operator::assemble(&mesh, Scheme::Symmetric);
