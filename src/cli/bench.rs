@@ -198,10 +198,9 @@ fn end_to_end(examples: &Path) -> Result<ExitCode> {
                 s(&demo),
                 "--vary".into(),
                 "terminal.voltage".into(),
-                "--from".into(),
-                "-600 kV".into(),
-                "--to".into(),
-                "-800 kV".into(),
+                // `=`: a value that starts with a minus sign is otherwise read as an option.
+                "--from=-600 kV".into(),
+                "--to=-800 kV".into(),
                 "--steps".into(),
                 "8".into(),
             ],
