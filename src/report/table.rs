@@ -214,7 +214,9 @@ pub(crate) fn value_with_unit(kind: LimitKind, v: f64) -> String {
 fn margin_row_cells(r: &MarginRow) -> Vec<Cell> {
     let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
     let mut criterion = match (r.criterion, r.kind) {
-        (Criterion::CriticalField, LimitKind::Voltage) => "long-gap limit (gap)".to_string(),
+        (Criterion::CriticalField, LimitKind::Voltage) => {
+            "limiting field (gap voltage)".to_string()
+        }
         (c, _) => criterion_label(c).to_string(),
     };
     if r.derating.factor != 1.0 {
