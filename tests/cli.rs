@@ -135,7 +135,7 @@ fn bad_design_exits_with_code_2_and_names_the_key() {
     assert_eq!(out.status.code(), Some(2));
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(err.contains("inner_radius"), "{err}");
-    assert!(err.contains(":3:"), "line number missing: {err}");
+    assert!(err.contains(", line 3,"), "line number missing: {err}");
 }
 
 #[test]

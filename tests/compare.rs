@@ -6,7 +6,7 @@ use common::holdoff;
 
 fn compare(a: &str, b: &str) -> (Option<i32>, serde_json::Value) {
     let out = holdoff()
-        .args(["compare", a, b, "--json"])
+        .args(["compare", a, b, "--json", "-"])
         .output()
         .expect("runs");
     let v = serde_json::from_slice(&out.stdout)

@@ -467,15 +467,15 @@ potential = "terminal"
     assert_eq!(lines, sorted);
     let shown = err.to_string();
     assert!(
-        shown.contains("many.toml:2:16: `tank.inner_radius = 550` is a bare number"),
+        shown.contains("many.toml, line 2, column 16: `tank.inner_radius = 550` is a bare number"),
         "{shown}"
     );
     assert!(
-        shown.contains("help: write the number with a unit, e.g. \"550 mm\""),
+        shown.contains("remedy: write the number with a unit, e.g. \"550 mm\""),
         "{shown}"
     );
     assert!(
-        shown.contains("many.toml:3:1: unknown key `lenght`"),
+        shown.contains("many.toml, line 3, column 1: unknown key `lenght`"),
         "{shown}"
     );
     assert!(shown.contains("did you mean `length`?"), "{shown}");

@@ -724,11 +724,9 @@ fn faults_table_lists_the_worst_rows() {
     };
     let ranked = |text: &str| {
         text.lines()
-            .filter(|l| l.starts_with('│') && l.contains(" ┆ "))
+            // Table rows start with the cell padding, then the rank.
             .filter(|l| {
-                l.trim_start_matches('│')
-                    .trim()
-                    .starts_with(|c: char| c.is_ascii_digit())
+                l.starts_with(' ') && l.trim_start().starts_with(|c: char| c.is_ascii_digit())
             })
             .count()
     };

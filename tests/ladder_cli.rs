@@ -101,17 +101,18 @@ fn size_lists_designs_that_meet_the_limits() {
         "size",
         "--voltage",
         "100 kV",
-        "--current",
+        "--load-current",
         "1 mA",
         "--ripple",
         "200 V",
         "--drive-peak",
         "25 kV",
-        "--frequency",
+        "--drive-frequency",
         "40 kHz",
-        "--capacitors",
+        "--stage-capacitance",
         "2.2 nF,4.7 nF",
         "--json",
+        "-",
     ]);
     let designs = v.as_array().expect("designs");
     assert!(!designs.is_empty());
@@ -128,12 +129,12 @@ fn size_refuses_a_bare_number() {
             "size",
             "--voltage",
             "100",
-            "--current",
+            "--load-current",
             "1 mA",
             "--ripple",
             "1 kV",
         ])
-        .args(["--drive-peak", "25 kV", "--frequency", "40 kHz"])
+        .args(["--drive-peak", "25 kV", "--drive-frequency", "40 kHz"])
         .output()
         .expect("runs");
     assert_eq!(out.status.code(), Some(2));

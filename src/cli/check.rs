@@ -2,9 +2,9 @@
 
 use anyhow::{Context, Result};
 use clap::Args;
-use holdoff::report::{Report, table, write_atomic};
+use holdoff::report::{Report, table};
 use holdoff::solve::SolverParams;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::ExitCode;
 
 /// The built-in demo design, embedded so that `holdoff demo` works from any directory.
@@ -26,9 +26,11 @@ pub struct DemoArgs {
 
 #[derive(Debug, Args)]
 pub struct OutputArgs {
-    /// Write the JSON report to FILE, or to standard output with `-`.
-    #[arg(long, value_name = "FILE")]
-    pub json: Option<String>,
+    #[command(flatten)]
+    pub json: super::JsonArg,
+    /// How many margin rows the table lists, worst first, or `all`.
+    #[arg(long, value_name = "N|all", default_value = "30", value_parser = super::parse_rows)]
+    pub rows: super::Rows,
     /// List the primitives the generators made (what was modelled), then continue.
     #[arg(long)]
     pub expand: bool,
@@ -58,7 +60,8 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
             return Ok(ExitCode::from(2));
         }
     };
-    let json_to_stdout = out.json.as_deref() == Some("-");
+    out.json.check()?;
+    let json_to_stdout = out.json.to_stdout();
     if out.expand {
         let listing = holdoff::design::expansion_listing(&model);
         let target: &mut dyn std::io::Write = if json_to_stdout {
@@ -76,19 +79,9 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
         .with_ladder(run.stack.as_ref())
         .with_grading(run.grading);
     holdoff::report::finite::ensure_finite(&report)?;
-    if let Some(target) = &out.json {
-        let json = report
-            .to_json()
-            .context("cannot serialise the JSON report")?;
-        if target == "-" {
-            println!("{json}");
-        } else {
-            write_atomic(Path::new(target), json.as_bytes())
-                .with_context(|| format!("cannot write JSON report {target}"))?;
-        }
-    }
+    out.json.write(&report)?;
     if !json_to_stdout {
-        print!("{}", table::render(&report));
+        print!("{}", table::render(&report, out.rows.0));
     }
     Ok(if failed {
         ExitCode::from(1)

@@ -2,7 +2,7 @@
 
 use anyhow::Result;
 use clap::Args;
-use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
+use comfy_table::{Cell, CellAlignment, ContentArrangement, Table};
 use holdoff::compare::compare;
 use holdoff::review::review;
 use holdoff::solve::SolverParams;
@@ -15,12 +15,11 @@ pub struct CompareArgs {
     pub before: PathBuf,
     /// The design after the change.
     pub after: PathBuf,
-    /// Rows to list (all in JSON).
-    #[arg(long, default_value_t = 25)]
-    pub top: usize,
-    /// Write the comparison as JSON to standard output.
-    #[arg(long)]
-    pub json: bool,
+    /// How many rows the table lists, or `all` (JSON always has every row).
+    #[arg(long, value_name = "N|all", default_value = "25", value_parser = super::parse_rows)]
+    pub rows: super::Rows,
+    #[command(flatten)]
+    pub json: super::JsonArg,
 }
 
 pub fn run(a: &CompareArgs) -> Result<ExitCode> {
@@ -30,6 +29,7 @@ pub fn run(a: &CompareArgs) -> Result<ExitCode> {
     ) else {
         return Ok(ExitCode::from(2));
     };
+    a.json.check()?;
     let (mb, ma) = (before.model, after.model);
     let params = SolverParams::default();
     let rb = review(&mb, &params, false)?;
@@ -41,14 +41,14 @@ pub fn run(a: &CompareArgs) -> Result<ExitCode> {
     } else {
         ExitCode::SUCCESS
     };
-    if a.json {
-        println!("{}", serde_json::to_string_pretty(&cmp)?);
+    a.json.write(&cmp)?;
+    if a.json.to_stdout() {
         return Ok(code);
     }
     println!("before: {}  ({})", a.before.display(), mb.title);
     println!("after:  {}  ({})\n", a.after.display(), ma.title);
     let mut t = Table::new();
-    t.load_style(UTF8_FULL_CONDENSED)
+    t.load_style(holdoff::report::table::STYLE)
         .set_content_arrangement(ContentArrangement::Dynamic);
     t.set_header(vec![
         "item",
@@ -59,7 +59,7 @@ pub fn run(a: &CompareArgs) -> Result<ExitCode> {
         "status after",
     ]);
     let num = |v: Option<f64>| v.map_or("-".to_string(), |m| format!("{m:.2}"));
-    for r in cmp.rows.iter().take(a.top) {
+    for r in cmp.rows.iter().take(a.rows.of(cmp.rows.len())) {
         let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
         t.add_row(vec![
             Cell::new(&r.item),

@@ -1,24 +1,22 @@
 //! `holdoff faults FILE`: every single-resistor failure, resistor tolerance and the fast
 //! transient of a spark, each with its margins, ranked.
 
-use anyhow::{Context, Result};
+use anyhow::Result;
 use clap::Args;
 use holdoff::faults::{ReplayOptions, Section, replay, scenario_count};
 use holdoff::mesh::Mesh;
 use holdoff::report::faults::{FaultSection, render};
-use holdoff::report::write_atomic;
 use holdoff::solve::SolverParams;
 use std::io::IsTerminal;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::ExitCode;
 
 #[derive(Debug, Args)]
 pub struct FaultsArgs {
     /// The design file (TOML) with at least one [[column]].
     pub file: PathBuf,
-    /// Write the `faults` section as JSON to FILE, or to standard output with `-`.
-    #[arg(long, value_name = "FILE")]
-    pub json: Option<String>,
+    #[command(flatten)]
+    pub json: super::JsonArg,
     /// Monte Carlo draws of the resistor tolerance.
     #[arg(long, value_name = "N", default_value_t = 200)]
     pub samples: usize,
@@ -33,30 +31,15 @@ pub struct FaultsArgs {
     #[arg(long, value_name = "N", default_value_t = 3)]
     pub details: usize,
     /// How many of the ranked scenarios the table lists, or `all`.
-    #[arg(long, value_name = "N|all", default_value = "40", value_parser = parse_rows)]
-    pub rows: Rows,
-}
-
-/// The table's length: a count, or every scenario.
-#[derive(Debug, Clone, Copy)]
-pub struct Rows(pub Option<usize>);
-
-fn parse_rows(text: &str) -> std::result::Result<Rows, String> {
-    if text.trim().eq_ignore_ascii_case("all") {
-        return Ok(Rows(None));
-    }
-    text.trim()
-        .parse::<usize>()
-        .ok()
-        .filter(|n| *n >= 1)
-        .map(|n| Rows(Some(n)))
-        .ok_or_else(|| format!("--rows {text:?}: expected a whole number of at least 1, or all"))
+    #[arg(long, value_name = "N|all", default_value = "40", value_parser = super::parse_rows)]
+    pub rows: super::Rows,
 }
 
 pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
     let Some(super::Loaded { model, text, file }) = super::load_design(&args.file)? else {
         return Ok(ExitCode::from(2));
     };
+    args.json.check()?;
     let params = SolverParams::default();
     let stack = holdoff::stack::analyze_stack(&model, &params, &Default::default())?;
     let stage_v = stack.as_ref().map(|s| s.stage_voltages());
@@ -109,14 +92,9 @@ pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
         ExitCode::from(1)
     };
     holdoff::report::finite::ensure_finite(&section)?;
-    if let Some(target) = &args.json {
-        let json = serde_json::to_string_pretty(&section)?;
-        if target == "-" {
-            println!("{json}");
-            return Ok(code);
-        }
-        write_atomic(Path::new(target), json.as_bytes())
-            .with_context(|| format!("cannot write JSON {target}"))?;
+    args.json.write(&section)?;
+    if args.json.to_stdout() {
+        return Ok(code);
     }
     print!("{}", render(&section, args.details, args.rows.0));
     Ok(code)

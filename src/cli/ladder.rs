@@ -1,43 +1,37 @@
 //! `holdoff ladder FILE`: the multiplier stack of a design, simulated, beside its closed forms.
 
-use anyhow::{Context, Result, bail};
+use anyhow::{Result, bail};
 use clap::Args;
 use holdoff::ladder::SimControls;
 use holdoff::report::cautions::{CautionInputs, cautions};
 use holdoff::report::ladder::{LadderSection, render};
-use holdoff::report::write_atomic;
 use holdoff::solve::SolverParams;
 use holdoff::stack::analyze_stack;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::ExitCode;
 
 #[derive(Debug, Args)]
 pub struct LadderArgs {
     /// The design file (TOML) with a [multiplier] table.
     pub file: PathBuf,
-    /// Write the `ladder` section as JSON to FILE, or to standard output with `-`.
-    #[arg(long, value_name = "FILE")]
-    pub json: Option<String>,
+    #[command(flatten)]
+    pub json: super::JsonArg,
 }
 
 pub fn run(args: &LadderArgs) -> Result<ExitCode> {
     let Some(super::Loaded { model, file, .. }) = super::load_design(&args.file)? else {
         return Ok(ExitCode::from(2));
     };
+    args.json.check()?;
     let Some(stack) = analyze_stack(&model, &SolverParams::default(), &SimControls::default())?
     else {
         bail!("{file} has no [multiplier] table: nothing to simulate");
     };
     let section = LadderSection::new(&stack);
     holdoff::report::finite::ensure_finite(&section)?;
-    if let Some(target) = &args.json {
-        let json = serde_json::to_string_pretty(&section)?;
-        if target == "-" {
-            println!("{json}");
-            return Ok(ExitCode::SUCCESS);
-        }
-        write_atomic(Path::new(target), json.as_bytes())
-            .with_context(|| format!("cannot write JSON {target}"))?;
+    args.json.write(&section)?;
+    if args.json.to_stdout() {
+        return Ok(ExitCode::SUCCESS);
     }
     println!("{}\n", model.title);
     print!("{}", render(&section));

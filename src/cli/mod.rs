@@ -39,6 +39,75 @@ pub(crate) fn load_design(path: &Path) -> anyhow::Result<Option<Loaded>> {
     }
 }
 
+/// `--json FILE|-`, the same in every command: the JSON goes to FILE (written whole or not at
+/// all), or to standard output with `-`, in which case the text output is left out.
+#[derive(Debug, Clone, clap::Args)]
+pub struct JsonArg {
+    /// Write the JSON to FILE, or to standard output with `-` (then without the text output).
+    #[arg(long, value_name = "FILE|-")]
+    pub json: Option<String>,
+}
+
+impl JsonArg {
+    /// Whether the JSON goes to standard output (and the text output is left out).
+    pub fn to_stdout(&self) -> bool {
+        self.json.as_deref() == Some("-")
+    }
+
+    /// Fails before any work when the JSON file could not be written.
+    pub fn check(&self) -> anyhow::Result<()> {
+        match self.json.as_deref() {
+            Some(target) if target != "-" => check_output(Path::new(target), "the JSON file"),
+            _ => Ok(()),
+        }
+    }
+
+    /// Writes `value` as pretty JSON where `--json` asked; nothing without `--json`.
+    pub fn write<T: serde::Serialize>(&self, value: &T) -> anyhow::Result<()> {
+        let Some(target) = self.json.as_deref() else {
+            return Ok(());
+        };
+        let json = serde_json::to_string_pretty(value)?;
+        if target == "-" {
+            println!("{json}");
+            Ok(())
+        } else {
+            holdoff::report::write_atomic(Path::new(target), json.as_bytes())
+                .with_context(|| format!("cannot write the JSON file {target}"))
+        }
+    }
+}
+
+/// Fails, before any computing, when `path` could not be written (`what` names it in the
+/// message).
+pub(crate) fn check_output(path: &Path, what: &str) -> anyhow::Result<()> {
+    holdoff::report::check_writable(path)
+        .with_context(|| format!("cannot write {what} {}", path.display()))
+}
+
+/// `--rows N|all`, the one row limit of every table: a count, or every row.
+#[derive(Debug, Clone, Copy)]
+pub struct Rows(pub Option<usize>);
+
+impl Rows {
+    /// The rows of `n` that are shown.
+    pub fn of(self, n: usize) -> usize {
+        self.0.map_or(n, |k| k.min(n))
+    }
+}
+
+pub(crate) fn parse_rows(text: &str) -> std::result::Result<Rows, String> {
+    if text.trim().eq_ignore_ascii_case("all") {
+        return Ok(Rows(None));
+    }
+    text.trim()
+        .parse::<usize>()
+        .ok()
+        .filter(|n| *n >= 1)
+        .map(|n| Rows(Some(n)))
+        .ok_or_else(|| format!("--rows {text:?}: expected a whole number of at least 1, or `all`"))
+}
+
 /// Electrostatic field and breakdown-margin review of DC accelerator columns.
 #[derive(Debug, Parser)]
 #[command(name = "holdoff", version, about, long_about = None)]

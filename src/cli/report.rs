@@ -37,6 +37,7 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
     let Some(super::Loaded { model, text, file }) = super::load_design(&a.file)? else {
         return Ok(ExitCode::from(2));
     };
+    super::check_output(&a.out, "the review note")?;
     let run = holdoff::review::review(&model, &SolverParams::default(), true)?;
     let failed = run.margins.any_fail();
     let report = Report::new(&model, &file, &text, &run.fine, run.study)

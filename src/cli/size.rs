@@ -12,24 +12,25 @@ pub struct SizeArgs {
     /// Terminal voltage required at load, e.g. "800 kV".
     #[arg(long)]
     pub voltage: String,
-    /// Load current, e.g. "10 mA".
+    /// Load current, e.g. "10 mA" (the file key `multiplier.load_current`).
     #[arg(long)]
-    pub current: String,
+    pub load_current: String,
     /// Largest peak-to-peak ripple at load, e.g. "1 kV".
     #[arg(long)]
     pub ripple: String,
     /// Peak drive voltage per phase, e.g. "50 kV".
     #[arg(long)]
     pub drive_peak: String,
-    /// Drive frequency, e.g. "50 kHz".
+    /// Drive frequency, e.g. "50 kHz" (the file key `multiplier.drive_frequency`).
     #[arg(long)]
-    pub frequency: String,
+    pub drive_frequency: String,
     /// "half-wave" or "symmetric".
     #[arg(long, default_value = "symmetric")]
     pub topology: String,
-    /// Capacitor values on offer, comma-separated (e.g. "4.7 nF,6.8 nF,10 nF"); any value when absent.
+    /// Stage capacitances on offer, comma-separated (e.g. "4.7 nF,6.8 nF,10 nF"); any value
+    /// when absent (the file key `multiplier.stage_capacitance`).
     #[arg(long, value_delimiter = ',')]
-    pub capacitors: Vec<String>,
+    pub stage_capacitance: Vec<String>,
     /// Column gradient limit for the stack height, e.g. "1 MV/m".
     #[arg(long)]
     pub gradient: Option<String>,
@@ -39,15 +40,15 @@ pub struct SizeArgs {
     /// Largest peak inverse voltage of a rectifier, e.g. "150 kV".
     #[arg(long)]
     pub diode_piv: Option<String>,
-    /// Stray capacitance of every node to earth, e.g. "4 pF".
+    /// Stray capacitance of every node to ground, e.g. "4 pF" (the file key
+    /// `multiplier.stray_capacitance`).
     #[arg(long, default_value = "0 pF")]
-    pub stray: String,
-    /// Rows to list.
-    #[arg(long, default_value_t = 10)]
-    pub top: usize,
-    /// Write the designs as JSON to standard output.
-    #[arg(long)]
-    pub json: bool,
+    pub stray_capacitance: String,
+    /// How many designs the table lists, or `all`.
+    #[arg(long, value_name = "N|all", default_value = "10", value_parser = super::parse_rows)]
+    pub rows: super::Rows,
+    #[command(flatten)]
+    pub json: super::JsonArg,
 }
 
 fn q(option: &str, text: &str, dim: Dimension) -> Result<f64> {
@@ -55,6 +56,7 @@ fn q(option: &str, text: &str, dim: Dimension) -> Result<f64> {
 }
 
 pub fn run(a: &SizeArgs) -> Result<ExitCode> {
+    a.json.check()?;
     let topology = match a.topology.as_str() {
         "half-wave" => Topology::HalfWave,
         "symmetric" => Topology::Symmetric,
@@ -65,16 +67,16 @@ pub fn run(a: &SizeArgs) -> Result<ExitCode> {
         }
     };
     let mut capacitors = Vec::new();
-    for c in &a.capacitors {
-        capacitors.push(q("capacitors", c.trim(), Dimension::Capacitance)?);
+    for c in &a.stage_capacitance {
+        capacitors.push(q("stage-capacitance", c.trim(), Dimension::Capacitance)?);
     }
     let target = SizeTarget {
         topology,
         terminal_v: q("voltage", &a.voltage, Dimension::Voltage)?,
-        load_current_a: q("current", &a.current, Dimension::Current)?,
+        load_current_a: q("load-current", &a.load_current, Dimension::Current)?,
         ripple_limit_pp_v: q("ripple", &a.ripple, Dimension::Voltage)?,
         drive_peak_v: q("drive-peak", &a.drive_peak, Dimension::Voltage)?,
-        drive_frequency_hz: q("frequency", &a.frequency, Dimension::Frequency)?,
+        drive_frequency_hz: q("drive-frequency", &a.drive_frequency, Dimension::Frequency)?,
         capacitor_values_f: capacitors,
         gradient_limit_v_per_m: a
             .gradient
@@ -91,14 +93,18 @@ pub fn run(a: &SizeArgs) -> Result<ExitCode> {
             .as_deref()
             .map(|g| q("diode-piv", g, Dimension::Voltage))
             .transpose()?,
-        stray_capacitance_f: q("stray", &a.stray, Dimension::Capacitance)?,
+        stray_capacitance_f: q(
+            "stray-capacitance",
+            &a.stray_capacitance,
+            Dimension::Capacitance,
+        )?,
         diode: None,
         max_stages: None,
         controls: SimControls::default(),
     };
     let designs = size(&target)?;
-    if a.json {
-        println!("{}", serde_json::to_string_pretty(&designs)?);
+    a.json.write(&designs)?;
+    if a.json.to_stdout() {
         return Ok(if designs.is_empty() {
             ExitCode::from(1)
         } else {
@@ -110,7 +116,7 @@ pub fn run(a: &SizeArgs) -> Result<ExitCode> {
         return Ok(ExitCode::from(1));
     }
     let mut t = comfy_table::Table::new();
-    t.load_style(comfy_table::presets::UTF8_FULL_CONDENSED);
+    t.load_style(holdoff::report::table::STYLE);
     t.set_header(vec![
         "rank",
         "stages",
@@ -125,7 +131,7 @@ pub fn run(a: &SizeArgs) -> Result<ExitCode> {
         "diode PIV kV",
         "diode peak A",
     ]);
-    for d in designs.iter().take(a.top) {
+    for d in designs.iter().take(a.rows.of(designs.len())) {
         t.add_row(vec![
             d.rank.to_string(),
             d.stages.to_string(),
@@ -147,7 +153,7 @@ pub fn run(a: &SizeArgs) -> Result<ExitCode> {
         designs.len()
     );
     println!(
-        "Caution: the stack stores lethal energy (column 'energy J'); discharge and earth it before contact, under the facility's high-voltage rules."
+        "Caution: the stack stores lethal energy (column 'energy J'); discharge and ground it before contact, under the facility's high-voltage rules."
     );
     Ok(ExitCode::SUCCESS)
 }

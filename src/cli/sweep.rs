@@ -3,7 +3,7 @@
 
 use anyhow::{Context, Result};
 use clap::Args;
-use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
+use comfy_table::{Cell, CellAlignment, ContentArrangement, Table};
 use holdoff::sweep::{least_value_sampled, range, sweep_with_progress};
 use serde::Serialize;
 use std::path::PathBuf;
@@ -29,9 +29,8 @@ pub struct SweepArgs {
     /// Also find by bisection the least value in the range that meets the design factor.
     #[arg(long)]
     pub least: bool,
-    /// Write the sweep as JSON to standard output.
-    #[arg(long)]
-    pub json: bool,
+    #[command(flatten)]
+    pub json: super::JsonArg,
     /// Also draw the worst margin against the swept value into an SVG file.
     #[arg(long, value_name = "FILE.svg")]
     pub plot: Option<PathBuf>,
@@ -48,6 +47,10 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
     let Some(super::Loaded { model, text, file }) = super::load_design(&a.file)? else {
         return Ok(ExitCode::from(2));
     };
+    a.json.check()?;
+    if let Some(path) = &a.plot {
+        super::check_output(path, "the plot")?;
+    }
     let span = range(&a.from, &a.to)?;
     let bar = std::io::IsTerminal::is_terminal(&std::io::stderr()).then(|| {
         let b = indicatif::ProgressBar::new(a.steps.max(2) as u64);
@@ -112,12 +115,12 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         holdoff::report::write_atomic(path, svg.as_bytes())
             .with_context(|| format!("cannot write the plot {}", path.display()))?;
     }
-    if a.json {
-        println!("{}", serde_json::to_string_pretty(&out)?);
+    a.json.write(&out)?;
+    if a.json.to_stdout() {
         return Ok(ExitCode::SUCCESS);
     }
     let mut t = Table::new();
-    t.load_style(UTF8_FULL_CONDENSED)
+    t.load_style(holdoff::report::table::STYLE)
         .set_content_arrangement(ContentArrangement::Dynamic);
     t.set_header(vec![
         &a.vary as &str,

@@ -1,55 +1,101 @@
-//! Rendering of design-file problems as source diagnostics.
+//! Rendering of design-file problems for the reader of a terminal or a log.
 //!
 //! Input: a [`DesignError`] and the text of the file it came from. Output: a `String` with,
-//! for every problem, its code and message, the file name, line and column, the source line
-//! with the offending text underlined by carets, the key path, and the help; then a one-line
-//! count. Rendering is done by `codespan-reporting`; colour (ANSI) only on request.
-//! [`render_for_stderr`] asks for colour when standard error is a terminal and `NO_COLOR` is
-//! not set (<https://no-color.org>).
+//! for every problem, a header `FILE, line L, KEY: message (code)`, the offending source line
+//! quoted with a `~` marker under the offending text and its column, and a `remedy:` line with
+//! what is accepted or what to change; then a one-line count. Colour (ANSI bold for the header,
+//! red for the marker) only on request; [`render_for_stderr`] asks for it when standard error
+//! is a terminal and `NO_COLOR` is not set (<https://no-color.org>).
 
 use super::problem::{DesignError, Problem};
-use codespan_reporting::diagnostic::{Diagnostic, Label};
-use codespan_reporting::files::SimpleFile;
-use codespan_reporting::term::{self, Config, Styles, StylesWriter, termcolor};
+use std::fmt::Write as _;
 use std::io::IsTerminal;
 use std::ops::Range;
+
+const BOLD: &str = "\u{1b}[1m";
+const RED: &str = "\u{1b}[1;31m";
+const RESET: &str = "\u{1b}[0m";
+/// Indent of the quoted line and of the marker under it.
+const QUOTE: &str = "    ";
 
 /// Renders every problem of `err` against `source`, the text `err` was produced from.
 ///
 /// With `colour` the output carries ANSI colour codes; without, it is plain text. A problem
-/// whose span does not fit `source` (a caller passing other text) is shown in the one-line
-/// form `file:line:col: message [code]`, so nothing is ever dropped.
+/// whose span does not fit `source` (a caller passing other text) is still shown, with the
+/// line and column it carries and without the quoted line, so nothing is ever dropped.
 pub fn render(err: &DesignError, source: &str, colour: bool) -> String {
-    let file = SimpleFile::new(err.file.as_str(), source);
-    let config = Config::default();
-    let styles = Styles::default();
     let mut out = String::new();
     for p in &err.problems {
-        let diagnostic = to_diagnostic(p, source);
-        let rendered = if colour {
-            let mut buf = termcolor::Ansi::new(Vec::new());
-            let mut writer = StylesWriter::new(&mut buf, &styles);
-            term::emit_to_write_style(&mut writer, &config, &file, &diagnostic)
-                .ok()
-                .map(|()| String::from_utf8_lossy(&buf.into_inner()).into_owned())
-        } else {
-            let mut s = String::new();
-            term::emit_to_string(&mut s, &config, &file, &diagnostic)
-                .ok()
-                .map(|()| s)
-        };
-        match rendered {
-            Some(text) => out.push_str(&text),
-            None => out.push_str(&format!("{}:{p}\n\n", err.file)),
-        }
+        render_one(&mut out, &err.file, p, source, colour);
+        out.push('\n');
     }
     let n = err.problems.len();
-    out.push_str(&format!(
-        "{}: {n} problem{} in the design file\n",
+    let _ = writeln!(
+        out,
+        "{}: {n} problem{} in the design file",
         err.file,
         if n == 1 { "" } else { "s" }
-    ));
+    );
     out
+}
+
+fn render_one(out: &mut String, file: &str, p: &Problem, source: &str, colour: bool) {
+    let (bold, red, reset) = if colour {
+        (BOLD, RED, RESET)
+    } else {
+        ("", "", "")
+    };
+    let key = if p.key.is_empty() {
+        String::new()
+    } else {
+        format!(", {}", p.key)
+    };
+    let _ = writeln!(
+        out,
+        "{bold}{file}, line {}{key}: {}{reset} ({})",
+        p.line, p.message, p.code
+    );
+    if let Some((text, lead, width)) = quoted(&p.span, source) {
+        let _ = writeln!(out, "{QUOTE}{}", text.trim_end());
+        let _ = writeln!(
+            out,
+            "{QUOTE}{}{red}{}{reset} column {}",
+            " ".repeat(lead),
+            "~".repeat(width),
+            lead + 1
+        );
+    } else {
+        let _ = writeln!(out, "{QUOTE}(column {})", p.column);
+    }
+    if let Some(h) = &p.help {
+        let _ = writeln!(out, "  remedy: {h}");
+    }
+}
+
+/// The source line holding the start of `span` (tabs shown as one space so that the marker
+/// lines up), the characters before the span on that line, and the marker width (at least
+/// one, and not past the end of the line). `None` when the span lies outside `source`.
+fn quoted(span: &Range<usize>, source: &str) -> Option<(String, usize, usize)> {
+    if span.start > source.len() {
+        return None;
+    }
+    let mut start = span.start;
+    while !source.is_char_boundary(start) {
+        start -= 1;
+    }
+    let line_start = source[..start].rfind('\n').map_or(0, |i| i + 1);
+    let line_end = source[start..]
+        .find('\n')
+        .map_or(source.len(), |i| start + i);
+    let line = source[line_start..line_end].trim_end_matches('\r');
+    let lead = source[line_start..start].chars().count();
+    let end = span.end.clamp(start, line_end);
+    let mut end = end.min(line_start + line.len()).max(start);
+    while !source.is_char_boundary(end) {
+        end += 1;
+    }
+    let width = source[start..end].chars().count().max(1);
+    Some((line.replace('\t', " "), lead, width))
 }
 
 /// Whether diagnostics written to standard error should be coloured: only when it is a
@@ -62,44 +108,6 @@ pub fn stderr_wants_colour() -> bool {
 /// [`render`] with colour decided by [`stderr_wants_colour`].
 pub fn render_for_stderr(err: &DesignError, source: &str) -> String {
     render(err, source, stderr_wants_colour())
-}
-
-fn to_diagnostic(p: &Problem, source: &str) -> Diagnostic<()> {
-    let span = fit_span(&p.span, source);
-    let label_text = if p.key.is_empty() {
-        String::new()
-    } else {
-        format!("`{}`", p.key)
-    };
-    let mut d = Diagnostic::error()
-        .with_code(p.code)
-        .with_message(&p.message)
-        .with_label(Label::primary((), span).with_message(label_text));
-    if let Some(h) = &p.help {
-        d = d.with_note(format!("help: {h}"));
-    }
-    d
-}
-
-/// The span clamped to the text and moved to character boundaries; an empty span is widened
-/// to the character it points at (so the caret has something to stand under).
-fn fit_span(span: &Range<usize>, source: &str) -> Range<usize> {
-    let len = source.len();
-    let mut start = span.start.min(len);
-    while !source.is_char_boundary(start) {
-        start -= 1;
-    }
-    let mut end = span.end.clamp(start, len);
-    while !source.is_char_boundary(end) {
-        end += 1;
-    }
-    if end == start
-        && let Some(c) = source[start..].chars().next()
-        && c != '\n'
-    {
-        end = start + c.len_utf8();
-    }
-    start..end
 }
 
 #[cfg(test)]
@@ -121,21 +129,17 @@ mod tests {
     const TEXT: &str = "[tank]\ninner_radius = 550\n";
 
     #[test]
-    fn plain_rendering_has_location_caret_help_and_code() {
+    fn plain_rendering_has_location_marker_remedy_and_code() {
         let err = DesignError {
             file: "t.toml".into(),
             problems: vec![problem(22..25)],
         };
         let s = render(&err, TEXT, false);
-        assert!(
-            s.contains("error[missing-unit]: `tank.inner_radius = 550`"),
-            "{s}"
-        );
-        assert!(s.contains("t.toml:2:16"), "{s}");
-        assert!(s.contains("inner_radius = 550"), "{s}");
-        assert!(s.contains("^^^"), "{s}");
-        assert!(s.contains("help: write the number with a unit"), "{s}");
-        assert!(s.ends_with("t.toml: 1 problem in the design file\n"), "{s}");
+        let want = "t.toml, line 2, tank.inner_radius: `tank.inner_radius = 550` is a bare number \
+                    (missing-unit)\n    inner_radius = 550\n                   ~~~ column 16\n  \
+                    remedy: write the number with a unit, e.g. \"550 mm\"\n\n\
+                    t.toml: 1 problem in the design file\n";
+        assert_eq!(s, want);
         assert!(!s.contains('\u{1b}'), "plain output has no escape codes");
     }
 
@@ -151,15 +155,26 @@ mod tests {
     }
 
     #[test]
+    fn the_marker_stands_under_the_span_with_tabs_and_wide_characters() {
+        let text = "\tk = \"\u{b5}m\"\n";
+        let (line, lead, width) = quoted(&(5..9), text).unwrap();
+        assert_eq!(line, " k = \"\u{b5}m\"");
+        assert_eq!((lead, width), (5, 3));
+    }
+
+    #[test]
     fn spans_outside_the_text_or_inside_a_character_still_render() {
         let text = "a = \"\u{b5}\"\n";
-        for span in [0..0, 5..6, 6..6, 100..200, 11..11] {
+        #[allow(clippy::reversed_empty_ranges)]
+        let spans = [0..0, 5..6, 6..6, 100..200, 11..11, 7..3];
+        for span in spans {
             let err = DesignError {
                 file: "u.toml".into(),
                 problems: vec![problem(span.clone())],
             };
             let s = render(&err, text, false);
             assert!(s.contains("missing-unit"), "{span:?}: {s}");
+            assert!(s.contains("column"), "{span:?}: {s}");
         }
     }
 }

@@ -30,11 +30,11 @@ impl fmt::Display for Problem {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         write!(
             f,
-            "{}:{}: {} [{}]",
+            "line {}, column {}: {} ({})",
             self.line, self.column, self.message, self.code
         )?;
         if let Some(h) = &self.help {
-            write!(f, "\n  help: {h}")?;
+            write!(f, "\n  remedy: {h}")?;
         }
         Ok(())
     }
@@ -58,7 +58,7 @@ impl DesignError {
 impl fmt::Display for DesignError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         for p in &self.problems {
-            writeln!(f, "{}:{p}", self.file)?;
+            writeln!(f, "{}, {p}", self.file)?;
         }
         let n = self.problems.len();
         write!(

@@ -2,7 +2,7 @@
 //! worst few, the Monte Carlo spread, the transient and the spark energies.
 
 use crate::faults::{FaultReplay, Kind, ScenarioResult};
-use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
+use comfy_table::{Cell, CellAlignment, ContentArrangement, Table};
 use serde::Serialize;
 use std::fmt::Write;
 
@@ -297,7 +297,7 @@ pub fn render(s: &FaultSection, details: usize, rows: Option<usize>) -> String {
         opt(r.nominal_worst_margin, 3)
     );
     let mut t = Table::new();
-    t.load_style(UTF8_FULL_CONDENSED)
+    t.load_style(crate::report::table::STYLE)
         .set_content_arrangement(ContentArrangement::Dynamic);
     t.set_header(vec![
         "rank",

@@ -2,7 +2,7 @@
 
 use crate::ladder::ClosedForm;
 use crate::stack::{StackAnalysis, StraySource};
-use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
+use comfy_table::{Cell, CellAlignment, ContentArrangement, Table};
 use serde::Serialize;
 use std::fmt::Write;
 
@@ -93,7 +93,7 @@ impl LadderSection {
 pub fn render(l: &LadderSection) -> String {
     let mut out = String::new();
     let mut t = Table::new();
-    t.load_style(UTF8_FULL_CONDENSED)
+    t.load_style(crate::report::table::STYLE)
         .set_content_arrangement(ContentArrangement::Dynamic);
     t.set_header(vec![
         "stage",

@@ -314,10 +314,23 @@ impl Report {
     }
 }
 
-/// Writes `bytes` to `path` through a temporary file beside it, renamed into place when
-/// complete, so that a failed run never leaves a partial file or truncates an existing one.
-pub fn write_atomic(path: &std::path::Path, bytes: &[u8]) -> std::io::Result<()> {
-    use std::io::Write;
+/// Checks before any work that [`write_atomic`] will be able to write `path`: the path is not
+/// a directory and a file can be created (and is removed again) in its directory. The file at
+/// `path` itself is neither created nor changed.
+pub fn check_writable(path: &std::path::Path) -> std::io::Result<()> {
+    if path.is_dir() {
+        return Err(std::io::Error::new(
+            std::io::ErrorKind::IsADirectory,
+            "is a directory",
+        ));
+    }
+    let tmp = temporary_beside(path);
+    std::fs::File::create(&tmp)?;
+    std::fs::remove_file(&tmp)
+}
+
+/// The temporary file beside `path` that [`write_atomic`] writes first.
+fn temporary_beside(path: &std::path::Path) -> std::path::PathBuf {
     let dir = path
         .parent()
         .filter(|p| !p.as_os_str().is_empty())
@@ -326,7 +339,14 @@ pub fn write_atomic(path: &std::path::Path, bytes: &[u8]) -> std::io::Result<()>
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_else(|| "output".into());
-    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    dir.join(format!(".{name}.{}.tmp", std::process::id()))
+}
+
+/// Writes `bytes` to `path` through a temporary file beside it, renamed into place when
+/// complete, so that a failed run never leaves a partial file or truncates an existing one.
+pub fn write_atomic(path: &std::path::Path, bytes: &[u8]) -> std::io::Result<()> {
+    use std::io::Write;
+    let tmp = temporary_beside(path);
     let result = (|| {
         let mut f = std::fs::File::create(&tmp)?;
         f.write_all(bytes)?;

@@ -4,8 +4,26 @@
 use crate::breakdown::{Criterion, LimitKind};
 use crate::margin::{MarginRow, Status};
 use crate::report::Report;
-use comfy_table::{Cell, CellAlignment, ContentArrangement, Table, presets::UTF8_FULL_CONDENSED};
+use comfy_table::{Cell, CellAlignment, ContentArrangement, Table};
+use comfy_table::{ContentLineStyle, LineStyle, TableStyle};
 use std::fmt::Write;
+
+/// The layout of every terminal table: a rule of `=` above and below, column heads
+/// underlined by a `-` rule per column, columns set apart by blank space, no side borders:
+///
+/// ```text
+/// ====================================
+///  conductor   potential kV   peak E
+///  ---------   ------------   ------
+///  terminal          200.00    1.234
+/// ====================================
+/// ```
+pub const STYLE: TableStyle = TableStyle::new()
+    .top_border(LineStyle::none().fill('=').junction('='))
+    .header_lines(ContentLineStyle::none().junction(' '))
+    .header_separator(LineStyle::none().fill('-').junction(' '))
+    .content_lines(ContentLineStyle::none().junction(' '))
+    .bottom_border(LineStyle::none().fill('=').junction('='));
 
 fn kv_per_mm(v: f64) -> String {
     format!("{:.3}", v / 1e6)
@@ -19,8 +37,9 @@ fn kv(v: f64) -> String {
     format!("{:.2}", v / 1e3)
 }
 
-/// Renders the report for a terminal.
-pub fn render(report: &Report) -> String {
+/// Renders the report for a terminal; the margin table lists `rows` rows (every row with
+/// `None`), and never fewer than the rows that do not pass.
+pub fn render(report: &Report, rows: Option<usize>) -> String {
     let mut out = String::new();
     let _ = writeln!(out, "{}", report.design.title);
     let _ = writeln!(
@@ -36,7 +55,7 @@ pub fn render(report: &Report) -> String {
     );
 
     let mut t = Table::new();
-    t.load_style(UTF8_FULL_CONDENSED)
+    t.load_style(STYLE)
         .set_content_arrangement(ContentArrangement::Dynamic);
     let study = report.grid_study.is_some();
     let mut header = vec![
@@ -86,7 +105,7 @@ pub fn render(report: &Report) -> String {
 
     if !report.probes.is_empty() {
         let mut p = Table::new();
-        p.load_style(UTF8_FULL_CONDENSED)
+        p.load_style(STYLE)
             .set_content_arrangement(ContentArrangement::Dynamic);
         p.set_header(vec![
             "probe",
@@ -110,7 +129,7 @@ pub fn render(report: &Report) -> String {
         let _ = writeln!(out, "{p}");
     }
 
-    render_margins(report, &mut out);
+    render_margins(report, rows, &mut out);
 
     if !report.grading.is_empty() {
         let _ = writeln!(out, "Grading at nominal");
@@ -166,9 +185,6 @@ pub fn render(report: &Report) -> String {
     out
 }
 
-/// Rows shown in the terminal beyond the failing and review rows (all rows are in the JSON).
-pub const MARGIN_ROWS_SHOWN: usize = 30;
-
 fn criterion_label(c: Criterion) -> &'static str {
     match c {
         Criterion::Paschen => "Paschen (gap voltage)",
@@ -198,7 +214,9 @@ pub(crate) fn value_with_unit(kind: LimitKind, v: f64) -> String {
 fn margin_row_cells(r: &MarginRow) -> Vec<Cell> {
     let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
     let mut criterion = match (r.criterion, r.kind) {
-        (Criterion::CriticalField, LimitKind::Voltage) => "long-gap limit (gap)".to_string(),
+        (Criterion::CriticalField, LimitKind::Voltage) => {
+            "limiting field (gap voltage)".to_string()
+        }
         (c, _) => criterion_label(c).to_string(),
     };
     if r.derating.factor != 1.0 {
@@ -229,7 +247,7 @@ fn margin_row_cells(r: &MarginRow) -> Vec<Cell> {
 }
 
 /// The ranked margin table, the hold-off voltages and the rows outside validity.
-fn render_margins(report: &Report, out: &mut String) {
+fn render_margins(report: &Report, rows: Option<usize>, out: &mut String) {
     if report.margins.is_empty() {
         for n in &report.margin_notes {
             let _ = writeln!(out, "note: {n}");
@@ -237,7 +255,7 @@ fn render_margins(report: &Report, out: &mut String) {
         return;
     }
     let mut t = Table::new();
-    t.load_style(UTF8_FULL_CONDENSED)
+    t.load_style(STYLE)
         .set_content_arrangement(ContentArrangement::Dynamic);
     t.set_header(vec![
         "rank",
@@ -258,7 +276,7 @@ fn render_margins(report: &Report, out: &mut String) {
         .filter(|r| r.margin.is_some())
         .collect();
     let not_pass = numbered.iter().filter(|r| r.status != Status::Pass).count();
-    let shown = numbered.len().min(MARGIN_ROWS_SHOWN.max(not_pass));
+    let shown = numbered.len().min(rows.unwrap_or(usize::MAX).max(not_pass));
     for r in &numbered[..shown] {
         t.add_row(margin_row_cells(r));
     }
@@ -272,7 +290,7 @@ fn render_margins(report: &Report, out: &mut String) {
     if shown < numbered.len() {
         let _ = writeln!(
             out,
-            "{} more rows, all passing, in the JSON report (--json).",
+            "{} more rows, all passing: --rows all lists them, and the JSON report (--json) has every row.",
             numbered.len() - shown
         );
     }
@@ -359,7 +377,7 @@ fn render_margins(report: &Report, out: &mut String) {
 /// Renders the expanded model (what was modelled) as a table.
 pub fn render_listing(rows: &[crate::design::ListingRow]) -> String {
     let mut t = Table::new();
-    t.load_style(UTF8_FULL_CONDENSED)
+    t.load_style(STYLE)
         .set_content_arrangement(ContentArrangement::Dynamic);
     t.set_header(vec![
         "primitive",
