@@ -51,6 +51,17 @@ pub fn analyze(
 ) -> Result<Analysis, AnalysisError> {
     let potentials = grading::potentials(model, stage_v)?;
     let mesh = Mesh::build(model)?;
+    analyze_on(model, mesh, potentials, params)
+}
+
+/// As [`analyze`], on a mesh already built from `model` (with `Mesh::build`) and with the
+/// electrode potentials already found.
+pub fn analyze_on(
+    model: &Model,
+    mesh: Mesh,
+    potentials: Vec<f64>,
+    params: &SolverParams,
+) -> Result<Analysis, AnalysisError> {
     let mut solver = Solver::new(&mesh, *params);
     let solution = solver.solve(&potentials, None)?;
     let fm = FieldMap::new(&mesh, model, &solution.phi, &potentials);

@@ -9,7 +9,7 @@
 //! sum, which is how the ladder takes its node strays and the fault replay its transients.
 
 use crate::field::EPSILON_0;
-use crate::mesh::{DIRS, FREE, Mesh, TANK};
+use crate::mesh::{DIRS, FixedId, Mesh};
 use crate::model::{Model, PotentialSpec};
 use crate::solve::{SolveError, Solver, SolverParams};
 use serde::Serialize;
@@ -78,23 +78,26 @@ pub fn conductor_charges(mesh: &Mesh, phi: &[f64], potentials: &[f64]) -> Vec<f6
     let nr = mesh.nr();
     // Owner of each node for the contour: the conductor it is fixed to, or the conductor a
     // free node's cut link reaches (the first found).
-    let owner: Vec<u32> = (0..n)
+    let owner: Vec<FixedId> = (0..n)
         .map(|k| match mesh.fixed[k] {
-            TANK => FREE,
-            FREE => mesh.cuts[k]
+            FixedId::TANK => FixedId::FREE,
+            FixedId::FREE => mesh.cuts[k]
                 .iter()
                 .flatten()
-                .find(|c| c.id != TANK)
-                .map_or(FREE, |c| c.id),
+                .find(|c| !c.id.is_tank())
+                .map_or(FixedId::FREE, |c| c.id),
             f => f,
         })
         .collect();
     let mut q = vec![0.0; mesh.n_conductors];
     for k in 0..n {
         let o = owner[k];
-        if o == FREE || mesh.fixed[k] != FREE {
+        if !mesh.fixed[k].is_free() {
             continue;
         }
+        let Some(oc) = o.conductor_index() else {
+            continue;
+        };
         let reg = node_coeffs(mesh, k, Scheme::Symmetric);
         let (i, j) = (k % nr, k / nr);
         for d in DIRS {
@@ -112,15 +115,11 @@ pub fn conductor_charges(mesh: &Mesh, phi: &[f64], potentials: &[f64]) -> Vec<f6
             match mesh.cuts[k][di] {
                 // The link ends on a surface of another conductor or the tank.
                 Some(cut) if cut.id != o => {
-                    let v = if cut.id == TANK {
-                        0.0
-                    } else {
-                        potentials[cut.id as usize]
-                    };
-                    q[o as usize] += reg.c[di] * (phi[k] - v);
+                    let v = cut.id.conductor_index().map_or(0.0, |c| potentials[c]);
+                    q[oc] += reg.c[di] * (phi[k] - v);
                 }
                 Some(_) => {}
-                None => q[o as usize] += reg.c[di] * (phi[k] - phi[nbk]),
+                None => q[oc] += reg.c[di] * (phi[k] - phi[nbk]),
             }
         }
     }

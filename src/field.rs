@@ -12,7 +12,7 @@
 //! than 1.7.
 
 use crate::geometry::Point;
-use crate::mesh::{DIRS, Dir, FREE, FixedId, Mesh, TANK};
+use crate::mesh::{DIRS, Dir, FixedId, Holder, Mesh};
 use crate::model::{Model, Tank};
 use rayon::prelude::*;
 use serde::Serialize;
@@ -40,7 +40,7 @@ pub enum Medium {
 #[derive(Debug, Clone, Copy, Serialize)]
 pub struct SurfaceSample {
     pub at: Point,
-    /// Conductor index, or `TANK`.
+    /// Conductor index, or the tank.
     pub conductor: FixedId,
     /// Magnitude of the field, V/m.
     pub e: f64,
@@ -115,11 +115,7 @@ impl<'a> FieldMap<'a> {
     }
 
     fn fixed_potential(&self, id: FixedId) -> f64 {
-        if id == TANK {
-            0.0
-        } else {
-            self.potentials[id as usize]
-        }
+        id.conductor_index().map_or(0.0, |c| self.potentials[c])
     }
 
     fn step(&self, k: usize, d: Dir) -> Option<(usize, f64)> {
@@ -155,8 +151,8 @@ impl<'a> FieldMap<'a> {
     }
 
     fn normal_of(&self, id: FixedId, p: Point) -> Point {
-        if id == TANK {
-            match self.model.tank {
+        match id.holder() {
+            Holder::Tank => match self.model.tank {
                 Tank::Sphere { inner_radius } => {
                     // Outward from the metal, i.e. towards the centre.
                     let dr = -p.r;
@@ -165,9 +161,9 @@ impl<'a> FieldMap<'a> {
                     Point::new(dr / n, dz / n)
                 }
                 Tank::Cylinder { .. } => Point::new(0.0, 0.0),
-            }
-        } else {
-            self.model.conductors[id as usize].shape.normal(p)
+            },
+            Holder::Conductor(c) => self.model.conductors[c].shape.normal(p),
+            Holder::Free => Point::new(0.0, 0.0),
         }
     }
 
@@ -176,14 +172,14 @@ impl<'a> FieldMap<'a> {
         let m = self.mesh;
         let mut out = Vec::new();
         for k in 0..m.nodes() {
-            if m.fixed[k] != FREE {
+            if !m.fixed[k].is_free() {
                 continue;
             }
             for d in DIRS {
                 let Some(cut) = m.cuts[k][d as usize] else {
                     continue;
                 };
-                if cut.id == TANK && matches!(self.model.tank, Tank::Cylinder { .. }) {
+                if cut.id.is_tank() && matches!(self.model.tank, Tank::Cylinder { .. }) {
                     // Flat tank walls are not checked here.
                     continue;
                 }
@@ -237,7 +233,7 @@ impl<'a> FieldMap<'a> {
                     xs.push((dist + c2.theta * h2, self.fixed_potential(c2.id)));
                     break;
                 }
-                if m.fixed[q] != FREE || !same(q) {
+                if !m.fixed[q].is_free() || !same(q) {
                     break;
                 }
                 dist += h2;
@@ -293,10 +289,9 @@ impl<'a> FieldMap<'a> {
             .collect();
         let mut best: Vec<Option<&SurfaceSample>> = vec![None; peaks.len()];
         for s in samples {
-            if s.conductor == TANK {
+            let Some(c) = s.conductor.conductor_index() else {
                 continue;
-            }
-            let c = s.conductor as usize;
+            };
             peaks[c].samples += 1;
             if best[c].is_none_or(|b| s.e > b.e) {
                 best[c] = Some(s);
@@ -334,10 +329,10 @@ impl<'a> FieldMap<'a> {
         samples: &[SurfaceSample],
         best: &SurfaceSample,
     ) -> (SurfaceSample, f64) {
-        if best.conductor == TANK {
+        let Some(c) = best.conductor.conductor_index() else {
             return (*best, 0.0);
-        }
-        let shape = &self.model.conductors[best.conductor as usize].shape;
+        };
+        let shape = &self.model.conductors[c].shape;
         let rho = shape.min_radius_of_curvature();
         let m = self.mesh;
         let (i, j) = (m.r.locate(best.at.r), m.z.locate(best.at.z));
@@ -421,7 +416,7 @@ impl<'a> FieldMap<'a> {
     /// to any neighbouring surface; zero inside conductors.
     pub fn node_field(&self, k: usize) -> [f64; 2] {
         let m = self.mesh;
-        if m.fixed[k] != FREE {
+        if !m.fixed[k].is_free() {
             return [0.0, 0.0];
         }
         let side = |d: Dir| -> Option<(f64, f64)> {
@@ -485,7 +480,7 @@ impl<'a> FieldMap<'a> {
         let mut wsum = 0.0;
         let fields = self.node_fields();
         for &(k, w) in &corners {
-            if m.fixed[k] == FREE {
+            if m.fixed[k].is_free() {
                 let f = fields[k];
                 e[0] += w * f[0];
                 e[1] += w * f[1];
@@ -511,7 +506,7 @@ impl<'a> FieldMap<'a> {
         let m = self.mesh;
         let mut w = 0.0;
         for k in 0..m.nodes() {
-            if m.fixed[k] != FREE {
+            if !m.fixed[k].is_free() {
                 continue;
             }
             let nc = crate::solve::operator::node_coeffs(m, k, op.scheme);

@@ -16,7 +16,7 @@
 
 use crate::field::{FieldMap, Medium, SurfaceSample};
 use crate::geometry::{Point, magnitude};
-use crate::mesh::{FREE, FixedId, TANK};
+use crate::mesh::FixedId;
 use serde::Serialize;
 
 /// What a field line ends on.
@@ -49,7 +49,7 @@ pub struct LineSample {
 /// A traced field line.
 #[derive(Debug, Clone, Serialize)]
 pub struct FieldLine {
-    /// Conductor the line starts on (index, or `TANK`).
+    /// Conductor the line starts on (index, or the tank).
     pub start_conductor: FixedId,
     pub medium: Medium,
     /// +1 when the line follows E (anodic start), −1 when it runs against E (cathodic start).
@@ -184,7 +184,7 @@ impl Tracer<'_, '_> {
         let m = fm.mesh;
         let i = m.r.locate(p.r);
         let j = m.z.locate(p.z);
-        let mut candidates: [FixedId; 20] = [FREE; 20];
+        let mut candidates: [FixedId; 20] = [FixedId::FREE; 20];
         let mut n = 0;
         for k in [
             m.idx(i, j),
@@ -194,14 +194,16 @@ impl Tracer<'_, '_> {
         ] {
             let ids = std::iter::once(m.fixed[k]).chain(m.cuts[k].iter().flatten().map(|c| c.id));
             for id in ids {
-                if id != FREE && id != TANK && !candidates[..n].contains(&id) && n < 20 {
+                if !id.is_free() && !id.is_tank() && !candidates[..n].contains(&id) && n < 20 {
                     candidates[n] = id;
                     n += 1;
                 }
             }
         }
         for &id in &candidates[..n] {
-            let index = id as usize;
+            let Some(index) = id.conductor_index() else {
+                continue;
+            };
             if index < model.conductors.len() && model.conductors[index].shape.sdf(p) <= 0.0 {
                 return Some(LineEnd::Conductor { index });
             }
@@ -263,11 +265,10 @@ impl Tracer<'_, '_> {
 
 /// The potential of a fixed surface.
 fn fixed_potential(fm: &FieldMap, id: FixedId) -> f64 {
-    if id == TANK {
-        0.0
-    } else {
-        fm.potentials.get(id as usize).copied().unwrap_or(0.0)
-    }
+    id.conductor_index()
+        .and_then(|c| fm.potentials.get(c))
+        .copied()
+        .unwrap_or(0.0)
 }
 
 /// Traces the field line that leaves the surface at `from` into its medium.
@@ -389,7 +390,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
     let end_point = Point::new(end_point.r.abs(), end_point.z);
     let f_end = fm.at(end_point);
     let v_end = match end {
-        LineEnd::Conductor { index } => fixed_potential(fm, index as FixedId),
+        LineEnd::Conductor { index } => fixed_potential(fm, FixedId::conductor(index)),
         LineEnd::Tank => 0.0,
         _ => f_end.potential_v,
     };

@@ -960,6 +960,25 @@ pub fn crossing<F: Fn(Point) -> f64>(f: F, a: Point, b: Point, tol: f64) -> f64 
     }
 }
 
+/// In-plane radius of curvature of `shape` at the surface point `p`, from the Laplacian of its
+/// signed distance (= 1/R for a distance function); `None` on a flat face or a sharp edge.
+pub fn local_radius(shape: &Shape, p: Point) -> Option<f64> {
+    let rc = shape.min_radius_of_curvature();
+    if rc.is_nan() || rc <= 0.0 {
+        return None;
+    }
+    let h = 1e-3 * rc;
+    let f = |r: f64, z: f64| shape.sdf(Point::new(r, z));
+    let lap = (f(p.r + h, p.z) + f(p.r - h, p.z) + f(p.r, p.z + h) + f(p.r, p.z - h)
+        - 4.0 * f(p.r, p.z))
+        / (h * h);
+    let scale = shape.scale().max(rc);
+    if !(lap.is_finite() && lap * scale > 1e-2) {
+        return None;
+    }
+    Some(1.0 / lap)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

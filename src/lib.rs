@@ -57,6 +57,7 @@ pub mod geometry;
 pub mod grading;
 pub mod ladder;
 pub mod margin;
+pub mod materials;
 pub mod mesh;
 pub mod model;
 pub mod report;

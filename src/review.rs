@@ -4,13 +4,13 @@
 //! Input: a validated model. Output: a `Review` holding each stage's plain result, used by
 //! `check`, `compare` and `sweep` alike so that all three see the same numbers.
 
-use crate::analysis::{Analysis, AnalysisError, analyze};
+use crate::analysis::{Analysis, AnalysisError, analyze, analyze_on};
 use crate::grading::GradingError;
 use crate::grading::summary::{ColumnSummary, summarize};
 use crate::margin::{MarginError, Margins, evaluate};
 use crate::model::Model;
 use crate::solve::SolverParams;
-use crate::stack::{StackAnalysis, StackError, analyze_stack};
+use crate::stack::{StackAnalysis, StackError, analyze_stack_keeping_mesh};
 use crate::study::Accuracy;
 use crate::study::{GridStudy, grid_study};
 use thiserror::Error;
@@ -59,13 +59,21 @@ pub fn review(
     params: &SolverParams,
     with_study: bool,
 ) -> Result<Review, ReviewError> {
-    let stack = analyze_stack(model, params, &Default::default())?;
+    // The automatic strays mesh the design; the first round solves the field on that mesh.
+    let (stack, mut first_mesh) = analyze_stack_keeping_mesh(model, params, &Default::default())?;
     let stage_v = stack.as_ref().map(|s| s.stage_voltages());
     let mut m = model.clone();
     let mut unknowns = Vec::new();
     let mut round = 0;
     loop {
-        let fine = analyze(&m, params, stage_v.as_deref())?;
+        let fine = match first_mesh.take() {
+            Some(mesh) => {
+                let potentials = crate::grading::potentials(&m, stage_v.as_deref())
+                    .map_err(AnalysisError::from)?;
+                analyze_on(&m, mesh, potentials, params)?
+            }
+            None => analyze(&m, params, stage_v.as_deref())?,
+        };
         unknowns.push(fine.solution.info.unknowns);
         let study = if with_study {
             Some(grid_study(&m, &fine, params, stage_v.as_deref())?)

@@ -82,7 +82,7 @@ fn auto_strays(
     model: &Model,
     stages: usize,
     solver: &SolverParams,
-) -> Result<(Vec<f64>, CapacitanceMatrix), StackError> {
+) -> Result<(Vec<f64>, CapacitanceMatrix, Mesh), StackError> {
     let drawn = stage_conductors(model, stages);
     let missing: Vec<String> = drawn
         .iter()
@@ -119,7 +119,7 @@ fn auto_strays(
             })
         })
         .collect();
-    Ok((per_stage, cm))
+    Ok((per_stage, cm, mesh))
 }
 
 /// Builds, and simulates, the stack of a design; `None` when it has no `[multiplier]`.
@@ -128,16 +128,28 @@ pub fn analyze_stack(
     solver: &SolverParams,
     controls: &SimControls,
 ) -> Result<Option<StackAnalysis>, StackError> {
+    analyze_stack_keeping_mesh(model, solver, controls).map(|(stack, _)| stack)
+}
+
+/// As [`analyze_stack`], also handing back the design's mesh when the automatic strays built
+/// it (so that a review solves the field on it instead of meshing the design again).
+pub fn analyze_stack_keeping_mesh(
+    model: &Model,
+    solver: &SolverParams,
+    controls: &SimControls,
+) -> Result<(Option<StackAnalysis>, Option<Mesh>), StackError> {
     let Some(m) = &model.multiplier else {
-        return Ok(None);
+        return Ok((None, None));
     };
+    let mut mesh = None;
     let (params, strays) = match m.stray_capacitance_f {
         Some(c) => (
             LadderParams::from_multiplier(m, None)?,
             StraySource::Given { farads: c },
         ),
         None => {
-            let (per_stage, cm) = auto_strays(model, m.stages, solver)?;
+            let (per_stage, cm, built) = auto_strays(model, m.stages, solver)?;
+            mesh = Some(built);
             let mut drawn = m.clone();
             drawn.stray_capacitance_f = Some(0.0);
             let mut p = LadderParams::from_multiplier(&drawn, None)?;
@@ -164,12 +176,15 @@ pub fn analyze_stack(
     };
     let result = simulate(&params, controls)?;
     let closed_form = closed_form(&params)?;
-    Ok(Some(StackAnalysis {
-        params,
-        strays,
-        result,
-        closed_form,
-    }))
+    Ok((
+        Some(StackAnalysis {
+            params,
+            strays,
+            result,
+            closed_form,
+        }),
+        mesh,
+    ))
 }
 
 /// A mismatch between the design's `terminal.voltage` and the multiplier's output beyond this
@@ -207,12 +222,14 @@ pub fn reconcile(terminal_v: f64, stack: &StackAnalysis) -> TerminalReconciliati
     };
     let within_tolerance = relative.abs() <= TERMINAL_MISMATCH_TOLERANCE;
     let kv = crate::units::kv_three_significant;
+    // The multiplier's diodes set its polarity; it is stated in the terminal's.
+    let sign = if terminal_v < 0.0 { -1.0 } else { 1.0 };
     let head = format!(
         "The field is solved at terminal.voltage = {}, which governs every margin; the \
          multiplier gives {} at no load and {} at load ({:+.1} % at no load, tolerance {:.0} %)",
         kv(terminal_v),
-        kv(no_load_v),
-        kv(loaded_v),
+        kv(sign * no_load_v),
+        kv(sign * loaded_v),
         100.0 * relative,
         100.0 * TERMINAL_MISMATCH_TOLERANCE
     );
@@ -223,15 +240,15 @@ pub fn reconcile(terminal_v: f64, stack: &StackAnalysis) -> TerminalReconciliati
             "{head}: at no load the terminal can reach {}, where every margin is {:.3} x the \
              printed one (the field scales with the voltage); set terminal.voltage to the \
              no-load output or limit the drive.",
-            kv(no_load_v),
+            kv(sign * no_load_v),
             v / no_load_v
         )
     } else {
         format!(
             "{head}: the stack as given does not reach the terminal voltage solved; the margins \
-             hold for {} but the machine runs at most at {}.",
+             hold for {} but the machine reaches at most {}.",
             kv(terminal_v),
-            kv(no_load_v)
+            kv(sign * no_load_v)
         )
     };
     TerminalReconciliation {

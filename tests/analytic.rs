@@ -66,7 +66,7 @@ fn peak_and_samples(model: &Model, snap: bool) -> (f64, Vec<f64>) {
         peak,
         samples
             .iter()
-            .filter(|s| s.conductor == 0)
+            .filter(|s| s.conductor.conductor_index() == Some(0))
             .map(|s| s.e)
             .collect(),
     )

@@ -60,14 +60,14 @@ fn demo_runs_and_writes_json_to_stdout() {
     common::assert_success(&out);
     let v = json_of(&out);
     assert_report_keys(&v);
-    // The terminal of the demo is at 800 kV.
+    // The terminal of the demo (an electron machine) is at -800 kV.
     let term = v["conductors"]
         .as_array()
         .unwrap()
         .iter()
         .find(|c| c["name"] == "terminal")
         .expect("terminal row");
-    assert_eq!(term["potential_v"].as_f64(), Some(800e3));
+    assert_eq!(term["potential_v"].as_f64(), Some(-800e3));
     assert!(term["numerical_error_v_per_m"].is_number());
 }
 

@@ -46,7 +46,7 @@ fn demo_a_expands_its_column_with_tube_electrodes() {
         }
     );
     assert_eq!((m.ends, m.side), (Wall::Grounded, Wall::Grounded));
-    assert!(close(m.terminal_voltage, 800e3));
+    assert!(close(m.terminal_voltage, -800e3)); // an electron machine: negative terminal
     let gas = m.gas.as_ref().unwrap();
     assert_eq!(gas.species, "SF6");
     assert_eq!(gas.components, vec![("SF6".to_string(), 1.0)]);
@@ -508,7 +508,7 @@ fn a_conductor_may_cut_through_a_dielectric_but_not_another_conductor() {
 
 #[test]
 fn built_in_permittivities_match_the_reference_table() {
-    use holdoff::design::materials::{Mark, lookup};
+    use holdoff::materials::{Mark, lookup};
     // (material, eps_r used, low and high end of the published range, mark), after the
     // permittivity table of docs/references.md §11: alumina from manufacturers' data sheets, the
     // rest from published permittivity tables; mineral oil and glass-epoxy from memory.

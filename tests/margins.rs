@@ -337,7 +337,7 @@ fn field_line_between_concentric_spheres_is_radial_with_the_analytic_field() {
     let hot = fine
         .samples
         .iter()
-        .filter(|s| s.conductor == 0)
+        .filter(|s| s.conductor.conductor_index() == Some(0))
         .max_by(|x, y| x.e.total_cmp(&y.e))
         .expect("samples");
     let line = fieldline::trace(&fm, hot, &TraceParams::default());

@@ -4,6 +4,8 @@
 //! docs/references.md §10): it points out of the inner sphere for V > 0 and into it for V < 0,
 //! so a negative terminal is the cathode and the tank the anode, and the reverse for V > 0.
 
+mod common;
+
 use holdoff::solve::SolverParams;
 
 fn sphere_in_sphere(volts: &str) -> holdoff::model::Model {
@@ -33,7 +35,11 @@ fn a_negative_terminal_is_the_cathode_and_a_positive_one_the_anode() {
     for (volts, sign) in [("-100 kV", -1.0), ("100 kV", 1.0)] {
         let model = sphere_in_sphere(volts);
         let fine = holdoff::analysis::analyze(&model, &SolverParams::default(), None).unwrap();
-        let ball: Vec<_> = fine.samples.iter().filter(|s| s.conductor == 0).collect();
+        let ball: Vec<_> = fine
+            .samples
+            .iter()
+            .filter(|s| s.conductor.conductor_index() == Some(0))
+            .collect();
         assert!(!ball.is_empty());
         for s in &ball {
             assert!(s.e_normal * sign > 0.0, "{volts}: e_normal {}", s.e_normal);
@@ -53,11 +59,11 @@ fn a_negative_terminal_is_the_cathode_and_a_positive_one_the_anode() {
 fn the_demo_column_has_the_same_vacuum_margins_at_either_polarity() {
     let text = include_str!("../examples/demo_750kv.toml");
     assert!(
-        text.contains("voltage = \"800 kV\""),
+        text.contains("voltage = \"-800 kV\""),
         "the demo's terminal line"
     );
     let worst = |voltage: &str| {
-        let t = text.replace("voltage = \"800 kV\"", &format!("voltage = \"{voltage}\""));
+        let t = text.replace("voltage = \"-800 kV\"", &format!("voltage = \"{voltage}\""));
         let model = holdoff::design::from_str(&t, "demo").expect("valid demo");
         let r = holdoff::review::review(&model, &holdoff::solve::SolverParams::default(), false)
             .expect("review");
@@ -87,10 +93,54 @@ fn the_demo_column_has_the_same_vacuum_margins_at_either_polarity() {
             .filter(|row| row.item.ends_with("(cathode)"))
             .filter_map(|row| row.margin)
             .fold(f64::INFINITY, f64::min);
-        (gap, cathode)
+        let gas = r
+            .margins
+            .rows
+            .iter()
+            .filter(|row| row.medium == holdoff::margin::RowMedium::Gas)
+            .filter_map(|row| row.margin)
+            .fold(f64::INFINITY, f64::min);
+        let holdoff_v = r.margins.holdoff.as_ref().map(|h| h.voltage_v);
+        (gap, cathode, gas, holdoff_v)
     };
-    let (gp, cp) = worst("800 kV");
-    let (gn, cn) = worst("-800 kV");
+    let (gp, cp, sp, hp) = worst("800 kV");
+    let (gn, cn, sn, hn) = worst("-800 kV");
     assert!((gn / gp - 1.0).abs() < 0.01, "gap margins {gp} / {gn}");
     assert!((cn / cp - 1.0).abs() < 0.01, "cathode margins {cp} / {cn}");
+    // The gas criteria carry no polarity term, so the gas rows are the same at either sign
+    // (to the solver's reproducibility), and the hold-off is the same magnitude.
+    assert!((sn / sp - 1.0).abs() < 1e-6, "gas margins {sp} / {sn}");
+    let (hp, hn) = (
+        hp.expect("hold-off at +800 kV"),
+        hn.expect("hold-off at -800 kV"),
+    );
+    assert!(hn > 0.0, "the hold-off is a magnitude: {hn}");
+    assert!((hn / hp - 1.0).abs() < 0.01, "hold-off {hp} / {hn}");
+}
+
+/// The built-in demo is an electron machine at a negative terminal: the multiplier's output is
+/// stated in the terminal's polarity, the hold-off as a magnitude, the grading chain current as
+/// a magnitude with its direction. The magnitudes are the positive machine's.
+#[test]
+fn the_demo_runs_at_a_negative_terminal() {
+    let out = common::holdoff().arg("demo").output().expect("runs");
+    assert!(out.status.success());
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("terminal -800.00 kV"), "{text}");
+    assert!(
+        text.contains("the multiplier gives -788 kV at no load"),
+        "{text}"
+    );
+    assert!(
+        text.contains("a magnitude, the terminal is negative"),
+        "{text}"
+    );
+    assert!(
+        text.contains("chain current 29.64 µA (from the grounded end up to the negative end)"),
+        "{text}"
+    );
+    // 800 kV over 27 gaps of 1 GOhm: 29.63 µA through the resistors, plus the insulator
+    // leakage (4.4e-4 of it): Ohm's law, a hand check.
+    let hand: f64 = 800e3 / 27.0 / 1e9 * (1.0 + 4.4e-4);
+    assert!((hand * 1e6 - 29.64).abs() < 0.01, "hand {hand}");
 }

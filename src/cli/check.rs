@@ -77,7 +77,9 @@ fn run_text(text: &str, file: &str, out: &OutputArgs) -> Result<ExitCode> {
         .with_grading(run.grading);
     holdoff::report::finite::ensure_finite(&report)?;
     if let Some(target) = &out.json {
-        let json = report.to_json();
+        let json = report
+            .to_json()
+            .context("cannot serialise the JSON report")?;
         if target == "-" {
             println!("{json}");
         } else {

@@ -41,6 +41,11 @@ pub fn run(args: &LadderArgs) -> Result<ExitCode> {
     }
     println!("{}\n", model.title);
     print!("{}", render(&section));
+    if model.terminal_voltage < 0.0 {
+        println!(
+            "polarity: negative terminal (diodes reversed); the stage voltages above are magnitudes"
+        );
+    }
     println!("\nCautions");
     let reconciled = holdoff::stack::reconcile(model.terminal_voltage, &stack);
     if !reconciled.within_tolerance {
@@ -53,7 +58,7 @@ pub fn run(args: &LadderArgs) -> Result<ExitCode> {
         .map(|j| (j, holdoff::report::cautions::STACK_ENERGY_BASIS.to_string()));
     for c in cautions(&CautionInputs::for_model(
         &model,
-        section.output_no_load_v,
+        section.output_no_load_v.abs() * model.terminal_voltage.signum(),
         stored,
     )) {
         println!("- {}: {}", c.topic, c.text);

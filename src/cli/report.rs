@@ -66,10 +66,10 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
     let faults_failed = fault_verdict.as_ref().is_some_and(|v| !v.pass);
     let mut note = markdown::render(&report, &listing, &text, faults.as_ref());
     if ext == "html" {
-        let map = plot::field_map(&model, &run.fine).map_err(anyhow::Error::msg)?;
-        let column = plot::column_field(&report).map_err(anyhow::Error::msg)?;
-        let along = plot::surface_profiles(&model, &run.fine, 3).map_err(anyhow::Error::msg)?;
-        let bars = plot::margin_bars(&report, 30).map_err(anyhow::Error::msg)?;
+        let map = plot::field_map(&model, &run.fine)?;
+        let column = plot::column_field(&report)?;
+        let along = plot::surface_profiles(&model, &run.fine, 3)?;
+        let bars = plot::margin_bars(&report, 30)?;
         let figures = vec![
             ("The modelled geometry (conductors grey) with |E| in colour (brightest at the highest field) and ten equipotentials.".to_string(), map),
             ("Peak surface field of every conductor against the height of its peak.".to_string(), column),

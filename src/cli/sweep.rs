@@ -92,8 +92,7 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         };
         let design_factor = model.checks.design_factor;
         let svg =
-            holdoff::report::plot::sweep_plot(&a.vary, scale, &unit, &out.points, design_factor)
-                .map_err(anyhow::Error::msg)?;
+            holdoff::report::plot::sweep_plot(&a.vary, scale, &unit, &out.points, design_factor)?;
         holdoff::report::write_atomic(path, svg.as_bytes())
             .with_context(|| format!("cannot write the plot {}", path.display()))?;
     }

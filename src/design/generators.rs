@@ -405,7 +405,7 @@ fn read_protective(
         "must be greater than zero",
     );
     let band = match &p.band {
-        None => Some(crate::grading::DEFAULT_FIRING_BAND),
+        None => Some(crate::materials::DEFAULT_FIRING_BAND),
         Some(v) => {
             let b = rd.quantity(v, &pat.key("band"), Dimension::Ratio);
             rd.check(

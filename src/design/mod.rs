@@ -8,7 +8,7 @@
 //!    keys are reported with the nearest valid key.
 //! 2. `validate`: units to SI (`units`), names and references resolved, `[[column]]`
 //!    generators expanded (`generators`), values and geometry checked (`shapes`, `checks`),
-//!    permittivities from the built-in table (`materials`).
+//!    permittivities from the built-in table (`crate::materials`).
 //!
 //! [`expansion_listing`] shows what was modelled, one row per primitive.
 
@@ -16,7 +16,6 @@ mod checks;
 pub mod diagnostic;
 mod generators;
 mod listing;
-pub mod materials;
 mod potential;
 mod problem;
 mod read;

@@ -4,11 +4,11 @@
 //! Input: the raw table with its spans. Output: the `model` value in SI units, or located
 //! problems (unknown gas, pressure or temperature out of range, design factor below 1, ...).
 
-use super::materials;
 use super::problem::nearest;
 use super::read::{At, Reader};
 use super::schema::{RawChecks, RawGas, RawMesh, RawMultiplier, RawProbe, RawTank, RawValue};
 use crate::geometry::Point;
+use crate::materials;
 use crate::model::{Checks, Gas, MeshSpec, Multiplier, Probe, Tank};
 use crate::units::{Dimension, format_si};
 use std::ops::Range;

@@ -8,8 +8,8 @@
 //! energy a spark releases, also with column sections shorted as during conditioning.
 
 use super::{
-    Basis, Evaluated, FaultError, Kind, ScenarioResult, Section, SparkEnergy, column_nodes,
-    field_margins, fired_gaps, quadratic, resistor_check, solve_networks,
+    Basis, Evaluated, FaultError, Kind, ScenarioResult, Section, SparkEnergy, TransientError,
+    column_nodes, field_margins, fired_gaps, quadratic, resistor_check, solve_networks,
 };
 use crate::analysis::Analysis;
 use crate::grading::{self, Network};
@@ -26,13 +26,13 @@ pub fn fast_step(
 ) -> Result<Vec<f64>, FaultError> {
     let n = c_f.len();
     if floating.len() != n || before.len() != n || after_held.len() != n {
-        return Err(FaultError::Transient(format!(
-            "{} electrodes in the capacitance matrix, but {} / {} / {} entries given",
-            n,
-            floating.len(),
-            before.len(),
-            after_held.len()
-        )));
+        return Err(TransientError::Lengths {
+            electrodes: n,
+            floating: floating.len(),
+            before: before.len(),
+            after: after_held.len(),
+        }
+        .into());
     }
     let f: Vec<usize> = (0..n).filter(|&i| floating[i]).collect();
     let mut after: Vec<f64> = (0..n)
@@ -55,9 +55,10 @@ pub fn fast_step(
             .map(|h| c_f[f[i]][h] * (after_held[h] - before[h]))
             .sum::<f64>()
     });
-    let dv = a.lu().solve(&b).ok_or_else(|| {
-        FaultError::Transient("the floating part of the capacitance matrix is singular".into())
-    })?;
+    let dv = a
+        .lu()
+        .solve(&b)
+        .ok_or_else(|| FaultError::from(TransientError::Singular))?;
     for (i, &e) in f.iter().enumerate() {
         after[e] = before[e] + dv[i];
     }
@@ -167,19 +168,18 @@ pub fn clamped_step(
         .iter()
         .find(|l| l.a.is_some_and(|a| a >= n) || l.b.is_some_and(|b| b >= n))
     {
-        return Err(FaultError::Transient(format!(
-            "a protective gap joins electrode {:?} and {:?}, but there are {n} electrodes",
-            l.a, l.b
-        )));
+        return Err(TransientError::GapElectrode {
+            a: l.a,
+            b: l.b,
+            electrodes: n,
+        }
+        .into());
     }
     if let Some(l) = links
         .iter()
         .find(|l| !(l.clamp_v.is_finite() && l.clamp_v > 0.0))
     {
-        return Err(FaultError::Transient(format!(
-            "a protective gap clamps at {} V; a positive voltage is needed",
-            l.clamp_v
-        )));
+        return Err(TransientError::GapClamp { clamp_v: l.clamp_v }.into());
     }
     let mut v = fast_step(c_f, floating, before, after_held)?;
     let voltage = |v: &[f64], l: &GapLink| l.b.map_or(0.0, |b| v[b]) - l.a.map_or(0.0, |a| v[a]);
@@ -256,9 +256,7 @@ pub fn clamped_step(
             };
         }
     }
-    Err(FaultError::Transient(format!(
-        "the protective gaps found no consistent set of conducting gaps in {max_passes} passes"
-    )))
+    Err(TransientError::GapsInconsistent { passes: max_passes }.into())
 }
 
 /// The floating electrodes in order, and each electrode's row among them (None when held).
@@ -321,11 +319,10 @@ fn bordered(
         }
         rhs[m + t] = -sign * l.clamp_v - held(l.a) + held(l.b);
     }
-    let x = a.lu().solve(&rhs).ok_or_else(|| {
-        FaultError::Transient(
-            "the capacitance matrix with the conducting protective gaps is singular".into(),
-        )
-    })?;
+    let x = a
+        .lu()
+        .solve(&rhs)
+        .ok_or_else(|| FaultError::from(TransientError::SingularWithGaps))?;
     let mut v: Vec<f64> = after_held.to_vec();
     for (r, &i) in f.iter().enumerate() {
         v[i] = x[r];
@@ -394,9 +391,7 @@ fn choose_sparked(
         .map(|(v, _)| v.abs())
         .fold(0.0, f64::max);
     if top <= 0.0 {
-        return Err(FaultError::Transient(
-            "no conductor apart from the grading electrodes is off earth potential".to_string(),
-        ));
+        return Err(TransientError::NoStrayConductor.into());
     }
     for ((s, v), f) in sparked.iter_mut().zip(before).zip(floating) {
         *s = !*f && (v.abs() - top).abs() <= 1e-9 * top;
@@ -422,20 +417,20 @@ pub fn spark_energy_with(
     }
     for sec in sections {
         let Some(n) = nets.get(sec.column) else {
-            return Err(FaultError::Transient(format!(
-                "shorted section names column {}, but the design has {} columns",
-                sec.column + 1,
-                nets.len()
-            )));
+            return Err(TransientError::SectionColumn {
+                column: sec.column + 1,
+                columns: nets.len(),
+            }
+            .into());
         };
         if sec.first_gap > sec.last_gap || sec.last_gap >= n.gaps() {
-            return Err(FaultError::Transient(format!(
-                "shorted section of column {}: gaps {} to {} are not within 1 to {}",
-                sec.column + 1,
-                sec.first_gap + 1,
-                sec.last_gap + 1,
-                n.gaps()
-            )));
+            return Err(TransientError::SectionGaps {
+                column: sec.column + 1,
+                first: sec.first_gap + 1,
+                last: sec.last_gap + 1,
+                gaps: n.gaps(),
+            }
+            .into());
         }
         let mut m = n.clone();
         for g in sec.first_gap..=sec.last_gap {

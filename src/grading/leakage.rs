@@ -2,7 +2,7 @@
 //!
 //! Input: a `model::Model` and a column index. Output: the bulk leakage resistance across each
 //! gap through the insulators that span it, from their materials' volume resistivity
-//! (`design::materials::VOLUME_RESISTIVITY_OHM_M`, common practice values), with the paths
+//! (`materials::VOLUME_RESISTIVITY_OHM_M`, common practice values), with the paths
 //! found and what was left out.
 //!
 //! A gap runs between two node planes: the electrode planes of the column, and at each end the
@@ -13,8 +13,8 @@
 //! z (midpoint rule in z and in r). Conductors cutting through an insulator (disc electrodes)
 //! are not subtracted and surface leakage is not included, which the report states.
 
-use crate::design::materials;
 use crate::geometry::{Point, Shape};
+use crate::materials;
 use crate::model::Model;
 use serde::Serialize;
 

@@ -187,11 +187,6 @@ const FLOOR_FRACTION: f64 = 1e-15;
 /// multiple of the median gap conductance (the clamp holds to about 1e-6).
 const CLAMP_FACTOR: f64 = 1e6;
 
-/// Default half-width of the firing band of a protective gap, as a fraction of its nominal
-/// firing voltage (common practice, no source: firing drifts with pressure and erosion,
-/// docs/practice.md §2.3).
-pub const DEFAULT_FIRING_BAND: f64 = 0.1;
-
 /// A protective spark gap across one gap or across a section of consecutive gaps.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ProtectiveGap {

@@ -8,6 +8,20 @@ fn opt_si(v: Option<f64>, dim: Dimension) -> String {
     v.map_or_else(|| "-".to_string(), |x| format_si(x, dim))
 }
 
+/// The chain current as a magnitude with its direction in words: positive into the `to` end
+/// (conventional current from the terminal down the chain), negative out of it (a negative
+/// terminal draws it up the chain from the grounded end).
+fn chain_current(a: Option<f64>) -> String {
+    match a {
+        None => "-".to_string(),
+        Some(a) if a < 0.0 => format!(
+            "{} (from the grounded end up to the negative end)",
+            format_si(-a, Dimension::Current)
+        ),
+        Some(a) => format_si(a, Dimension::Current),
+    }
+}
+
 /// The heading line of a column, then its detail lines.
 pub fn lines(s: &ColumnSummary) -> (String, Vec<String>) {
     let strings = if s.strings > 1 {
@@ -30,7 +44,7 @@ pub fn lines(s: &ColumnSummary) -> (String, Vec<String>) {
         "gap voltage {} to {}; chain current {}",
         format_si(s.gap_v_min, Dimension::Voltage),
         format_si(s.gap_v_max, Dimension::Voltage),
-        opt_si(s.chain_current_a, Dimension::Current)
+        chain_current(s.chain_current_a)
     ));
     let mut rating = match (s.rating_v, s.rating_margin) {
         (Some(r), Some(m)) => format!(

@@ -173,7 +173,7 @@ pub fn render(
     };
     let _ = writeln!(
         o,
-        "Hold-off voltage: {} with the limits as used ({}); {} with every limit ideal ({}).\n",
+        "Hold-off voltage: {} with the limits as used ({}); {} with every limit ideal ({}){}.\n",
         hv(report.holdoff_voltage_v),
         report
             .holdoff_limiting
@@ -184,6 +184,7 @@ pub fn render(
             .holdoff_ideal_limiting
             .as_ref()
             .map_or("-".into(), |h| format!("{}, {}", h.item, h.criterion_name)),
+        crate::report::holdoff_polarity(report.design.terminal_voltage_v),
     );
     for n in report.holdoff_notes.iter().chain(&report.margin_notes) {
         let _ = writeln!(o, "- {}", cell(n));

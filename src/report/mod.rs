@@ -61,7 +61,7 @@ pub struct SolverSeconds {
 
 #[derive(Debug, Clone, Serialize)]
 pub struct SolverInfo {
-    pub method: &'static str,
+    pub method: crate::solve::SolveMethod,
     pub scheme: crate::solve::operator::Scheme,
     pub unknowns: usize,
     pub multigrid_levels: usize,
@@ -139,6 +139,16 @@ pub struct Report {
 
 /// SHA-256 of the design text, hex.
 pub use crate::units::kv_three_significant;
+
+/// What follows a hold-off voltage: nothing for a positive terminal; for a negative one, that
+/// the hold-off is a magnitude (the terminal would reach minus that).
+pub fn holdoff_polarity(terminal_v: f64) -> &'static str {
+    if terminal_v < 0.0 {
+        "; a magnitude, the terminal is negative"
+    } else {
+        ""
+    }
+}
 
 pub fn sha256_hex(text: &str) -> String {
     let digest = Sha256::digest(text.as_bytes());
@@ -297,9 +307,10 @@ impl Report {
         self
     }
 
-    /// The report as pretty JSON.
-    pub fn to_json(&self) -> String {
-        serde_json::to_string_pretty(self).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
+    /// The report as pretty JSON; a value serde cannot write is an error, never a stand-in
+    /// document.
+    pub fn to_json(&self) -> Result<String, serde_json::Error> {
+        serde_json::to_string_pretty(self)
     }
 }
 

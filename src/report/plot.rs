@@ -6,18 +6,26 @@
 
 use crate::analysis::Analysis;
 use crate::field::FieldMap;
-use crate::mesh::FREE;
 use crate::model::Model;
 use crate::report::Report;
 use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 
-/// Errors of a figure are carried as text: a figure that cannot be drawn is reported, never
-/// silently dropped.
-pub type PlotResult = Result<String, String>;
+/// A figure that cannot be drawn: reported, never silently dropped. The drawing library's
+/// error is generic over its backend, so its message is kept.
+#[derive(Debug, thiserror::Error)]
+#[error("figure could not be drawn: {reason}")]
+pub struct PlotError {
+    pub reason: String,
+}
 
-fn err<E: std::fmt::Display>(e: E) -> String {
-    format!("figure could not be drawn: {e}")
+/// An SVG figure, or why it cannot be drawn.
+pub type PlotResult = Result<String, PlotError>;
+
+fn err<E: std::fmt::Display>(e: E) -> PlotError {
+    PlotError {
+        reason: e.to_string(),
+    }
 }
 
 /// Colour for a value in [0, 1]: dark blue → yellow, readable in print.
@@ -129,7 +137,7 @@ pub fn field_map(model: &Model, fine: &Analysis) -> PlotResult {
             e[j * nr + i] = f.field[0].hypot(f.field[1]);
             let k = mesh.idx(mesh.r.locate(p.r), mesh.z.locate(p.z));
             solid[j * nr + i] =
-                mesh.fixed[k] != FREE || model.conductors.iter().any(|c| c.shape.contains(p));
+                !mesh.fixed[k].is_free() || model.conductors.iter().any(|c| c.shape.contains(p));
         }
     }
     let grid = Raster {
@@ -265,7 +273,7 @@ struct Frame<'t> {
 
 fn xy_figure(
     frame: Frame<'_>,
-    draw: impl FnOnce(&mut XyChart<'_, '_>) -> Result<(), String>,
+    draw: impl FnOnce(&mut XyChart<'_, '_>) -> Result<(), PlotError>,
 ) -> PlotResult {
     let mut svg = String::new();
     {
@@ -495,7 +503,7 @@ pub fn surface_profiles(model: &Model, fine: &Analysis, conductors: usize) -> Pl
         let mut pts: Vec<(f64, f64)> = fine
             .samples
             .iter()
-            .filter(|s| s.conductor == k as u32)
+            .filter(|s| s.conductor.conductor_index() == Some(k))
             .map(|s| {
                 let ang = (s.at.z - cz).atan2(s.at.r - cr).to_degrees();
                 (ang, s.e / 1e6)

@@ -316,11 +316,12 @@ fn render_margins(report: &Report, out: &mut String) {
     if let Some(r) = derated {
         let _ = writeln!(out, "derating: {}", r.derating.basis);
     }
+    let polarity = super::holdoff_polarity(report.design.terminal_voltage_v);
     match (&report.holdoff_limiting, &report.holdoff_ideal_limiting) {
         (Some(h), hi) => {
             let _ = writeln!(
                 out,
-                "\nHold-off voltage {} (limits as used), limiting: {} — {}",
+                "\nHold-off voltage {} (limits as used{polarity}), limiting: {} — {}",
                 super::kv_three_significant(h.voltage_v),
                 h.item,
                 h.criterion_name
@@ -328,7 +329,7 @@ fn render_margins(report: &Report, out: &mut String) {
             if let Some(hi) = hi {
                 let _ = writeln!(
                     out,
-                    "Hold-off voltage {} (every limit ideal), limiting: {} — {}",
+                    "Hold-off voltage {} (every limit ideal{polarity}), limiting: {} — {}",
                     super::kv_three_significant(hi.voltage_v),
                     hi.item,
                     hi.criterion_name

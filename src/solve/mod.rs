@@ -26,13 +26,37 @@ pub struct SolverParams {
     pub multigrid: MgParams,
 }
 
+/// The Krylov method of a solve (printed and serialised as its full name).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SolveMethod {
+    /// Conjugate gradients (the symmetric scheme).
+    ConjugateGradients,
+    /// BiCGStab (the Shortley-Weller scheme, not symmetric).
+    BiCgStab,
+}
+
+impl std::fmt::Display for SolveMethod {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            SolveMethod::ConjugateGradients => "multigrid-preconditioned conjugate gradients",
+            SolveMethod::BiCgStab => "multigrid-preconditioned BiCGStab",
+        })
+    }
+}
+
+impl Serialize for SolveMethod {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(self)
+    }
+}
+
 /// Figures of one solve, for the report.
 #[derive(Debug, Clone, Serialize)]
 pub struct SolveInfo {
     pub nodes: usize,
     pub unknowns: usize,
     pub scheme: Scheme,
-    pub method: &'static str,
+    pub method: SolveMethod,
     pub multigrid_levels: usize,
     pub iterations: usize,
     pub relative_residual: f64,
@@ -141,11 +165,11 @@ impl Solver {
         let (info, method) = match self.params.scheme {
             Scheme::Symmetric => (
                 pcg(&self.op, &mut self.mg, &b, &mut x, &self.params.krylov),
-                "multigrid-preconditioned conjugate gradients",
+                SolveMethod::ConjugateGradients,
             ),
             Scheme::ShortleyWeller => (
                 bicgstab(&self.op, &mut self.mg, &b, &mut x, &self.params.krylov),
-                "multigrid-preconditioned BiCGStab",
+                SolveMethod::BiCgStab,
             ),
         };
         let seconds_solve = t0.elapsed().as_secs_f64();

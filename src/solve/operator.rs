@@ -23,7 +23,7 @@
 //! The rows are kept as five-point stencils (40 bytes a row, against 64 for CSR with 32-bit
 //! indices); `to_csr` gives the same matrix as a sprs CSR for outside solvers and checks.
 
-use crate::mesh::{DIRS, Dir, FREE, FixedId, Mesh, TANK};
+use crate::mesh::{DIRS, Dir, FREE, FixedId, Mesh};
 use serde::Serialize;
 use sprs::CsMatI;
 
@@ -237,13 +237,7 @@ impl Operator {
     pub fn rhs(&self, potentials: &[f64]) -> Vec<f64> {
         let n = self.fixed.len();
         let mut b = vec![0.0; n];
-        let pot = |id: FixedId| -> f64 {
-            if id == TANK {
-                0.0
-            } else {
-                potentials[id as usize]
-            }
-        };
+        let pot = |id: FixedId| -> f64 { id.conductor_index().map_or(0.0, |c| potentials[c]) };
         for (bk, &id) in b.iter_mut().zip(&self.fixed) {
             if id != FREE {
                 *bk = pot(id);

@@ -1,4 +1,6 @@
-//! Built-in relative permittivities of common high-voltage insulators.
+//! Built-in material tables and defaults read by several stages: relative permittivities of
+//! common high-voltage insulators, their volume resistivities, and the default firing band of a
+//! protective gap.
 //!
 //! Input: a material name from `[[dielectric]] material = "..."`. Output: the ε_r used for the
 //! field solution, the published range it stands for, where the value comes from and how sure
@@ -9,6 +11,11 @@
 //! ratio, not the permittivity, decides (see the same section), which the reports state.
 
 use std::fmt;
+
+/// Default half-width of the firing band of a protective gap, as a fraction of its nominal
+/// firing voltage (common practice, no source: firing drifts with pressure and erosion,
+/// docs/practice.md §2.3).
+pub const DEFAULT_FIRING_BAND: f64 = 0.1;
 
 /// How far a value can be trusted.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

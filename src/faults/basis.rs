@@ -1,0 +1,291 @@
+//! The superposition basis: one unit-potential solve per electrode on one mesh, held on the
+//! free nodes, with the capacitance matrix; any set of electrode potentials is then a weighted
+//! sum instead of a new solve.
+
+use super::*;
+
+/// Runs of unit solves the basis makes side by side (fixed, so that the warm starts and hence
+/// the basis do not depend on the machine's thread count).
+pub(super) const BASIS_STREAMS: usize = 2;
+
+/// Free nodes summed together in one block of a superposition, so that the blocks of the
+/// results stay in cache while every unit solution streams through them once.
+pub(super) const SUM_BLOCK: usize = 2048;
+
+/// The unit-potential solutions of the electrodes, with their capacitance matrix.
+///
+/// Each unit solution is held on the free nodes only (a fixed node's potential is its
+/// conductor's) and in single precision: its rounding, 6e-8 of the unit potential, lies far
+/// below the solver's own error and the discretisation error (tests/faults.rs
+/// `basis_field_equals_a_direct_solve` measures the whole difference against direct solves).
+/// The sums are formed in double precision.
+pub struct Basis {
+    pub electrodes: Vec<Electrode>,
+    /// Electrode of each conductor (None for earthed conductors).
+    pub conductor_electrode: Vec<Option<usize>>,
+    /// Mesh nodes that are free, in order; the unit solutions are stored on these.
+    free: Vec<u32>,
+    /// Fixed id of every mesh node (`FixedId::FREE` for a free node).
+    fixed: Vec<crate::mesh::FixedId>,
+    /// Unit solution of each electrode on the free nodes.
+    phi: Vec<Vec<f32>>,
+    pub capacitance: CapacitanceMatrix,
+    /// Figures of the last unit solve (for the analyses formed from the basis).
+    pub info: SolveInfo,
+}
+
+impl Basis {
+    /// One unit solve per electrode on `mesh`, reusing one operator and hierarchy.
+    pub fn build(model: &Model, mesh: &Mesh, params: &SolverParams) -> Result<Basis, FaultError> {
+        Self::build_within(model, mesh, params, crate::mesh::Budget::of_machine())
+    }
+
+    /// As [`Basis::build`], refusing a basis that would not fit `budget`.
+    pub fn build_within(
+        model: &Model,
+        mesh: &Mesh,
+        params: &SolverParams,
+        budget: crate::mesh::Budget,
+    ) -> Result<Basis, FaultError> {
+        let groups = electrodes(model);
+        let n = groups.len();
+        let free: Vec<u32> = (0..mesh.nodes())
+            .filter(|&k| mesh.fixed[k].is_free())
+            .map(|k| k as u32)
+            .collect();
+        // The unit solutions (single precision, free nodes), plus one field per worker thread
+        // while the scenarios run.
+        let need = (n * free.len() * 4 + rayon::current_num_threads() * mesh.nodes() * 8) as f64;
+        if need > budget.bytes() {
+            return Err(FaultError::TooLarge {
+                electrodes: n,
+                nodes: mesh.nodes(),
+                gib: need / (1024.0 * 1024.0 * 1024.0),
+                budget: budget.describe(),
+            });
+        }
+        let mut conductor_electrode = vec![None; model.conductors.len()];
+        for (e, g) in groups.iter().enumerate() {
+            for &k in &g.conductors {
+                conductor_electrode[k] = Some(e);
+            }
+        }
+        // The unit solves run in BASIS_STREAMS contiguous runs side by side, all on one
+        // operator and one multigrid hierarchy, set up once (each run has its own copy of the
+        // hierarchy's work vectors), and each solve warm-started from the previous one of its
+        // run. The split does not depend on the thread count, so the basis is the same
+        // everywhere.
+        let per = n.div_ceil(BASIS_STREAMS).max(1);
+        let runs: Vec<Vec<(usize, &Electrode)>> = groups
+            .iter()
+            .enumerate()
+            .collect::<Vec<_>>()
+            .chunks(per)
+            .map(|c| c.to_vec())
+            .collect();
+        let setup = Solver::new(mesh, *params);
+        let free_ref = &free;
+        type Unit = (usize, Vec<f32>, Vec<f64>, SolveInfo);
+        let solved: Vec<Vec<Unit>> = runs
+            .par_iter()
+            .map(|run| -> Result<Vec<Unit>, FaultError> {
+                let mut solver = setup.clone();
+                let mut out: Vec<Unit> = Vec::with_capacity(run.len());
+                let mut last: Option<Vec<f64>> = None;
+                for &(j, g) in run {
+                    let mut pots = vec![0.0; model.conductors.len()];
+                    for &k in &g.conductors {
+                        pots[k] = 1.0;
+                    }
+                    let sol = solver.solve(&pots, last.as_deref())?;
+                    let q = conductor_charges(mesh, &sol.phi, &pots);
+                    let unit: Vec<f32> = free_ref
+                        .iter()
+                        .map(|&k| sol.phi[k as usize] as f32)
+                        .collect();
+                    out.push((j, unit, q, sol.info));
+                    last = Some(sol.phi);
+                }
+                Ok(out)
+            })
+            .collect::<Result<_, _>>()?;
+        drop(setup);
+        let mut c_f = vec![vec![0.0; n]; n];
+        let mut phi: Vec<Vec<f32>> = Vec::with_capacity(n);
+        let mut iterations = 0;
+        let mut info = None;
+        for (j, unit_phi, q, unit_info) in solved.into_iter().flatten() {
+            iterations += unit_info.iterations;
+            for (i, gi) in groups.iter().enumerate() {
+                c_f[i][j] = gi.conductors.iter().map(|&k| q[k]).sum();
+            }
+            info = Some(unit_info);
+            phi.push(unit_phi);
+        }
+        let Some(info) = info else {
+            return Err(TransientError::NothingOffEarth.into());
+        };
+        let scale = (0..n).map(|i| c_f[i][i].abs()).fold(0.0, f64::max);
+        let mut asymmetry: f64 = 0.0;
+        for (i, row) in c_f.iter().enumerate() {
+            for (j, &cij) in row.iter().enumerate().take(i) {
+                asymmetry = asymmetry.max((cij - c_f[j][i]).abs());
+            }
+        }
+        Ok(Basis {
+            electrodes: groups.clone(),
+            conductor_electrode,
+            free,
+            fixed: mesh.fixed.clone(),
+            phi,
+            capacitance: CapacitanceMatrix {
+                electrodes: groups,
+                c_f,
+                asymmetry: if scale > 0.0 { asymmetry / scale } else { 0.0 },
+                iterations,
+            },
+            info,
+        })
+    }
+
+    /// Electrode potentials from conductor potentials (the first conductor of each electrode).
+    pub fn electrode_potentials(&self, potentials: &[f64]) -> Vec<f64> {
+        self.electrodes
+            .iter()
+            .map(|e| {
+                e.conductors
+                    .first()
+                    .and_then(|&k| potentials.get(k))
+                    .copied()
+                    .unwrap_or(0.0)
+            })
+            .collect()
+    }
+
+    /// Conductor potentials from electrode potentials (earthed conductors at 0).
+    pub fn conductor_potentials(&self, electrode_v: &[f64]) -> Vec<f64> {
+        self.conductor_electrode
+            .iter()
+            .map(|e| e.and_then(|e| electrode_v.get(e)).copied().unwrap_or(0.0))
+            .collect()
+    }
+
+    /// The field of the given electrode potentials: φ = Σ_e V_e φ_e.
+    pub fn field(&self, electrode_v: &[f64]) -> Vec<f64> {
+        let zero_v = vec![0.0; self.electrodes.len()];
+        let zero_phi = vec![0.0; self.fixed.len()];
+        self.field_from(&zero_phi, &zero_v, electrode_v)
+    }
+
+    /// The field of `electrode_v` from a known one, `base_phi` at `base_v`: φ = φ_base +
+    /// Σ_e (V_e − V_base,e) φ_e over the electrodes whose potential differs, which for a
+    /// fault in one column of several leaves the others out of the sum.
+    pub fn field_from(&self, base_phi: &[f64], base_v: &[f64], electrode_v: &[f64]) -> Vec<f64> {
+        self.fields_from(
+            base_phi,
+            base_v,
+            std::slice::from_ref(&electrode_v.to_vec()),
+        )
+        .pop()
+        .unwrap_or_default()
+    }
+
+    /// The fields of many sets of electrode potentials from one known field, as
+    /// [`Basis::field_from`] for each: every unit solution streams through memory once for the
+    /// whole set (block by block of free nodes, the blocks in parallel), not once per field.
+    pub fn fields_from(
+        &self,
+        base_phi: &[f64],
+        base_v: &[f64],
+        sets: &[Vec<f64>],
+    ) -> Vec<Vec<f64>> {
+        let ne = self.phi.len();
+        // Weights per set and electrode, and the electrodes any set moves.
+        let weights: Vec<Vec<f64>> = sets
+            .iter()
+            .map(|ev| {
+                (0..ne)
+                    .map(|e| {
+                        let v = ev.get(e).copied().unwrap_or(0.0);
+                        let b = base_v.get(e).copied().unwrap_or(0.0);
+                        if v != b { v - b } else { 0.0 }
+                    })
+                    .collect()
+            })
+            .collect();
+        let moved: Vec<usize> = (0..ne)
+            .filter(|&e| weights.iter().any(|w| w[e] != 0.0))
+            .collect();
+        let m = sets.len();
+        let nf = self.free.len();
+        // Sums on the free nodes, laid out block by block: block b holds the m partial sums
+        // of its free nodes one after another.
+        let mut acc = vec![0.0f64; nf * m];
+        let kernel = |(b, chunk): (usize, &mut [f64])| {
+            let start = b * SUM_BLOCK;
+            let len = SUM_BLOCK.min(nf - start);
+            for &e in &moved {
+                let p = &self.phi[e][start..start + len];
+                for (s, w) in weights.iter().enumerate() {
+                    let w = w[e];
+                    if w == 0.0 {
+                        continue;
+                    }
+                    chunk[s * len..(s + 1) * len]
+                        .iter_mut()
+                        .zip(p)
+                        .for_each(|(o, &x)| *o += w * f64::from(x));
+                }
+            }
+        };
+        acc.par_chunks_mut(SUM_BLOCK * m.max(1))
+            .enumerate()
+            .for_each(kernel);
+        let fixed_shift = |k: usize, w: &[f64]| -> f64 {
+            let Some(c) = self.fixed[k].conductor_index() else {
+                return 0.0;
+            };
+            self.conductor_electrode
+                .get(c)
+                .copied()
+                .flatten()
+                .map_or(0.0, |e| w[e])
+        };
+        weights
+            .par_iter()
+            .enumerate()
+            .map(|(s, w)| {
+                let mut out = base_phi.to_vec();
+                for (k, o) in out.iter_mut().enumerate() {
+                    *o += fixed_shift(k, w);
+                }
+                for (f, &k) in self.free.iter().enumerate() {
+                    let (b, i) = (f / SUM_BLOCK, f % SUM_BLOCK);
+                    let len = SUM_BLOCK.min(nf - b * SUM_BLOCK);
+                    out[k as usize] += acc[b * SUM_BLOCK * m + s * len + i];
+                }
+                out
+            })
+            .collect()
+    }
+
+    /// Electrostatic energy of the electrodes at the given potentials, ½ VᵀCV, J.
+    pub fn energy_j(&self, electrode_v: &[f64]) -> f64 {
+        quadratic(&self.capacitance.c_f, electrode_v)
+    }
+
+    /// Bytes held by the unit solutions.
+    pub fn memory_bytes(&self) -> usize {
+        self.phi.iter().map(|p| p.len() * 4).sum::<usize>() + self.free.len() * 4
+    }
+}
+
+pub(super) fn quadratic(c: &[Vec<f64>], v: &[f64]) -> f64 {
+    let mut e = 0.0;
+    for (row, vi) in c.iter().zip(v) {
+        for (cij, vj) in row.iter().zip(v) {
+            e += vi * cij * vj;
+        }
+    }
+    0.5 * e
+}
