@@ -42,9 +42,9 @@ impl BBox {
     }
 }
 
-/// One piece of a filleted polygon outline.
+/// One piece of an outline: a filleted polygon's, or a drawing's.
 #[derive(Debug, Clone, PartialEq, Serialize)]
-enum Piece {
+pub enum Piece {
     Line {
         a: Point,
         b: Point,
@@ -87,6 +87,30 @@ pub enum Shape {
         #[serde(skip)]
         outline: Outline,
     },
+    /// A closed outline of lines and true circular arcs read from a drawing
+    /// (`drawing::read_outline`), with the drawing it came from.
+    Drawn {
+        source: DrawingSource,
+        #[serde(skip)]
+        outline: Outline,
+    },
+}
+
+/// Where a drawn outline came from, so that a listing or a review note names the drawing that
+/// was modelled.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DrawingSource {
+    /// The drawing's path as the design file gives it.
+    pub file: String,
+    pub layer: String,
+    /// SHA-256 of the drawing's bytes, hex.
+    pub sha256: String,
+    /// Entities of the drawing that make up the outline.
+    pub entities: usize,
+    /// Lines and arcs of the outline after chaining.
+    pub pieces: usize,
+    /// Handle (hex) of the outline's first entity.
+    pub first_handle: String,
 }
 
 /// The derived outline of a polygon: its lines and arcs in order around the loop. Kept
@@ -148,22 +172,11 @@ impl Shape {
                 let (lo, hi) = if *r0 <= 0.0 { (-r1, *r1) } else { (*r0, *r1) };
                 rounded_box(p, lo, hi, *z0, *z1, *corner_radius)
             }
-            Shape::Polygon { outline, .. } => {
-                let mut d = f64::INFINITY;
-                for piece in &outline.pieces {
-                    if let Piece::Line { a, b } = piece
-                        && on_axis(*a, *b)
-                    {
-                        continue;
-                    }
-                    d = d.min(piece_distance(piece, p));
-                }
-                if inside_outline(&outline.pieces, p) {
-                    -d
-                } else {
-                    d
-                }
-            }
+            Shape::Polygon { outline, .. } => outline_sdf(outline, p),
+            // A solid of revolution is even in r: mirrored, the distance stays exact across
+            // the axis, so that the normal at a vertex on the axis (from the distance's
+            // gradient) is along the axis.
+            Shape::Drawn { outline, .. } => outline_sdf(outline, Point::new(p.r.abs(), p.z)),
         }
     }
 
@@ -220,6 +233,7 @@ impl Shape {
                 }
                 b
             }
+            Shape::Drawn { outline, .. } => outline.bbox(),
         }
     }
 
@@ -241,6 +255,19 @@ impl Shape {
             } => {
                 if outline.sharp.is_empty() {
                     *fillet
+                } else {
+                    0.0
+                }
+            }
+            // As a polygon: the smallest arc, or 0 (no finite radius to resolve) when a corner
+            // is sharp or the outline has no arc.
+            Shape::Drawn { outline, .. } => {
+                let rc = outline
+                    .arcs()
+                    .map(|(_, radius)| radius)
+                    .fold(f64::INFINITY, f64::min);
+                if outline.sharp.is_empty() && rc.is_finite() {
+                    rc
                 } else {
                     0.0
                 }
@@ -293,6 +320,7 @@ impl Shape {
                     .map(|v| (bx(v.r - f, v.r + f, v.z - f, v.z + f), *fillet))
                     .collect()
             }
+            Shape::Drawn { outline, .. } => outline.arcs().collect(),
         }
     }
 
@@ -319,7 +347,7 @@ impl Shape {
                 }
                 c
             }
-            Shape::Polygon { outline, .. } => outline.sharp.clone(),
+            Shape::Polygon { outline, .. } | Shape::Drawn { outline, .. } => outline.sharp.clone(),
         }
     }
 
@@ -363,12 +391,49 @@ impl Shape {
                 }
                 (r, z)
             }
+            Shape::Drawn { outline, .. } => {
+                // Straight faces parallel to an axis (the axis itself is no face).
+                let mut r = Vec::new();
+                let mut z = Vec::new();
+                for piece in &outline.pieces {
+                    if let Piece::Line { a, b } = piece {
+                        if on_axis(*a, *b) {
+                            continue;
+                        }
+                        if (a.r - b.r).abs() < 1e-12 {
+                            r.push(a.r);
+                        }
+                        if (a.z - b.z).abs() < 1e-12 {
+                            z.push(a.z);
+                        }
+                    }
+                }
+                (r, z)
+            }
         }
     }
 
     /// Is `p` inside (or on) the solid?
     pub fn contains(&self, p: Point) -> bool {
         self.sdf(p) <= 0.0
+    }
+}
+
+/// Signed distance to a closed outline of lines and arcs; edges on the axis are no surface.
+fn outline_sdf(outline: &Outline, p: Point) -> f64 {
+    let mut d = f64::INFINITY;
+    for piece in &outline.pieces {
+        if let Piece::Line { a, b } = piece
+            && on_axis(*a, *b)
+        {
+            continue;
+        }
+        d = d.min(piece_distance(piece, p));
+    }
+    if inside_outline(&outline.pieces, p) {
+        -d
+    } else {
+        d
     }
 }
 
@@ -553,6 +618,251 @@ fn build_outline(points: &[Point], fillet: f64) -> Outline {
         });
     }
     out
+}
+
+impl Piece {
+    /// The point at angle `ang` on an arc's circle.
+    fn on_circle(c: Point, radius: f64, ang: f64) -> Point {
+        Point::new(c.r + radius * ang.cos(), c.z + radius * ang.sin())
+    }
+
+    /// Where the piece starts.
+    pub fn start(&self) -> Point {
+        match self {
+            Piece::Line { a, .. } => *a,
+            Piece::Arc { c, radius, a0, .. } => Self::on_circle(*c, *radius, *a0),
+        }
+    }
+
+    /// Where the piece ends.
+    pub fn end(&self) -> Point {
+        match self {
+            Piece::Line { b, .. } => *b,
+            Piece::Arc {
+                c,
+                radius,
+                a0,
+                sweep,
+            } => Self::on_circle(*c, *radius, a0 + sweep),
+        }
+    }
+
+    /// The same piece run the other way.
+    pub fn reversed(&self) -> Piece {
+        match self {
+            Piece::Line { a, b } => Piece::Line { a: *b, b: *a },
+            Piece::Arc {
+                c,
+                radius,
+                a0,
+                sweep,
+            } => Piece::Arc {
+                c: *c,
+                radius: *radius,
+                a0: a0 + sweep,
+                sweep: -sweep,
+            },
+        }
+    }
+
+    /// Unit tangent in the running sense at the start (`at_end` false) or the end.
+    fn tangent(&self, at_end: bool) -> Point {
+        match self {
+            Piece::Line { a, b } => {
+                let d = sub(*b, *a);
+                let l = norm(d);
+                if l > 0.0 {
+                    Point::new(d.r / l, d.z / l)
+                } else {
+                    Point::new(0.0, 0.0)
+                }
+            }
+            Piece::Arc { a0, sweep, .. } => {
+                let ang = if at_end { a0 + sweep } else { *a0 };
+                let s = sweep.signum();
+                Point::new(-s * ang.sin(), s * ang.cos())
+            }
+        }
+    }
+
+    /// Length of the piece.
+    pub fn length(&self) -> f64 {
+        match self {
+            Piece::Line { a, b } => norm(sub(*b, *a)),
+            Piece::Arc { radius, sweep, .. } => radius * sweep.abs(),
+        }
+    }
+
+    /// The point a fraction `t` in [0, 1] along the piece.
+    pub fn at(&self, t: f64) -> Point {
+        match self {
+            Piece::Line { a, b } => Point::new(a.r + t * (b.r - a.r), a.z + t * (b.z - a.z)),
+            Piece::Arc {
+                c,
+                radius,
+                a0,
+                sweep,
+            } => Self::on_circle(*c, *radius, a0 + t * sweep),
+        }
+    }
+
+    /// Twice the signed area this piece adds to the loop's shoelace sum (∮ r dz − z dr).
+    fn area2(&self) -> f64 {
+        match self {
+            Piece::Line { a, b } => a.r * b.z - b.r * a.z,
+            Piece::Arc {
+                c,
+                radius,
+                a0,
+                sweep,
+            } => {
+                let a1 = a0 + sweep;
+                c.r * radius * (a1.sin() - a0.sin()) - c.z * radius * (a1.cos() - a0.cos())
+                    + radius * radius * sweep
+            }
+        }
+    }
+
+    /// Bounding box of the piece: its ends, and the extremes of an arc's circle that the arc
+    /// passes.
+    fn bbox(&self) -> BBox {
+        let (s, e) = (self.start(), self.end());
+        let mut b = BBox {
+            r_min: s.r.min(e.r),
+            r_max: s.r.max(e.r),
+            z_min: s.z.min(e.z),
+            z_max: s.z.max(e.z),
+        };
+        if let Piece::Arc {
+            c,
+            radius,
+            a0,
+            sweep,
+        } = self
+        {
+            use std::f64::consts::{FRAC_PI_2, TAU};
+            for k in 0..4 {
+                let ang = k as f64 * FRAC_PI_2;
+                let rel = ((ang - a0) * sweep.signum()).rem_euclid(TAU);
+                if rel <= sweep.abs() {
+                    let q = Self::on_circle(*c, *radius, ang);
+                    b.r_min = b.r_min.min(q.r);
+                    b.r_max = b.r_max.max(q.r);
+                    b.z_min = b.z_min.min(q.z);
+                    b.z_max = b.z_max.max(q.z);
+                }
+            }
+        }
+        b
+    }
+}
+
+impl Outline {
+    /// The outline of a closed loop of pieces, each starting where the one before ends (the
+    /// last ending where the first starts). Sharp corners are found as for a polygon: a joint
+    /// where the loop turns by more than 5° towards its inside (a convex corner), and a point
+    /// on the axis where the body of revolution comes to a cone point.
+    pub(crate) fn from_pieces(pieces: Vec<Piece>) -> Outline {
+        let n = pieces.len();
+        let area2: f64 = pieces.iter().map(Piece::area2).sum();
+        let mut sharp = Vec::new();
+        for k in 0..n {
+            let (prev, next) = (&pieces[(k + n - 1) % n], &pieces[k]);
+            let cur = next.start();
+            // Directions away from the joint, along the incoming and the outgoing piece.
+            let ti = prev.tangent(true);
+            let u = Point::new(-ti.r, -ti.z);
+            let v = next.tangent(false);
+            let axis_in = matches!(prev, Piece::Line { a, b } if on_axis(*a, *b));
+            let axis_out = matches!(next, Piece::Line { a, b } if on_axis(*a, *b));
+            if axis_in && axis_out {
+                continue;
+            }
+            if axis_in || axis_out {
+                let (w, inside_up) = if axis_in { (v, u.z) } else { (u, v.z) };
+                if w.r.abs() < 1.0 - 1e-9 && w.r > 0.0 {
+                    let to_axis = w.z.abs().acos();
+                    let solid_angle = if inside_up * w.z > 0.0 {
+                        2.0 * to_axis
+                    } else {
+                        2.0 * (std::f64::consts::PI - to_axis)
+                    };
+                    if solid_angle < std::f64::consts::PI - SHARP_TURN {
+                        sharp.push(cur);
+                    }
+                }
+                continue;
+            }
+            let cross = ti.r * v.z - ti.z * v.r;
+            let dot = ti.r * v.r + ti.z * v.z;
+            let turn = cross.atan2(dot);
+            if cross * area2 > 0.0 && turn.abs() > SHARP_TURN {
+                sharp.push(cur);
+            }
+        }
+        Outline { pieces, sharp }
+    }
+
+    fn bbox(&self) -> BBox {
+        let mut b = BBox {
+            r_min: f64::INFINITY,
+            r_max: f64::NEG_INFINITY,
+            z_min: f64::INFINITY,
+            z_max: f64::NEG_INFINITY,
+        };
+        for p in &self.pieces {
+            let q = p.bbox();
+            b.r_min = b.r_min.min(q.r_min).max(0.0);
+            b.r_max = b.r_max.max(q.r_max);
+            b.z_min = b.z_min.min(q.z_min);
+            b.z_max = b.z_max.max(q.z_max);
+        }
+        b
+    }
+
+    /// The arcs with their radii, as curved parts for the mesh.
+    fn arcs(&self) -> impl Iterator<Item = (BBox, f64)> + '_ {
+        self.pieces.iter().filter_map(|p| match p {
+            Piece::Arc { radius, .. } => Some((p.bbox(), *radius)),
+            Piece::Line { .. } => None,
+        })
+    }
+
+    /// The pieces in order around the loop.
+    pub fn pieces(&self) -> &[Piece] {
+        &self.pieces
+    }
+}
+
+impl Shape {
+    /// A drawn outline: a closed loop of lines and arcs, each piece starting where the one
+    /// before ends. The caller (`drawing`) has checked that the loop is closed, does not cross
+    /// itself and stays in r >= 0.
+    pub fn drawn(pieces: Vec<Piece>, source: DrawingSource) -> Shape {
+        Shape::Drawn {
+            source,
+            outline: Outline::from_pieces(pieces),
+        }
+    }
+
+    /// About `n` points on a drawn outline, spread by length and exactly on its pieces; empty
+    /// for the other shapes.
+    pub fn outline_points(&self, n: usize) -> Vec<Point> {
+        let Shape::Drawn { outline, .. } = self else {
+            return Vec::new();
+        };
+        let total: f64 = outline.pieces.iter().map(Piece::length).sum();
+        let mut out = Vec::with_capacity(n + outline.pieces.len());
+        for p in &outline.pieces {
+            let steps =
+                ((n as f64 * p.length() / total.max(f64::MIN_POSITIVE)).ceil() as usize).max(2);
+            for s in 0..steps {
+                let q = p.at(s as f64 / steps as f64);
+                out.push(Point::new(q.r.max(0.0), q.z));
+            }
+        }
+        out
+    }
 }
 
 /// Inside test by the crossing number of a ray from `p` towards +r, exact for lines and arcs:

@@ -49,6 +49,7 @@ pub mod breakdown;
 pub mod capacitance;
 pub mod compare;
 pub mod design;
+pub mod drawing;
 pub mod faults;
 pub mod field;
 pub mod fieldline;

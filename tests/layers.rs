@@ -12,6 +12,7 @@ const STAGES: &[(&str, u32)] = &[
     ("units", 0),
     ("thermo", 0),
     ("geometry", 0),
+    ("drawing", 1),
     ("materials", 0),
     ("model", 1),
     ("design", 2),

@@ -215,7 +215,7 @@ proptest! {
                 }
                 in_box && !cut
             }
-            Shape::Polygon { .. } => return Ok(()),
+            Shape::Polygon { .. } | Shape::Drawn { .. } => return Ok(()),
         };
         prop_assert_eq!(d < 0.0, inside, "{:?} at {:?}: sdf {}", s, p, d);
     }

@@ -47,7 +47,8 @@ pub enum LoadError {
     Design(#[from] DesignError),
 }
 
-/// Parses and validates a design file's text. `file_name` is used in messages only.
+/// Parses and validates a design file's text. `file_name` is used in messages, and its folder
+/// is the one the drawings a design names (`shape = "outline"`) are read from.
 pub fn from_str(text: &str, file_name: &str) -> Result<Model, DesignError> {
     let mut problems = problem::Problems::default();
     let model = schema::read(text, &mut problems)

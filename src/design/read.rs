@@ -38,6 +38,8 @@ impl At {
 
 pub(crate) struct Reader<'p> {
     pub problems: &'p mut Problems,
+    /// The design file's folder: files the design names (drawings) are relative to it.
+    pub base: &'p std::path::Path,
 }
 
 impl Reader<'_> {

@@ -182,6 +182,11 @@ pub struct RawShape {
     pub thickness: Leaf,
     pub points: Leaf,
     pub fillet: Leaf,
+    pub file: Leaf,
+    pub layer: Leaf,
+    pub handle: Leaf,
+    pub index: Leaf,
+    pub units: Leaf,
 }
 
 /// `[[conductor]]`.
@@ -201,6 +206,11 @@ pub struct RawConductor {
     pub thickness: Leaf,
     pub points: Leaf,
     pub fillet: Leaf,
+    pub file: Leaf,
+    pub layer: Leaf,
+    pub handle: Leaf,
+    pub index: Leaf,
+    pub units: Leaf,
 }
 
 /// `[[dielectric]]`: `material` from the built-in table, or `eps_r`.
@@ -221,6 +231,11 @@ pub struct RawDielectric {
     pub thickness: Leaf,
     pub points: Leaf,
     pub fillet: Leaf,
+    pub file: Leaf,
+    pub layer: Leaf,
+    pub handle: Leaf,
+    pub index: Leaf,
+    pub units: Leaf,
 }
 
 /// `[[vacuum]]`.
@@ -239,6 +254,11 @@ pub struct RawVacuum {
     pub thickness: Leaf,
     pub points: Leaf,
     pub fillet: Leaf,
+    pub file: Leaf,
+    pub layer: Leaf,
+    pub handle: Leaf,
+    pub index: Leaf,
+    pub units: Leaf,
 }
 
 macro_rules! shape_of {
@@ -258,6 +278,11 @@ macro_rules! shape_of {
                     thickness: self.thickness.clone(),
                     points: self.points.clone(),
                     fillet: self.fillet.clone(),
+                    file: self.file.clone(),
+                    layer: self.layer.clone(),
+                    handle: self.handle.clone(),
+                    index: self.index.clone(),
+                    units: self.units.clone(),
                 }
             }
         }

@@ -2,12 +2,14 @@
 //! samples for the overlap and enclosure tests; a short description in millimetres.
 //!
 //! Input: the shape keys of a `[[conductor]]`, `[[dielectric]]` or `[[vacuum]]` table
-//! (DESIGN §3: sphere, torus, rounded_cylinder, tube, disc, polygon). Output: a validated
+//! (DESIGN §3: sphere, torus, rounded_cylinder, tube, disc, polygon; and outline, read from a
+//! DXF drawing by `drawing`). Output: a validated
 //! `Shape` in metres, or located problems (negative or zero sizes, reversed intervals, corner
 //! radii that do not fit, self-intersecting outlines, keys the shape does not use).
 
 use super::read::{At, Reader};
 use super::schema::{Leaf, RawShape, RawValue};
+use crate::drawing;
 use crate::geometry::{Point, Shape, on_axis};
 use crate::units::{Dimension, format_si};
 use toml::Spanned;
@@ -20,6 +22,7 @@ const SHAPES: &[(&str, &[&str], &[&str])] = &[
     ("tube", &["r", "z"], &["corner_radius"]),
     ("disc", &["r", "center_z", "thickness"], &["corner_radius"]),
     ("polygon", &["points"], &["fillet"]),
+    ("outline", &["file", "layer"], &["handle", "index", "units"]),
 ];
 
 /// The accepted shape names, for messages.
@@ -39,6 +42,11 @@ fn leaf<'a>(raw: &'a RawShape, key: &str) -> &'a Leaf {
         "thickness" => &raw.thickness,
         "points" => &raw.points,
         "fillet" => &raw.fillet,
+        "file" => &raw.file,
+        "layer" => &raw.layer,
+        "handle" => &raw.handle,
+        "index" => &raw.index,
+        "units" => &raw.units,
         _ => &raw.shape,
     }
 }
@@ -54,6 +62,11 @@ const ALL_KEYS: &[&str] = &[
     "thickness",
     "points",
     "fillet",
+    "file",
+    "layer",
+    "handle",
+    "index",
+    "units",
 ];
 
 const TOL: f64 = 1e-12;
@@ -105,6 +118,7 @@ pub(crate) fn read_shape(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<Sha
         "rounded_cylinder" => rect(rd, raw, at, true),
         "tube" => rect(rd, raw, at, false),
         "disc" => disc(rd, raw, at),
+        "outline" => outline(rd, raw, at),
         _ => polygon(rd, raw, at),
     }
 }
@@ -409,6 +423,175 @@ fn polygon(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<Shape> {
     Some(Shape::polygon(pts, fillet))
 }
 
+/// An outline read from a DXF drawing (`drawing::read_outline`); the drawing's path is
+/// relative to the design file.
+fn outline(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<Shape> {
+    let fv = rd.required(&raw.file, at, "file", "\"drawings/terminal.dxf\"");
+    let lv = rd.required(&raw.layer, at, "layer", "\"TERMINAL\"");
+    let file = fv.and_then(|v| {
+        rd.string(
+            v,
+            &at.key("file"),
+            "the drawing's path in quotes, relative to the design file",
+        )
+    });
+    let layer = lv.and_then(|v| rd.string(v, &at.key("layer"), "the layer's name in quotes"));
+    let handle = match &raw.handle {
+        Some(v) => Some(rd.string(v, &at.key("handle"), "an entity handle in hex, e.g. \"2F\"")?),
+        None => None,
+    };
+    let index = match &raw.index {
+        Some(v) => Some(rd.count(v, &at.key("index"), 1)?),
+        None => None,
+    };
+    if let (Some(_), Some(v)) = (&handle, &raw.index) {
+        rd.push(
+            "conflicting-keys",
+            at.key("index"),
+            v.span(),
+            format!(
+                "`{}` and `{}` both pick a loop",
+                at.key("handle"),
+                at.key("index")
+            ),
+            Some("give one of them".to_string()),
+        );
+        return None;
+    }
+    let units = match &raw.units {
+        Some(v) => {
+            let u = rd.string(v, &at.key("units"), "a length unit in quotes, e.g. \"mm\"")?;
+            if drawing::unit_scale(&u).is_none() {
+                let names: Vec<&str> = drawing::UNITS.iter().map(|(n, _)| *n).collect();
+                rd.out_of_range(
+                    v,
+                    &at.key("units"),
+                    format!("`{}` = \"{u}\" is not a drawing unit", at.key("units")),
+                    Some(format!("accepted: {}", names.join(", "))),
+                );
+                return None;
+            }
+            Some(u)
+        }
+        None => None,
+    };
+    let (file, layer, fv, lv) = (file?, layer?, fv?, lv?);
+    let path = rd.base.join(&file);
+    let bytes = match std::fs::read(&path) {
+        Ok(b) => b,
+        Err(e) => {
+            rd.push(
+                "drawing-unreadable",
+                at.key("file"),
+                fv.span(),
+                format!("cannot read the drawing {}: {e}", path.display()),
+                Some("the path is relative to the design file".to_string()),
+            );
+            return None;
+        }
+    };
+    let pick = drawing::Pick {
+        layer,
+        handle,
+        index,
+    };
+    match drawing::read_outline(&bytes, &file, &pick, units.as_deref()) {
+        Ok(shape) => Some(shape),
+        Err(e) => {
+            use drawing::DrawingError as E;
+            let (code, key, span, help) = match e.as_ref() {
+                E::Unreadable { .. } => (
+                    "drawing-unreadable",
+                    "file",
+                    fv.span(),
+                    "save the drawing as DXF (ASCII or binary)",
+                ),
+                E::NoUnits { .. } => (
+                    "drawing-no-units",
+                    "file",
+                    fv.span(),
+                    "add `units = \"mm\"` (or the drawing's unit) to this table, or set the drawing's units",
+                ),
+                E::OddUnits { .. } => (
+                    "drawing-no-units",
+                    "file",
+                    fv.span(),
+                    "set the drawing's units to mm, cm, m or in",
+                ),
+                E::UnitsDisagree { .. } => (
+                    "drawing-units-disagree",
+                    "units",
+                    raw.units.as_ref().map_or(fv.span(), |v| v.span()),
+                    "remove `units` (the header's unit is used) or correct the drawing",
+                ),
+                E::MissingLayer { .. } => (
+                    "drawing-missing-layer",
+                    "layer",
+                    lv.span(),
+                    "name a layer the drawing has",
+                ),
+                E::Unsupported { .. } => (
+                    "drawing-unsupported-entity",
+                    "layer",
+                    lv.span(),
+                    "the outline layer holds the outline only",
+                ),
+                E::OpenLoop { .. } => (
+                    "drawing-open-loop",
+                    "layer",
+                    lv.span(),
+                    "join the ends in the drawing",
+                ),
+                E::SelfIntersecting { .. } | E::Branching { .. } => (
+                    "drawing-self-intersecting",
+                    "layer",
+                    lv.span(),
+                    "draw the outline as one loop that does not cross itself",
+                ),
+                E::CrossesAxis { .. } => (
+                    "drawing-crosses-axis",
+                    "layer",
+                    lv.span(),
+                    "draw the half-section only (x >= 0), with the axis at x = 0",
+                ),
+                E::SeveralLoops { .. } => (
+                    "drawing-several-loops",
+                    "layer",
+                    lv.span(),
+                    "add `handle = \"...\"` or `index = 1` to this table",
+                ),
+                E::NoSuchLoop { .. } => (
+                    "drawing-no-such-loop",
+                    if raw.handle.is_some() {
+                        "handle"
+                    } else {
+                        "index"
+                    },
+                    raw.handle
+                        .as_ref()
+                        .or(raw.index.as_ref())
+                        .map_or(lv.span(), |v| v.span()),
+                    "pick one of the loops listed",
+                ),
+                E::NoArea { .. } => (
+                    "degenerate-shape",
+                    "layer",
+                    lv.span(),
+                    "the loop must enclose the body's cross-section",
+                ),
+            };
+            rd.push(
+                code,
+                at.key(key),
+                span,
+                e.to_string(),
+                Some(help.to_string()),
+            );
+            None
+        }
+    }
+}
+
 fn area(pts: &[Point]) -> f64 {
     let n = pts.len();
     (0..n)
@@ -520,6 +703,7 @@ pub(crate) fn boundary_samples(shape: &Shape, n: usize) -> Vec<Point> {
             outline_samples(shape, &corners, n, |a, b| solid && on_axis(a, b))
         }
         Shape::Polygon { points, .. } => outline_samples(shape, points, n, on_axis),
+        Shape::Drawn { .. } => shape.outline_points(n),
     }
 }
 
@@ -605,6 +789,31 @@ pub fn describe(shape: &Shape) -> String {
                 l(b.z_min),
                 l(b.z_max),
                 l(*fillet)
+            )
+        }
+        Shape::Drawn { source, .. } => {
+            let b = shape.bbox();
+            let rc = shape.min_radius_of_curvature();
+            let curvature = if !shape.sharp_corners().is_empty() {
+                format!("{} sharp corners", shape.sharp_corners().len())
+            } else if rc > 0.0 {
+                format!("smallest arc radius {}", l(rc))
+            } else {
+                "no arcs".to_string()
+            };
+            format!(
+                "outline from {} layer \"{}\" ({} entities, {} pieces, first entity {}, SHA-256 {}…) in r {} to {}, z {} to {}, {}",
+                source.file,
+                source.layer,
+                source.entities,
+                source.pieces,
+                source.first_handle,
+                &source.sha256[..16.min(source.sha256.len())],
+                l(b.r_min),
+                l(b.r_max),
+                l(b.z_min),
+                l(b.z_max),
+                curvature
             )
         }
     }

@@ -52,7 +52,10 @@ pub(crate) fn validate(
 ) -> Option<Model> {
     let lines = LineIndex::new(text);
     let line_of = |span: &Range<usize>| lines.locate(span.start).0;
-    let mut rd = Reader { problems };
+    let base = std::path::Path::new(file_name)
+        .parent()
+        .unwrap_or(std::path::Path::new(""));
+    let mut rd = Reader { problems, base };
     let root = At::new("", 0..0);
 
     let title = match &raw.title {
