@@ -17,11 +17,11 @@ pub struct SweepArgs {
     /// conductor[terminal].corner_radius, column[1].minor_radius, ...
     #[arg(long)]
     pub vary: String,
-    /// First value, with its unit (e.g. "2 bar").
-    #[arg(long)]
+    /// First value, with its unit (e.g. "2 bar", "-600 kV").
+    #[arg(long, allow_hyphen_values = true)]
     pub from: String,
-    /// Last value, with its unit (e.g. "4 bar").
-    #[arg(long)]
+    /// Last value, with its unit (e.g. "4 bar", "-800 kV").
+    #[arg(long, allow_hyphen_values = true)]
     pub to: String,
     /// Number of values, ends included.
     #[arg(long, default_value_t = 9)]
@@ -127,7 +127,7 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         "worst margin",
         "worst item",
         "worst gas margin",
-        "hold-off kV",
+        "hold-off",
         "meets design factor",
     ]);
     let num = |v: Option<f64>| v.map_or("-".to_string(), |m| format!("{m:.3}"));
@@ -144,7 +144,7 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
             right(num(p.worst_gas_margin)),
             right(
                 p.holdoff_voltage_v
-                    .map_or("-".into(), |v| format!("{:.1}", v / 1e3)),
+                    .map_or("-".into(), holdoff::units::kv_three_significant),
             ),
             Cell::new(if p.meets_design_factor { "yes" } else { "no" }),
         ]);
