@@ -1,13 +1,24 @@
 #!/usr/bin/env bash
-# Runs the design-parser fuzz target for SECONDS (default 300) with the examples as seeds.
+# Runs a fuzz target (design_parser, the default, or dxf_reader) for SECONDS (default 300) with
+# the examples as seeds: `fuzz/run.sh 300` or `fuzz/run.sh 300 dxf_reader`.
 # Needs a nightly toolchain and cargo-fuzz (`cargo install cargo-fuzz`). Not part of CI.
-# Crashes are written to fuzz/artifacts/design_parser/; the corpus grows in fuzz/corpus/.
+# Crashes are written to fuzz/artifacts/TARGET/; the corpus grows in fuzz/corpus/TARGET/.
 set -euo pipefail
 cd "$(dirname "$0")"
 seconds="${1:-300}"
-corpus=corpus/design_parser
+target="${2:-design_parser}"
+corpus=corpus/$target
 mkdir -p "$corpus"
-# Seed with the example designs and the bad-input files.
-cp -n ../examples/*.toml ../tests/bad_input/*.toml "$corpus"/ 2>/dev/null || true
-exec cargo +nightly fuzz run design_parser "$corpus" -- \
-    -max_total_time="$seconds" -max_len=16384 -timeout=10 -print_final_stats=1
+max_len=16384
+if [ "$target" = dxf_reader ]; then
+    max_len=65536
+    # Seed with the example drawing (its first byte is read as the layer pick).
+    for f in ../examples/drawings/*.dxf; do
+        { printf '\x80'; cat "$f"; } > "$corpus/$(basename "$f")"
+    done
+else
+    # Seed with the example designs and the bad-input files.
+    cp -n ../examples/*.toml ../tests/bad_input/*.toml "$corpus"/ 2>/dev/null || true
+fi
+exec cargo +nightly fuzz run "$target" "$corpus" -- \
+    -max_total_time="$seconds" -max_len="$max_len" -timeout=10 -print_final_stats=1
