@@ -172,11 +172,12 @@ impl Shape {
                 let (lo, hi) = if *r0 <= 0.0 { (-r1, *r1) } else { (*r0, *r1) };
                 rounded_box(p, lo, hi, *z0, *z1, *corner_radius)
             }
-            Shape::Polygon { outline, .. } => outline_sdf(outline, p),
             // A solid of revolution is even in r: mirrored, the distance stays exact across
             // the axis, so that the normal at a vertex on the axis (from the distance's
             // gradient) is along the axis.
-            Shape::Drawn { outline, .. } => outline_sdf(outline, Point::new(p.r.abs(), p.z)),
+            Shape::Polygon { outline, .. } | Shape::Drawn { outline, .. } => {
+                outline_sdf(outline, Point::new(p.r.abs(), p.z))
+            }
         }
     }
 

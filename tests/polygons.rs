@@ -137,7 +137,13 @@ fn many_edged_polygon_converges_to_the_sphere() {
             .map(|k| {
                 let t =
                     -std::f64::consts::FRAC_PI_2 + std::f64::consts::PI * k as f64 / edges as f64;
-                Point::new((a * t.cos()).max(0.0), b + a * t.sin())
+                // The poles exactly on the axis (r = 0), as a drawing office would put them.
+                let r = if k == 0 || k == edges {
+                    0.0
+                } else {
+                    a * t.cos()
+                };
+                Point::new(r, b + a * t.sin())
             })
             .collect();
         let shape = Shape::polygon(pts, 0.0);
