@@ -593,6 +593,25 @@ fn chain(segs: &[Seg], ctx: &Ctx) -> Result<Vec<Loop>, Box<DrawingError>> {
             }));
         }
     }
+    // The first unused piece with an end at `p`, and whether it runs reversed: a piece that
+    // continues a loop from `p` (`from_start`) should start there, one that leads into `p`
+    // should end there; meeting `p` with its other end, it is walked backwards.
+    let touching = |used: &[bool], p: Point, from_start: bool| {
+        (0..segs.len()).find_map(|j| {
+            if used[j] {
+                return None;
+            }
+            let (a, b) = (segs[j].piece.start(), segs[j].piece.end());
+            let (near, far) = if from_start { (a, b) } else { (b, a) };
+            if dist(near, p) <= tol {
+                Some((j, false))
+            } else if dist(far, p) <= tol {
+                Some((j, true))
+            } else {
+                None
+            }
+        })
+    };
     let mut used = vec![false; segs.len()];
     let mut loops = Vec::new();
     for first in 0..segs.len() {
@@ -620,36 +639,12 @@ fn chain(segs: &[Seg], ctx: &Ctx) -> Result<Vec<Loop>, Box<DrawingError>> {
             if dist(end_of(tail), start_of(head)) <= tol {
                 break;
             }
-            let e = end_of(tail);
-            let next = (0..segs.len()).find_map(|j| {
-                if used[j] {
-                    None
-                } else if dist(segs[j].piece.start(), e) <= tol {
-                    Some((j, false))
-                } else if dist(segs[j].piece.end(), e) <= tol {
-                    Some((j, true))
-                } else {
-                    None
-                }
-            });
-            if let Some(n) = next {
+            if let Some(n) = touching(&used, end_of(tail), true) {
                 used[n.0] = true;
                 lp.push_back(n);
                 continue;
             }
-            let s = start_of(head);
-            let prev = (0..segs.len()).find_map(|j| {
-                if used[j] {
-                    None
-                } else if dist(segs[j].piece.end(), s) <= tol {
-                    Some((j, false))
-                } else if dist(segs[j].piece.start(), s) <= tol {
-                    Some((j, true))
-                } else {
-                    None
-                }
-            });
-            if let Some(p) = prev {
+            if let Some(p) = touching(&used, start_of(head), false) {
                 used[p.0] = true;
                 lp.push_front(p);
                 continue;
