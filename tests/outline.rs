@@ -5,16 +5,12 @@
 
 mod common;
 
-use common::{conductor, holdoff};
+use common::holdoff;
 use dxf::entities::{Arc, Circle, Entity, EntityType, Line, LwPolyline, Spline};
 use dxf::enums::{AcadVersion, Units};
 use dxf::{Drawing, LwPolylineVertex, Point as DxfPoint};
 use holdoff::drawing::{DrawingError, Pick, read_outline};
-use holdoff::field::FieldMap;
 use holdoff::geometry::{Point, Shape};
-use holdoff::mesh::Mesh;
-use holdoff::model::{MeshSpec, Model, Tank};
-use holdoff::solve::{Solver, SolverParams};
 
 fn on(layer: &str, specific: EntityType) -> Entity {
     let mut e = Entity::new(specific);
@@ -266,15 +262,7 @@ fn many_lines_converge_to_the_sphere() {
         ents.push(on("SPHERE", line(0.0, pts[0].1, 0.0, pts[edges].1)));
         let shape = read(&drawing(Units::Millimeters, ents), "SPHERE").expect("outline");
         assert!(shape.sharp_corners().is_empty());
-        let mut m = Model::new("faceted sphere", Tank::Sphere { inner_radius: b }, v);
-        m.mesh = MeshSpec::graded(0.5e-3, 4e-3, 1.15);
-        m.conductors.push(conductor("inner", shape, v));
-        let mesh = Mesh::build(&m).expect("mesh");
-        let mut solver = Solver::new(&mesh, SolverParams::default());
-        let sol = solver.solve(&[v], None).expect("solve");
-        let pots = [v];
-        let fm = FieldMap::new(&mesh, &m, &sol.phi, &pots);
-        let e = fm.conductor_peaks(&fm.surface_samples())[0].peak_surface_field_v_per_m;
+        let e = common::peak_in_spherical_tank(shape, b, v);
         errors.push((e - exact).abs() / exact);
     }
     println!("drawn faceted sphere errors (48, 96, 192 lines): {errors:?}");

@@ -3,12 +3,8 @@
 
 mod common;
 
-use common::{conductor, holdoff};
-use holdoff::field::FieldMap;
+use common::holdoff;
 use holdoff::geometry::{Point, Shape};
-use holdoff::mesh::Mesh;
-use holdoff::model::{MeshSpec, Model, Tank};
-use holdoff::solve::{Solver, SolverParams};
 
 /// A solid dome on the axis as a filleted polygon and as a `rounded_cylinder`: the same body
 /// (the corners on the axis are not corners of the solid of revolution, so the polygon must not
@@ -148,15 +144,7 @@ fn many_edged_polygon_converges_to_the_sphere() {
             .collect();
         let shape = Shape::polygon(pts, 0.0);
         assert!(shape.sharp_corners().is_empty());
-        let mut m = Model::new("faceted sphere", Tank::Sphere { inner_radius: b }, v);
-        m.mesh = MeshSpec::graded(0.5e-3, 4e-3, 1.15);
-        m.conductors.push(conductor("inner", shape, v));
-        let mesh = Mesh::build(&m).expect("mesh");
-        let mut solver = Solver::new(&mesh, SolverParams::default());
-        let sol = solver.solve(&[v], None).expect("solve");
-        let pots = [v];
-        let fm = FieldMap::new(&mesh, &m, &sol.phi, &pots);
-        let e = fm.conductor_peaks(&fm.surface_samples())[0].peak_surface_field_v_per_m;
+        let e = common::peak_in_spherical_tank(shape, b, v);
         errors.push((e - exact).abs() / exact);
     }
     println!("faceted sphere errors (48, 96, 192 edges): {errors:?}");
