@@ -111,6 +111,8 @@ pub struct DrawingSource {
     pub pieces: usize,
     /// Handle (hex) of the outline's first entity.
     pub first_handle: String,
+    /// How the drawing lies against the model's (r, z): the axis and the origin.
+    pub frame: String,
 }
 
 /// The derived outline of a polygon: its lines and arcs in order around the loop. Kept

@@ -27,13 +27,7 @@ fn filleted_polygon_on_the_axis_is_the_rounded_cylinder() {
         z1: 0.6,
         corner_radius: 0.02,
     };
-    let mut worst = 0.0f64;
-    for i in 0..=120 {
-        for j in 0..=200 {
-            let p = Point::new(0.2 * i as f64 / 120.0, 0.35 + 0.3 * j as f64 / 200.0);
-            worst = worst.max((poly.sdf(p) - rc.sdf(p)).abs());
-        }
-    }
+    let worst = common::largest_distance_difference(&poly, &rc);
     assert!(worst < 1e-12, "largest distance difference {worst} m");
     assert!(poly.sharp_corners().is_empty());
 }

@@ -3,7 +3,7 @@
 //! with a finite, non-empty bounding box.
 #![no_main]
 
-use holdoff::drawing::{Pick, read_outline};
+use holdoff::drawing::{Frame, Pick, read_outline};
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
@@ -18,7 +18,7 @@ fuzz_target!(|data: &[u8]| {
         index: (head & 4 != 0).then_some(1 + (head >> 3) as usize % 4),
     };
     let units = if head & 0x80 != 0 { Some("mm") } else { None };
-    match read_outline(bytes, "fuzz.dxf", &pick, units) {
+    match read_outline(bytes, "fuzz.dxf", &pick, units, &Frame::default()) {
         Ok(shape) => {
             let b = shape.bbox();
             assert!(b.r_min >= 0.0 && b.r_min <= b.r_max && b.z_min <= b.z_max, "{b:?}");

@@ -187,6 +187,8 @@ pub struct RawShape {
     pub handle: Leaf,
     pub index: Leaf,
     pub units: Leaf,
+    pub axis: Leaf,
+    pub origin: Leaf,
 }
 
 /// `[[conductor]]`.
@@ -211,6 +213,8 @@ pub struct RawConductor {
     pub handle: Leaf,
     pub index: Leaf,
     pub units: Leaf,
+    pub axis: Leaf,
+    pub origin: Leaf,
 }
 
 /// `[[dielectric]]`: `material` from the built-in table, or `eps_r`.
@@ -236,6 +240,8 @@ pub struct RawDielectric {
     pub handle: Leaf,
     pub index: Leaf,
     pub units: Leaf,
+    pub axis: Leaf,
+    pub origin: Leaf,
 }
 
 /// `[[vacuum]]`.
@@ -259,6 +265,8 @@ pub struct RawVacuum {
     pub handle: Leaf,
     pub index: Leaf,
     pub units: Leaf,
+    pub axis: Leaf,
+    pub origin: Leaf,
 }
 
 macro_rules! shape_of {
@@ -283,6 +291,8 @@ macro_rules! shape_of {
                     handle: self.handle.clone(),
                     index: self.index.clone(),
                     units: self.units.clone(),
+                    axis: self.axis.clone(),
+                    origin: self.origin.clone(),
                 }
             }
         }

@@ -22,7 +22,11 @@ const SHAPES: &[(&str, &[&str], &[&str])] = &[
     ("tube", &["r", "z"], &["corner_radius"]),
     ("disc", &["r", "center_z", "thickness"], &["corner_radius"]),
     ("polygon", &["points"], &["fillet"]),
-    ("outline", &["file", "layer"], &["handle", "index", "units"]),
+    (
+        "outline",
+        &["file", "layer"],
+        &["handle", "index", "units", "axis", "origin"],
+    ),
 ];
 
 /// The accepted shape names, for messages.
@@ -47,6 +51,8 @@ fn leaf<'a>(raw: &'a RawShape, key: &str) -> &'a Leaf {
         "handle" => &raw.handle,
         "index" => &raw.index,
         "units" => &raw.units,
+        "axis" => &raw.axis,
+        "origin" => &raw.origin,
         _ => &raw.shape,
     }
 }
@@ -67,6 +73,8 @@ const ALL_KEYS: &[&str] = &[
     "handle",
     "index",
     "units",
+    "axis",
+    "origin",
 ];
 
 const TOL: f64 = 1e-12;
@@ -475,6 +483,7 @@ fn outline(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<Shape> {
         }
         None => None,
     };
+    let frame = frame(rd, raw, at)?;
     let (file, layer, fv, lv) = (file?, layer?, fv?, lv?);
     let path = rd.base.join(&file);
     let bytes = match std::fs::read(&path) {
@@ -495,7 +504,7 @@ fn outline(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<Shape> {
         handle,
         index,
     };
-    match drawing::read_outline(&bytes, &file, &pick, units.as_deref()) {
+    match drawing::read_outline(&bytes, &file, &pick, units.as_deref(), &frame) {
         Ok(shape) => Some(shape),
         Err(e) => {
             use drawing::DrawingError as E;
@@ -552,7 +561,7 @@ fn outline(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<Shape> {
                     "drawing-crosses-axis",
                     "layer",
                     lv.span(),
-                    "draw the half-section only (x >= 0), with the axis at x = 0",
+                    "draw the half-section on one side of the axis only, or state where the axis lies with `axis` and `origin`",
                 ),
                 E::SeveralLoops { .. } => (
                     "drawing-several-loops",
@@ -590,6 +599,40 @@ fn outline(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<Shape> {
             None
         }
     }
+}
+
+/// How the drawing lies against the model: `axis` ("y", the default, or "x") and `origin`
+/// (the drawing point at r = 0, z = 0, default the drawing's origin).
+fn frame(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<drawing::Frame> {
+    let axis =
+        match &raw.axis {
+            Some(v) => {
+                let name = rd.string(v, &at.key("axis"), "\"y\" or \"x\" in quotes")?;
+                let Some(axis) = drawing::Axis::from_name(&name) else {
+                    rd.out_of_range(
+                    v,
+                    &at.key("axis"),
+                    format!("`{}` = \"{name}\" is not a drawing direction", at.key("axis")),
+                    Some(
+                        "accepted: \"y\" (the axis runs along the drawing's y, x is the radius) \
+                         or \"x\" (the axis runs along x, y is the radius)"
+                            .to_string(),
+                    ),
+                );
+                    return None;
+                };
+                axis
+            }
+            None => drawing::Axis::Y,
+        };
+    let origin = match &raw.origin {
+        Some(v) => {
+            let [x, y] = rd.pair(v, &at.key("origin"), Dimension::Length)?;
+            (x, y)
+        }
+        None => (0.0, 0.0),
+    };
+    Some(drawing::Frame { axis, origin })
 }
 
 fn area(pts: &[Point]) -> f64 {
@@ -802,13 +845,14 @@ pub fn describe(shape: &Shape) -> String {
                 "no arcs".to_string()
             };
             format!(
-                "outline from {} layer \"{}\" ({} entities, {} pieces, first entity {}, SHA-256 {}…) in r {} to {}, z {} to {}, {}",
+                "outline from {} layer \"{}\" ({} entities, {} pieces, first entity {}, SHA-256 {}; {}) in r {} to {}, z {} to {}, {}",
                 source.file,
                 source.layer,
                 source.entities,
                 source.pieces,
                 source.first_handle,
-                &source.sha256[..16.min(source.sha256.len())],
+                source.sha256,
+                source.frame,
                 l(b.r_min),
                 l(b.r_max),
                 l(b.z_min),

@@ -125,3 +125,23 @@ pub fn fem_reference_files() -> Vec<std::path::PathBuf> {
     jsons.sort();
     jsons
 }
+
+/// The largest difference of the signed distances of two shapes over the box r 0–200 mm,
+/// z 350–650 mm (121 × 201 points): the dome tests build the same body two ways and compare
+/// them here.
+pub fn largest_distance_difference(
+    a: &holdoff::geometry::Shape,
+    b: &holdoff::geometry::Shape,
+) -> f64 {
+    let mut worst = 0.0f64;
+    for i in 0..=120 {
+        for j in 0..=200 {
+            let p = holdoff::geometry::Point::new(
+                0.2 * i as f64 / 120.0,
+                0.35 + 0.3 * j as f64 / 200.0,
+            );
+            worst = worst.max((a.sdf(p) - b.sdf(p)).abs());
+        }
+    }
+    worst
+}
