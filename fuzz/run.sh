@@ -1,7 +1,9 @@
 #!/usr/bin/env bash
 # Runs a fuzz target (design_parser, the default, or dxf_reader) for SECONDS (default 300) with
 # the examples as seeds: `fuzz/run.sh 300` or `fuzz/run.sh 300 dxf_reader`.
-# Needs a nightly toolchain and cargo-fuzz (`cargo install cargo-fuzz`). Not part of CI.
+# Needs cargo-fuzz (`cargo install cargo-fuzz`) and a nightly toolchain; without one, the
+# stable toolchain is asked for the nightly flags cargo-fuzz passes (RUSTC_BOOTSTRAP=1).
+# Not part of CI.
 # Crashes are written to fuzz/artifacts/TARGET/; the corpus grows in fuzz/corpus/TARGET/.
 set -euo pipefail
 cd "$(dirname "$0")"
@@ -20,5 +22,11 @@ else
     # Seed with the example designs and the bad-input files.
     cp -n ../examples/*.toml ../tests/bad_input/*.toml "$corpus"/ 2>/dev/null || true
 fi
-exec cargo +nightly fuzz run "$target" "$corpus" -- \
+if cargo +nightly --version >/dev/null 2>&1; then
+    fuzz=(cargo +nightly fuzz)
+else
+    export RUSTC_BOOTSTRAP=1
+    fuzz=(cargo fuzz)
+fi
+exec "${fuzz[@]}" run "$target" "$corpus" -- \
     -max_total_time="$seconds" -max_len="$max_len" -timeout=10 -print_final_stats=1

@@ -684,3 +684,28 @@ fn random_bytes_never_panic() {
         );
     }
 }
+
+/// A drawing whose header holds a creation date past the calendar's range (found by fuzzing
+/// the reader, tests/data/dxf/header_date_overflow.dxf): the DXF reader gives up inside, and
+/// holdoff reports a located, unreadable drawing with exit code 2 and no panic message.
+#[test]
+fn a_drawing_that_stops_the_reader_is_a_located_problem() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let data = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/data/dxf/header_date_overflow.dxf");
+    std::fs::copy(&data, dir.path().join("d.dxf")).expect("copy");
+    let path = dir.path().join("d.toml");
+    std::fs::write(
+        &path,
+        design("shape = \"outline\"\nfile = \"d.dxf\"\nlayer = \"TERMINAL\"\nunits = \"mm\""),
+    )
+    .expect("write");
+    let out = holdoff().arg("check").arg(&path).output().expect("run");
+    let text = String::from_utf8_lossy(&out.stderr).to_string();
+    assert_eq!(out.status.code(), Some(2), "{text}");
+    assert!(!text.contains("panicked"), "{text}");
+    assert!(
+        text.contains("conductor[1].file") && text.contains("cannot be read as DXF"),
+        "{text}"
+    );
+}

@@ -138,7 +138,9 @@ pub fn read_outline(
     Ok(Shape::drawn(pieces, source))
 }
 
-/// The drawing, or why its bytes are not one.
+/// The drawing, or why its bytes are not one. The DXF reader can panic on malformed content
+/// (a header date past the calendar's range, for one, found by fuzzing): the panic is caught
+/// and becomes the located error, and no panic message reaches the user ([`quietly`]).
 fn load(bytes: &[u8], file: &str) -> Result<dxf::Drawing, Box<DrawingError>> {
     let mut cursor = std::io::Cursor::new(bytes);
     let unreadable = |reason: String| {
@@ -147,11 +149,45 @@ fn load(bytes: &[u8], file: &str) -> Result<dxf::Drawing, Box<DrawingError>> {
             reason,
         })
     };
-    match std::panic::catch_unwind(move || dxf::Drawing::load(&mut cursor)) {
+    match quietly(move || dxf::Drawing::load(&mut cursor)) {
         Ok(Ok(d)) => Ok(d),
         Ok(Err(e)) => Err(unreadable(e.to_string())),
-        Err(_) => Err(unreadable("the reader gave up on malformed content".into())),
+        Err(payload) => {
+            let what = payload
+                .downcast_ref::<&str>()
+                .map(|s| s.to_string())
+                .or_else(|| payload.downcast_ref::<String>().cloned());
+            Err(unreadable(match what {
+                Some(w) => format!("the reader gave up on malformed content ({w})"),
+                None => "the reader gave up on malformed content".into(),
+            }))
+        }
     }
+}
+
+thread_local! {
+    /// Set while this thread runs the DXF reader: its panics are caught and reported as
+    /// errors, so the panic hook stays silent for them.
+    static QUIET: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
+}
+
+/// Runs `f`, catching a panic, with the panic hook silent for this thread meanwhile. The hook
+/// is wrapped once per process; other threads' panics (and this thread's outside `f`) reach
+/// the hook that was there before.
+fn quietly<T>(f: impl FnOnce() -> T) -> std::thread::Result<T> {
+    static WRAP: std::sync::Once = std::sync::Once::new();
+    WRAP.call_once(|| {
+        let before = std::panic::take_hook();
+        std::panic::set_hook(Box::new(move |info| {
+            if !QUIET.with(|q| q.get()) {
+                before(info)
+            }
+        }));
+    });
+    QUIET.with(|q| q.set(true));
+    let out = std::panic::catch_unwind(std::panic::AssertUnwindSafe(f));
+    QUIET.with(|q| q.set(false));
+    out
 }
 
 /// The loop the design picks: by an entity's handle, by number, or the only one.
