@@ -198,7 +198,7 @@ impl Report {
         let mut cautions = cautions::cautions(&CautionInputs::for_model(
             model,
             model.terminal_voltage,
-            Some(cautions::stored_energy(model, fine.energy_j)),
+            Some(crate::stack::stored_energy(model, fine.energy_j)),
         ));
         if let Some(a) = study.as_ref().and_then(|s| s.accuracy.as_ref())
             && !a.reached
