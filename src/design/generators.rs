@@ -9,7 +9,7 @@
 //! lets a column run from its `from` end towards smaller z.
 
 use super::read::{At, Reader};
-use super::schema::{RawColumn, RawValue};
+use super::schema::{RawColumn, RawTubeElectrode, RawValue};
 use super::shapes;
 use crate::geometry::Shape;
 use crate::model::{Conductor, LeakageSpec, Origin, PotentialSpec, ProtectiveSpec};
@@ -79,22 +79,68 @@ pub(crate) fn read_column(
     line: usize,
     several: bool,
 ) -> Option<ColumnSpec> {
-    let name = match &raw.name {
+    let name = column_name(rd, raw, &at, several);
+    let from = end(rd, raw.from.as_ref(), &at, "from");
+    let to = end(rd, raw.to.as_ref(), &at, "to");
+    let electrodes = electrode_count(rd, raw, &at);
+    let rings = read_rings(rd, raw, &at)?;
+    let tube = match &raw.tube_electrode {
+        None => Some(None),
+        Some(t) => read_tube(rd, t, &at, rings.pitch).map(Some),
+    };
+    let grading = read_grading(rd, raw, &at);
+    let gaps = electrodes.map(|n| n + 1);
+    let protective = read_protective(rd, raw, &at, gaps);
+    let leakage = read_leakage(rd, raw, &at);
+    let node_current = read_node_current(rd, raw, &at, electrodes);
+    let grading = grading?;
+    let (resistor, tolerance, strings) = (grading.resistor, grading.tolerance, grading.strings);
+    if resistor.is_none() {
+        absolute_values_need_resistor(rd, raw, &at, &leakage)?;
+    }
+    Some(ColumnSpec {
+        name: name?,
+        from: from?,
+        to: to?,
+        electrodes: electrodes?,
+        z_first: rings.z_first?,
+        pitch: rings.pitch?,
+        major_radius: rings.major?,
+        minor_radius: rings.minor?,
+        tube: tube?,
+        resistor_ohm: resistor,
+        tolerance,
+        strings,
+        rating_v: grading.rating,
+        power_rating_w: grading.power,
+        impulse_rating_v: grading.impulse,
+        protective: protective?,
+        leakage: leakage?,
+        node_current_a: node_current?,
+        at,
+        line,
+    })
+}
+
+/// The column's name: required when the file has several columns, "column" otherwise.
+fn column_name(rd: &mut Reader, raw: &RawColumn, at: &At, several: bool) -> Option<String> {
+    match &raw.name {
         Some(v) => rd.name(v, &at.key("name")),
         None if several => {
             rd.missing(
-                &at,
+                at,
                 "name",
                 "\"LE\" (a name is needed when there are several columns)",
             );
             None
         }
         None => Some("column".to_string()),
-    };
-    let from = end(rd, raw.from.as_ref(), &at, "from");
-    let to = end(rd, raw.to.as_ref(), &at, "to");
-    let electrodes = rd
-        .required(&raw.electrodes, &at, "electrodes", "24")
+    }
+}
+
+/// `electrodes`: a count from 1 to [`MAX_ELECTRODES`].
+fn electrode_count(rd: &mut Reader, raw: &RawColumn, at: &At) -> Option<usize> {
+    rd.required(&raw.electrodes, at, "electrodes", "24")
         .and_then(|v| {
             let n = rd.count(v, &at.key("electrodes"), 1)?;
             if n > MAX_ELECTRODES {
@@ -107,9 +153,22 @@ pub(crate) fn read_column(
                 return None;
             }
             Some(n)
-        });
-    let z_first = rd.req_quantity(&raw.z_first, &at, "z_first", Dimension::Length);
-    let pitch = rd.req_quantity(&raw.pitch, &at, "pitch", Dimension::Length);
+        })
+}
+
+/// The electrode planes and rings of a column, each `None` where it has a problem.
+struct Rings {
+    z_first: Option<f64>,
+    pitch: Option<f64>,
+    major: Option<f64>,
+    minor: Option<f64>,
+}
+
+/// `z_first`, `pitch`, `shape`, `major_radius` and `minor_radius`; `None` when the ring
+/// cannot be a torus at all (the column is not read further).
+fn read_rings(rd: &mut Reader, raw: &RawColumn, at: &At) -> Option<Rings> {
+    let z_first = rd.req_quantity(&raw.z_first, at, "z_first", Dimension::Length);
+    let pitch = rd.req_quantity(&raw.pitch, at, "pitch", Dimension::Length);
     let pitch = rd.check(
         pitch,
         raw.pitch.as_ref(),
@@ -132,7 +191,7 @@ pub(crate) fn read_column(
             ),
         );
     }
-    let major = rd.req_quantity(&raw.major_radius, &at, "major_radius", Dimension::Length);
+    let major = rd.req_quantity(&raw.major_radius, at, "major_radius", Dimension::Length);
     let major = rd.check(
         major,
         raw.major_radius.as_ref(),
@@ -140,7 +199,7 @@ pub(crate) fn read_column(
         |x| x > 0.0,
         "must be greater than zero",
     );
-    let minor = rd.req_quantity(&raw.minor_radius, &at, "minor_radius", Dimension::Length);
+    let minor = rd.req_quantity(&raw.minor_radius, at, "minor_radius", Dimension::Length);
     let minor = rd.check(
         minor,
         raw.minor_radius.as_ref(),
@@ -167,129 +226,112 @@ pub(crate) fn read_column(
             Some("increase the pitch or reduce minor_radius".to_string()),
         );
     }
-    let tube = match &raw.tube_electrode {
-        None => Some(None),
-        Some(t) => {
-            let tat = At::new(at.key("tube_electrode"), t.span());
-            let t = t.get_ref();
-            let r = rd
-                .required(&t.r, &tat, "r", "[\"12 mm\", \"70 mm\"]")
-                .and_then(|v| {
-                    let key = tat.key("r");
-                    let [r0, r1] = rd.pair(v, &key, Dimension::Length)?;
-                    if r0 < 0.0 || r0 >= r1 {
-                        rd.push(
-                            "bad-interval",
-                            key.clone(),
-                            v.span(),
-                            format!(
-                                "`{key} = {}` must be [r0, r1] with 0 <= r0 < r1",
-                                v.get_ref().show()
-                            ),
-                            None,
-                        );
-                        return None;
-                    }
-                    Some([r0, r1])
-                });
-            let th = rd.req_quantity(&t.thickness, &tat, "thickness", Dimension::Length);
-            let th = rd.check(
-                th,
-                t.thickness.as_ref(),
-                &tat.key("thickness"),
-                |x| x > 0.0,
-                "must be greater than zero",
-            );
-            if let (Some(th), Some(p), Some(v)) = (th, pitch, t.thickness.as_ref())
-                && th >= p.abs()
-            {
+    Some(Rings {
+        z_first,
+        pitch,
+        major,
+        minor,
+    })
+}
+
+/// `tube_electrode = { r, thickness, corner_radius }`: a disc on each plane that fits the
+/// pitch.
+fn read_tube(
+    rd: &mut Reader,
+    t: &Spanned<RawTubeElectrode>,
+    at: &At,
+    pitch: Option<f64>,
+) -> Option<TubeElectrode> {
+    let tat = At::new(at.key("tube_electrode"), t.span());
+    let t = t.get_ref();
+    let r = rd
+        .required(&t.r, &tat, "r", "[\"12 mm\", \"70 mm\"]")
+        .and_then(|v| {
+            let key = tat.key("r");
+            let [r0, r1] = rd.pair(v, &key, Dimension::Length)?;
+            if r0 < 0.0 || r0 >= r1 {
                 rd.push(
-                    "overlap",
-                    tat.key("thickness"),
+                    "bad-interval",
+                    key.clone(),
                     v.span(),
                     format!(
-                        "tube electrodes {} thick do not fit a pitch of {}",
-                        format_si(th, Dimension::Length),
-                        format_si(p.abs(), Dimension::Length)
+                        "`{key} = {}` must be [r0, r1] with 0 <= r0 < r1",
+                        v.get_ref().show()
                     ),
                     None,
                 );
-            }
-            match (r, th) {
-                (Some([r0, r1]), Some(th)) => {
-                    shapes::disc_shape(rd, &t.corner_radius, &tat, r0, r1, 0.0, th).and_then(|s| {
-                        match s {
-                            Shape::RoundedRect { corner_radius, .. } => Some(Some(TubeElectrode {
-                                r0,
-                                r1,
-                                thickness: th,
-                                corner_radius,
-                            })),
-                            _ => None,
-                        }
-                    })
-                }
-                _ => None,
-            }
-        }
-    };
-    let grading = read_grading(rd, raw, &at);
-    let gaps = electrodes.map(|n| n + 1);
-    let protective = read_protective(rd, raw, &at, gaps);
-    let leakage = read_leakage(rd, raw, &at);
-    let node_current = read_node_current(rd, raw, &at, electrodes);
-    let grading = grading?;
-    let (resistor, tolerance, strings) = (grading.resistor, grading.tolerance, grading.strings);
-    if resistor.is_none() {
-        // Currents and a leakage resistance need absolute resistor values to mean anything;
-        // `leakage = "auto"` or `"none"` does not.
-        let keyword = matches!(
-            leakage,
-            Some(LeakageSpec::FromMaterials | LeakageSpec::None)
-        );
-        let absolute = [
-            (raw.node_current.as_ref(), "node_current"),
-            (raw.leakage.as_ref().filter(|_| !keyword), "leakage"),
-        ];
-        for (leaf, key) in absolute {
-            if let Some(v) = leaf {
-                rd.push(
-                    "missing-key",
-                    at.key("grading.resistor"),
-                    v.span(),
-                    format!(
-                        "`{}` needs the grading resistor value: without it the network only \
-                         gives the division, not currents or resistances",
-                        at.key(key)
-                    ),
-                    Some("add `grading = { resistor = \"1 GOhm\" }` to the column".to_string()),
-                );
                 return None;
             }
+            Some([r0, r1])
+        });
+    let th = rd.req_quantity(&t.thickness, &tat, "thickness", Dimension::Length);
+    let th = rd.check(
+        th,
+        t.thickness.as_ref(),
+        &tat.key("thickness"),
+        |x| x > 0.0,
+        "must be greater than zero",
+    );
+    if let (Some(th), Some(p), Some(v)) = (th, pitch, t.thickness.as_ref())
+        && th >= p.abs()
+    {
+        rd.push(
+            "overlap",
+            tat.key("thickness"),
+            v.span(),
+            format!(
+                "tube electrodes {} thick do not fit a pitch of {}",
+                format_si(th, Dimension::Length),
+                format_si(p.abs(), Dimension::Length)
+            ),
+            None,
+        );
+    }
+    let ([r0, r1], th) = (r?, th?);
+    match shapes::disc_shape(rd, &t.corner_radius, &tat, r0, r1, 0.0, th)? {
+        Shape::RoundedRect { corner_radius, .. } => Some(TubeElectrode {
+            r0,
+            r1,
+            thickness: th,
+            corner_radius,
+        }),
+        _ => None,
+    }
+}
+
+/// Node currents and an absolute leakage resistance need the grading resistor value
+/// (`leakage = "auto"` or `"none"` does not): `None` after reporting the first such key.
+fn absolute_values_need_resistor(
+    rd: &mut Reader,
+    raw: &RawColumn,
+    at: &At,
+    leakage: &Option<LeakageSpec>,
+) -> Option<()> {
+    let keyword = matches!(
+        leakage,
+        Some(LeakageSpec::FromMaterials | LeakageSpec::None)
+    );
+    let absolute = [
+        (raw.node_current.as_ref(), "node_current"),
+        (raw.leakage.as_ref().filter(|_| !keyword), "leakage"),
+    ];
+    for (leaf, key) in absolute {
+        if let Some(v) = leaf {
+            rd.push(
+                "missing-key",
+                at.key("grading.resistor"),
+                v.span(),
+                format!(
+                    "`{}` needs the grading resistor value: without it the network only \
+                     gives the division, not currents or resistances",
+                    at.key(key)
+                ),
+                Some("add `grading = { resistor = \"1 GOhm\" }` to the column".to_string()),
+            );
+            return None;
         }
     }
-    Some(ColumnSpec {
-        name: name?,
-        from: from?,
-        to: to?,
-        electrodes: electrodes?,
-        z_first: z_first?,
-        pitch: pitch?,
-        major_radius: major?,
-        minor_radius: minor?,
-        tube: tube?,
-        resistor_ohm: resistor,
-        tolerance,
-        strings,
-        rating_v: grading.rating,
-        power_rating_w: grading.power,
-        impulse_rating_v: grading.impulse,
-        protective: protective?,
-        leakage: leakage?,
-        node_current_a: node_current?,
-        at,
-        line,
-    })
+    Some(())
 }
 
 /// The keys of a column's `grading` table.
