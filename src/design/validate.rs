@@ -6,6 +6,7 @@
 //! of a key, or the whole picture (references between tables, geometry), is here.
 
 use super::checks::{self, Body, Canon, Group, Kind};
+use super::gas::read_gas;
 use super::generators::{self, ColumnSpec};
 use super::potential::{self, PotentialText};
 use super::problem::{LineIndex, Problems};
@@ -13,7 +14,7 @@ use super::read::{At, Reader};
 use super::resolve::{canon, potential_text, resolve_end, resolve_potential};
 use super::schema::{RawDesign, RawValue};
 use super::sections::{
-    read_checks, read_gas, read_mesh, read_multiplier, read_permittivity, read_probe, read_tank,
+    read_checks, read_mesh, read_multiplier, read_permittivity, read_probe, read_tank,
 };
 use super::shapes;
 use crate::geometry::Shape;
