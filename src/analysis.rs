@@ -10,6 +10,7 @@ use crate::mesh::{Mesh, MeshError};
 use crate::model::Model;
 use crate::solve::{Solution, SolveError, Solver, SolverParams};
 use serde::Serialize;
+use std::sync::OnceLock;
 use thiserror::Error;
 
 #[derive(Debug, Error)]
@@ -41,6 +42,10 @@ pub struct Analysis {
     pub probes: Vec<ProbeResult>,
     /// Electrostatic energy of the solved field, J.
     pub energy_j: f64,
+    /// The field at every node of `solution.phi`, formed on first use and kept for every
+    /// later [`Analysis::field_map`] (the margins, the plots). Whoever changes `solution.phi`
+    /// or `potentials` in place empties it (`OnceLock::new()`).
+    pub node_fields: OnceLock<Vec<[f64; 2]>>,
 }
 
 /// Solves a model once with its own mesh controls.
@@ -64,7 +69,8 @@ pub fn analyze_on(
 ) -> Result<Analysis, AnalysisError> {
     let mut solver = Solver::new(&mesh, *params);
     let solution = solver.solve(&potentials, None)?;
-    let fm = FieldMap::new(&mesh, model, &solution.phi, &potentials);
+    let node_fields = OnceLock::new();
+    let fm = FieldMap::sharing(&mesh, model, &solution.phi, &potentials, &node_fields);
     let energy_j = fm.energy(&solver.op);
     let (samples, peaks, probes) = field_products(&fm, model)?;
     Ok(Analysis {
@@ -75,6 +81,7 @@ pub fn analyze_on(
         peaks,
         probes,
         energy_j,
+        node_fields,
     })
 }
 
@@ -111,6 +118,18 @@ fn field_products(fm: &FieldMap, model: &Model) -> Result<FieldProducts, Analysi
 }
 
 impl Analysis {
+    /// The field map of this solution, for `model` (the model it was solved for). The
+    /// node-field table is formed once per analysis, however many maps are taken.
+    pub fn field_map<'a>(&'a self, model: &'a Model) -> FieldMap<'a> {
+        FieldMap::sharing(
+            &self.mesh,
+            model,
+            &self.solution.phi,
+            &self.potentials,
+            &self.node_fields,
+        )
+    }
+
     /// The analysis of the same mesh with every conductor potential multiplied by `factor`,
     /// without a solve: the field equation is linear and its boundary values all scale, so the
     /// potential scales everywhere and the stored energy by `factor²`. `model` is the design
@@ -118,7 +137,8 @@ impl Analysis {
     pub fn scaled(&self, model: &Model, factor: f64) -> Result<Analysis, AnalysisError> {
         let phi: Vec<f64> = self.solution.phi.iter().map(|v| v * factor).collect();
         let potentials: Vec<f64> = self.potentials.iter().map(|v| v * factor).collect();
-        let fm = FieldMap::new(&self.mesh, model, &phi, &potentials);
+        let node_fields = OnceLock::new();
+        let fm = FieldMap::sharing(&self.mesh, model, &phi, &potentials, &node_fields);
         let (samples, peaks, probes) = field_products(&fm, model)?;
         Ok(Analysis {
             mesh: self.mesh.clone(),
@@ -131,6 +151,7 @@ impl Analysis {
             peaks,
             probes,
             energy_j: self.energy_j * factor * factor,
+            node_fields,
         })
     }
 }

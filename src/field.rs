@@ -88,7 +88,14 @@ pub struct FieldMap<'a> {
     pub potentials: &'a [f64],
     /// The field at every node, formed on the first interpolation (field lines and insulator
     /// samples interpolate hundreds of thousands of times per solution).
-    node_fields: OnceLock<Vec<[f64; 2]>>,
+    node_fields: NodeFields<'a>,
+}
+
+/// The node-field table of a field map: its own, or one kept with the solution (an
+/// `analysis::Analysis`) so that every map of that solution forms it once.
+enum NodeFields<'a> {
+    Own(OnceLock<Vec<[f64; 2]>>),
+    Shared(&'a OnceLock<Vec<[f64; 2]>>),
 }
 
 impl<'a> FieldMap<'a> {
@@ -98,13 +105,35 @@ impl<'a> FieldMap<'a> {
             model,
             phi,
             potentials,
-            node_fields: OnceLock::new(),
+            node_fields: NodeFields::Own(OnceLock::new()),
+        }
+    }
+
+    /// As [`FieldMap::new`], with the node-field table kept in `node_fields`, which must
+    /// belong to this `mesh`, `phi` and `potentials` (it is formed on first use if empty).
+    pub fn sharing(
+        mesh: &'a Mesh,
+        model: &'a Model,
+        phi: &'a [f64],
+        potentials: &'a [f64],
+        node_fields: &'a OnceLock<Vec<[f64; 2]>>,
+    ) -> Self {
+        Self {
+            mesh,
+            model,
+            phi,
+            potentials,
+            node_fields: NodeFields::Shared(node_fields),
         }
     }
 
     /// The field at every node (zero at fixed nodes), as [`FieldMap::node_field`].
     fn node_fields(&self) -> &[[f64; 2]] {
-        self.node_fields.get_or_init(|| {
+        let cache = match &self.node_fields {
+            NodeFields::Own(c) => c,
+            NodeFields::Shared(c) => *c,
+        };
+        cache.get_or_init(|| {
             let n = self.mesh.nodes();
             if n >= PARALLEL_NODES {
                 (0..n).into_par_iter().map(|k| self.node_field(k)).collect()

@@ -55,6 +55,10 @@ pub struct StackAnalysis {
     pub strays: StraySource,
     pub result: LadderResult,
     pub closed_form: ClosedForm,
+    /// Energy in every stage capacitor at no load, J ([`multiplier_stored_energy_j`]); `None`
+    /// for an unknown topology.
+    #[serde(skip)]
+    pub stored_no_load_j: Option<f64>,
 }
 
 impl StackAnalysis {
@@ -182,6 +186,7 @@ pub fn analyze_stack_keeping_mesh(
             strays,
             result,
             closed_form,
+            stored_no_load_j: multiplier_stored_energy_j(m),
         }),
         mesh,
     ))
@@ -276,8 +281,7 @@ pub struct StackSpark {
     pub no_load_v: f64,
     /// ½·C_s·V², J.
     pub deliverable_j: f64,
-    /// Every stage capacitor at no load (closed form), J: the upper bound (filled in by the
-    /// report, which holds the closed form of the stored energy).
+    /// Every stage capacitor at no load (closed form), J: the upper bound.
     pub stored_no_load_j: Option<f64>,
     /// Discharge time constant through the divider and dump resistor, s, when modelled.
     pub discharge_tau_s: Option<f64>,
@@ -299,8 +303,87 @@ pub fn stack_spark(stack: &StackAnalysis) -> StackSpark {
         series_capacitance_f: c_s,
         no_load_v: v,
         deliverable_j: 0.5 * c_s * v * v,
-        stored_no_load_j: None,
+        stored_no_load_j: stack.stored_no_load_j,
         discharge_tau_s: stack.result.discharge.as_ref().map(|d| d.tau_s),
         convention: "at no load (the multiplier's highest output), the same in every command",
+    }
+}
+
+/// How the stack's stored energy is counted, the same in every command and in SAFETY.md: at no
+/// load, the highest.
+pub const STACK_ENERGY_BASIS: &str =
+    "multiplier stack at no load (the highest; 1/2 C V^2, stage capacitors at 2 Vm)";
+
+/// The stored energy of a run: the electrostatic energy of the solved field (J) plus the
+/// multiplier stack's at no load when the design has one, with what it covers.
+pub fn stored_energy(model: &crate::model::Model, field_energy_j: f64) -> (f64, String) {
+    match model
+        .multiplier
+        .as_ref()
+        .and_then(multiplier_stored_energy_j)
+    {
+        Some(stack) => (
+            stack + field_energy_j,
+            format!(
+                "{STACK_ENERGY_BASIS}: {:.1} J, plus {:.1} J electrostatic energy of the solved field",
+                stack, field_energy_j
+            ),
+        ),
+        None => (
+            field_energy_j,
+            "electrostatic energy of the solved field, 1/2 integral of eps E^2; no multiplier is modelled"
+                .to_string(),
+        ),
+    }
+}
+
+/// No-load stored energy of a Cockcroft–Walton stack, J: ½·C·V² over its capacitors, with
+/// every stage capacitor charged to 2·V_m except the first capacitor of each oscillating column,
+/// which holds V_m (docs/references.md §8, \[M\]; Kuffel et al. 2000, Ch. 2). A half-wave stack has
+/// one oscillating and one smoothing column of `stages` capacitors each; a symmetric stack has
+/// two oscillating columns and one smoothing column (the same rule applied to each column,
+/// \[D\]). `None` for an unknown topology or non-finite inputs.
+pub fn multiplier_stored_energy_j(m: &crate::model::Multiplier) -> Option<f64> {
+    let n = m.stages as f64;
+    let (c, vm) = (m.stage_capacitance_f, m.drive_peak_v);
+    if m.stages == 0 || !(c.is_finite() && c > 0.0 && vm.is_finite() && vm > 0.0) {
+        return None;
+    }
+    let full = 0.5 * c * (2.0 * vm).powi(2);
+    let first = 0.5 * c * vm * vm;
+    let oscillating = first + (n - 1.0) * full;
+    let smoothing = n * full;
+    match m.topology.as_str() {
+        "half-wave" => Some(smoothing + oscillating),
+        "symmetric" => Some(smoothing + 2.0 * oscillating),
+        _ => None,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn stack(topology: &str) -> crate::model::Multiplier {
+        crate::model::Multiplier {
+            topology: topology.into(),
+            stages: 8,
+            stage_capacitance_f: 6.8e-9,
+            drive_frequency_hz: 50e3,
+            drive_peak_v: 50e3,
+            load_current_a: 10.3e-3,
+            stray_capacitance_f: None,
+        }
+    }
+
+    #[test]
+    fn stack_energy_by_half_c_v_squared() {
+        // ½CV² per capacitor (docs/references.md §13; 1 nF at 1 MV = 500 J, row 40), with the
+        // charging rule of §8: half-wave 8 x 2Vm + (Vm + 7 x 2Vm) over 6.8 nF at Vm = 50 kV.
+        let half = 0.5 * 6.8e-9 * (8.0 * 1e10 + 2.5e9 + 7.0 * 1e10);
+        assert!((multiplier_stored_energy_j(&stack("half-wave")).unwrap() - half).abs() < 1e-9);
+        let sym = 0.5 * 6.8e-9 * (8.0 * 1e10 + 2.0 * (2.5e9 + 7.0 * 1e10));
+        assert!((multiplier_stored_energy_j(&stack("symmetric")).unwrap() - sym).abs() < 1e-9);
+        assert!(multiplier_stored_energy_j(&stack("other")).is_none());
     }
 }

@@ -19,11 +19,24 @@ fn a_design_compared_with_itself_shows_no_change() {
     let (code, v) = compare("examples/demo_750kv.toml", "examples/demo_750kv.toml");
     assert_eq!(code, Some(0));
     assert_eq!(v["any_crossed_below"], false);
-    for r in v["rows"].as_array().expect("rows") {
+    let rows = v["rows"].as_array().expect("rows");
+    // The demo has rows, every one found on both sides with the same peak, margin and status,
+    // and the rows with a margin show a change of zero.
+    assert!(rows.len() >= 5, "{} rows", rows.len());
+    let mut changes = 0;
+    for r in rows {
+        assert!(r["peak_before"].is_number(), "{r}");
+        assert_eq!(r["peak_before"], r["peak_after"], "{r}");
+        assert_eq!(r["margin_before"], r["margin_after"], "{r}");
+        assert_eq!(r["status_before"], r["status_after"], "{r}");
         if let Some(c) = r["change"].as_f64() {
             assert!(c.abs() < 1e-12, "{r}");
+            changes += 1;
         }
     }
+    assert!(changes > 0, "no row has a margin to compare");
+    assert!(v["holdoff_before_v"].is_number());
+    assert_eq!(v["holdoff_before_v"], v["holdoff_after_v"]);
 }
 
 /// A smaller corner radius raises the surface field of the terminal (for a rounded edge the

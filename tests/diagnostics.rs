@@ -4,11 +4,12 @@
 //! `tests/design.rs`; the files under `tests/bad_input/mesh/` are valid designs whose mesh is
 //! refused, checked here through the library and through the binary.
 
+mod common;
+
 use holdoff::design;
 use holdoff::design::diagnostic::render;
 use holdoff::mesh::{Budget, Mesh};
 use std::path::{Path, PathBuf};
-use std::process::Command;
 
 fn toml_files(dir: &str) -> Vec<PathBuf> {
     let mut files: Vec<PathBuf> = std::fs::read_dir(dir)
@@ -170,7 +171,7 @@ fn mem_available_is_read_from_meminfo_text() {
 
 #[test]
 fn the_binary_reports_a_too_thin_conductor_with_exit_code_2() {
-    let out = Command::new(env!("CARGO_BIN_EXE_holdoff"))
+    let out = common::holdoff()
         .args([
             "check",
             "tests/bad_input/mesh/too_thin.toml",

@@ -2,6 +2,8 @@
 //! Matrix Market exchange format (docs/references.md §18); read back, they are the same
 //! matrix and vector, bit for bit, and the matrix read back acts on a vector as the operator.
 
+mod common;
+
 use holdoff::benchmark::{EXPORT_MATRIX, EXPORT_RHS, problem};
 use holdoff::mesh::Mesh;
 use holdoff::solve::operator::{Operator, Scheme};
@@ -10,7 +12,7 @@ use holdoff::solve::operator::{Operator, Scheme};
 fn exported_operator_reads_back_as_the_same_matrix() {
     let dir = tempfile::tempdir().expect("temporary folder");
     let nodes = 3_000;
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+    let out = common::holdoff()
         .args(["bench", "--sizes", "3000", "--repeat", "1", "--export"])
         .arg(dir.path())
         .output()

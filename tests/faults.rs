@@ -473,7 +473,7 @@ fn faults_command_writes_json() {
     let dir = tmp.path().to_path_buf();
     let file = dir.join("small.toml");
     std::fs::write(&file, small_text()).expect("write design");
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+    let out = common::holdoff()
         .args([
             "faults",
             file.to_str().expect("path"),
@@ -520,7 +520,7 @@ fn faults_command_writes_json() {
         v["electrodes"].as_array().expect("electrodes").len()
     );
 
-    let bad = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+    let bad = common::holdoff()
         .args([
             "faults",
             file.to_str().expect("path"),
@@ -665,7 +665,7 @@ fn faults_command_exits_1_on_an_exceeded_rating() {
         r#"grading = { resistor = "1 GOhm", tolerance = "1 %", strings = 1, power_rating = "1 W" }"#,
     );
     std::fs::write(&file, text).expect("write design");
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+    let out = common::holdoff()
         .args(["faults", file.to_str().expect("path"), "--samples", "2"])
         .output()
         .expect("runs");
@@ -714,7 +714,7 @@ fn faults_table_lists_the_worst_rows() {
     let file = tmp.path().join("small.toml");
     std::fs::write(&file, small_text()).expect("write design");
     let run = |rows: &str| {
-        let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+        let out = common::holdoff()
             .args(["faults", file.to_str().expect("path"), "--samples", "4"])
             .args(["--rows", rows])
             .output()

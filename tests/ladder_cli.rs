@@ -38,8 +38,15 @@ fn ladder_json_has_the_documented_keys() {
     assert!((top - v["output_mean_v"].as_f64().unwrap()).abs() < 1.0);
 }
 
-/// "auto" strays come from the capacitance matrix of the drawn stage rings, and strays lower
-/// the no-load output below 2nV₀ (Everhart & Lorrain, Rev. Sci. Instrum. 24, 221 (1953)).
+/// "auto" strays come from the capacitance matrix of the drawn stage rings, and the no-load
+/// output they leave is the one the published stray models give for them:
+/// - the capacitance matrix is symmetric (Green's reciprocity theorem) to 1e-3;
+/// - the simulated no-load output over 2nV₀ equals the discrete stray-ladder efficiency of
+///   docs/references.md §8 (AC amplitudes of the oscillating column with these strays; the
+///   model rows 34–35 check against ngspice) within 1e-3, a second construction beside the
+///   time-domain simulation;
+/// - the continuum form tanh(αn)/(αn) of Everhart & Lorrain (Rev. Sci. Instrum. 24, 221
+///   (1953); docs/references.md §8) over-predicts the discrete model, by less than 10 %.
 #[test]
 fn auto_strays_come_from_the_drawn_stack() {
     let v = json(&["ladder", "examples/stack_300kv.toml", "--json", "-"]);
@@ -48,10 +55,28 @@ fn auto_strays_come_from_the_drawn_stack() {
     assert_eq!(per_stage.len(), 6);
     for c in per_stage {
         let c = c.as_f64().unwrap();
-        assert!(c > 1e-12 && c < 1e-10, "stray {c}");
+        assert!(c.is_finite() && c > 0.0, "stray {c}");
     }
+    let reciprocity = v["strays"]["reciprocity_error"].as_f64().unwrap();
+    assert!(reciprocity < 1e-3, "reciprocity error {reciprocity}");
     let ideal = v["closed_form"]["ideal_no_load_v"].as_f64().unwrap();
-    assert!(v["output_no_load_v"].as_f64().unwrap() < ideal);
+    let efficiency = v["output_no_load_v"].as_f64().unwrap() / ideal;
+    let discrete = v["closed_form"]["strays"]["efficiency_discrete"]
+        .as_f64()
+        .unwrap();
+    let continuum = v["closed_form"]["strays"]["efficiency_continuum"]
+        .as_f64()
+        .unwrap();
+    assert!(
+        (efficiency - discrete).abs() < 1e-3,
+        "simulated {efficiency} vs discrete {discrete}"
+    );
+    // The strays matter here: the output is several per cent below 2nV₀.
+    assert!(efficiency < 0.97, "{efficiency}");
+    assert!(
+        continuum > discrete && continuum < 1.10 * discrete,
+        "continuum {continuum} vs discrete {discrete}"
+    );
 }
 
 /// Conductors with potential "stage:N" take the loaded stage voltage of the simulated stack.

@@ -4,6 +4,8 @@
 //! names its source; "from memory" and "common practice" say so where docs/references.md marks a
 //! value [M] or [P].
 
+mod common;
+
 use holdoff::analysis::{Analysis, analyze};
 use holdoff::breakdown::convert::{ATM_PA, T0_K};
 use holdoff::breakdown::corona::{self, PeekGeometry};
@@ -15,7 +17,6 @@ use holdoff::geometry::Shape;
 use holdoff::margin::{self, Margins, RowMedium, Status};
 use holdoff::model::{Conductor, MeshSpec, Model, Origin, PotentialSpec, Tank, Wall};
 use holdoff::solve::SolverParams;
-use std::process::Command;
 
 const DEMO: &str = include_str!("../examples/demo_750kv.toml");
 const CORONA_DEMO: &str = include_str!("../examples/demo_corona_wire.toml");
@@ -615,10 +616,7 @@ fn user_overrides_are_flagged() {
 }
 
 fn run_holdoff(args: &[&str]) -> (std::process::ExitStatus, serde_json::Value) {
-    let out = Command::new(env!("CARGO_BIN_EXE_holdoff"))
-        .args(args)
-        .output()
-        .expect("runs");
+    let out = common::holdoff().args(args).output().expect("runs");
     let text = String::from_utf8_lossy(&out.stdout);
     let v = serde_json::from_str(&text).unwrap_or_else(|e| panic!("not JSON ({e}):\n{text}"));
     (out.status, v)
@@ -676,7 +674,7 @@ fn demo_ranks_rows_of_each_medium_and_exits_by_its_worst_status() {
 
 #[test]
 fn table_shows_margins_holdoff_and_ends_with_cautions() {
-    let out = Command::new(env!("CARGO_BIN_EXE_holdoff"))
+    let out = common::holdoff()
         .args(["check", "examples/demo_corona_wire.toml", "--no-grid-study"])
         .output()
         .expect("runs");

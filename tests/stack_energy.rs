@@ -32,7 +32,7 @@ fn stack_spark_energy_is_half_c_v_squared_of_the_series_smoothing_column() {
     assert!((smoothing_ideal - series_ideal).abs() / series_ideal < 1e-12);
     assert!(sp.deliverable_j <= smoothing_ideal);
     // The whole stack at no load (every column, closed form) is the upper bound.
-    let all = holdoff::report::cautions::multiplier_stored_energy_j(m).unwrap();
+    let all = holdoff::stack::multiplier_stored_energy_j(m).unwrap();
     assert!(all > sp.deliverable_j);
     // The demo figures: 6.8 nF / 8 = 0.85 nF; ½·0.85 nF·(788 kV)² ≈ 264 J.
     assert!(

@@ -61,7 +61,7 @@ fn sweep_command_draws_its_plot() {
     let tmp = tempfile::tempdir().expect("temp dir");
     let dir = tmp.path().to_path_buf();
     let svg = dir.join("sweep.svg");
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_holdoff"))
+    let out = common::holdoff()
         .args([
             "sweep",
             "examples/demo_750kv.toml",

@@ -345,6 +345,9 @@ mod tests {
 
     #[test]
     fn air_fit_is_zero_at_its_critical_reduced_field() {
+        // α = η in air at 24.36 kV/(cm·bar), the constant of the Schumann breakdown form
+        // V_b = 24.36·pd + 6.72·√(pd) kV (Kuffel, Zaengl & Kuffel 2000, Ch. 5, from memory;
+        // docs/references.md §2): ionisation grows above it and attachment wins below.
         let m = EffectiveIonisation::air();
         assert!(m.coefficient_per_m(24.36e5, 1e5).abs() < 1e-9);
         assert!(m.coefficient_per_m(30e5, 1e5) > 0.0);

@@ -45,11 +45,9 @@ pub fn run(args: &LadderArgs) -> Result<ExitCode> {
     if !reconciled.within_tolerance {
         println!("- terminal voltage: {}", reconciled.text);
     }
-    let stored = model
-        .multiplier
-        .as_ref()
-        .and_then(holdoff::report::cautions::multiplier_stored_energy_j)
-        .map(|j| (j, holdoff::report::cautions::STACK_ENERGY_BASIS.to_string()));
+    let stored = stack
+        .stored_no_load_j
+        .map(|j| (j, holdoff::stack::STACK_ENERGY_BASIS.to_string()));
     for c in cautions(&CautionInputs::for_model(
         &model,
         section.output_no_load_v.abs() * model.terminal_voltage.signum(),

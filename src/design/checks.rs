@@ -9,7 +9,7 @@
 
 use super::generators::ColumnSpec;
 use super::read::Reader;
-use super::shapes::boundary_samples;
+use super::samples::boundary_samples;
 use crate::geometry::{BBox, Point, Shape};
 use crate::model::Tank;
 use crate::units::{Dimension, format_si};

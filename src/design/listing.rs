@@ -6,7 +6,8 @@
 //! conductor that cuts through a dielectric, which is allowed: the conductor takes precedence).
 
 use super::checks;
-use super::shapes::{boundary_samples, describe};
+use super::samples::boundary_samples;
+use super::shapes::describe;
 use crate::model::{Model, Origin, PotentialSpec};
 use crate::units::{Dimension, format_si};
 use serde::Serialize;

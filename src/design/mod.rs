@@ -13,22 +13,28 @@
 //! [`expansion_listing`] shows what was modelled, one row per primitive.
 
 mod checks;
+mod column_grading;
 pub mod diagnostic;
+mod drawn;
+mod gas;
 mod generators;
 mod listing;
+mod parse;
 mod potential;
 mod problem;
 mod read;
 mod resolve;
+mod samples;
 mod schema;
 mod sections;
 mod shapes;
 mod validate;
 
+pub use gas::GASES;
 pub use listing::{ListingKind, ListingRow, expansion_listing, potential_words};
 pub use problem::{DesignError, Problem};
 pub use schema::{RawDesign, RawValue};
-pub use sections::{GASES, OVERRIDES, OverrideKind};
+pub use sections::{OVERRIDES, OverrideKind};
 pub use shapes::describe as describe_shape;
 
 use crate::model::Model;
@@ -51,7 +57,7 @@ pub enum LoadError {
 /// is the one the drawings a design names (`shape = "outline"`) are read from.
 pub fn from_str(text: &str, file_name: &str) -> Result<Model, DesignError> {
     let mut problems = problem::Problems::default();
-    let model = schema::read(text, &mut problems)
+    let model = parse::read(text, &mut problems)
         .and_then(|raw| validate::validate(&raw, text, file_name, &mut problems));
     match model {
         Some(m) if problems.is_empty() => Ok(m),

@@ -7,9 +7,9 @@
 //! `Shape` in metres, or located problems (negative or zero sizes, reversed intervals, corner
 //! radii that do not fit, self-intersecting outlines, keys the shape does not use).
 
+use super::drawn;
 use super::read::{At, Reader};
 use super::schema::{Leaf, RawShape, RawValue};
-use crate::drawing;
 use crate::geometry::{Point, Shape, on_axis};
 use crate::units::{Dimension, format_si};
 use toml::Spanned;
@@ -126,7 +126,7 @@ pub(crate) fn read_shape(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<Sha
         "rounded_cylinder" => rect(rd, raw, at, true),
         "tube" => rect(rd, raw, at, false),
         "disc" => disc(rd, raw, at),
-        "outline" => outline(rd, raw, at),
+        "outline" => drawn::outline(rd, raw, at),
         _ => polygon(rd, raw, at),
     }
 }
@@ -431,210 +431,6 @@ fn polygon(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<Shape> {
     Some(Shape::polygon(pts, fillet))
 }
 
-/// An outline read from a DXF drawing (`drawing::read_outline`); the drawing's path is
-/// relative to the design file.
-fn outline(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<Shape> {
-    let fv = rd.required(&raw.file, at, "file", "\"drawings/terminal.dxf\"");
-    let lv = rd.required(&raw.layer, at, "layer", "\"TERMINAL\"");
-    let file = fv.and_then(|v| {
-        rd.string(
-            v,
-            &at.key("file"),
-            "the drawing's path in quotes, relative to the design file",
-        )
-    });
-    let layer = lv.and_then(|v| rd.string(v, &at.key("layer"), "the layer's name in quotes"));
-    let handle = match &raw.handle {
-        Some(v) => Some(rd.string(v, &at.key("handle"), "an entity handle in hex, e.g. \"2F\"")?),
-        None => None,
-    };
-    let index = match &raw.index {
-        Some(v) => Some(rd.count(v, &at.key("index"), 1)?),
-        None => None,
-    };
-    if let (Some(_), Some(v)) = (&handle, &raw.index) {
-        rd.push(
-            "conflicting-keys",
-            at.key("index"),
-            v.span(),
-            format!(
-                "`{}` and `{}` both pick a loop",
-                at.key("handle"),
-                at.key("index")
-            ),
-            Some("give one of them".to_string()),
-        );
-        return None;
-    }
-    let units = match &raw.units {
-        Some(v) => {
-            let u = rd.string(v, &at.key("units"), "a length unit in quotes, e.g. \"mm\"")?;
-            if drawing::unit_scale(&u).is_none() {
-                let names: Vec<&str> = drawing::UNITS.iter().map(|(n, _)| *n).collect();
-                rd.out_of_range(
-                    v,
-                    &at.key("units"),
-                    format!("`{}` = \"{u}\" is not a drawing unit", at.key("units")),
-                    Some(format!("accepted: {}", names.join(", "))),
-                );
-                return None;
-            }
-            Some(u)
-        }
-        None => None,
-    };
-    let frame = frame(rd, raw, at)?;
-    let (file, layer, fv, lv) = (file?, layer?, fv?, lv?);
-    let path = rd.base.join(&file);
-    let bytes = match std::fs::read(&path) {
-        Ok(b) => b,
-        Err(e) => {
-            rd.push(
-                "drawing-unreadable",
-                at.key("file"),
-                fv.span(),
-                format!("cannot read the drawing {}: {e}", path.display()),
-                Some("the path is relative to the design file".to_string()),
-            );
-            return None;
-        }
-    };
-    let pick = drawing::Pick {
-        layer,
-        handle,
-        index,
-    };
-    match drawing::read_outline(&bytes, &file, &pick, units.as_deref(), &frame) {
-        Ok(shape) => Some(shape),
-        Err(e) => {
-            use drawing::DrawingError as E;
-            let (code, key, span, help) = match e.as_ref() {
-                E::Unreadable { .. } => (
-                    "drawing-unreadable",
-                    "file",
-                    fv.span(),
-                    "save the drawing as DXF (ASCII or binary)",
-                ),
-                E::NoUnits { .. } => (
-                    "drawing-no-units",
-                    "file",
-                    fv.span(),
-                    "add `units = \"mm\"` (or the drawing's unit) to this table, or set the drawing's units",
-                ),
-                E::OddUnits { .. } => (
-                    "drawing-no-units",
-                    "file",
-                    fv.span(),
-                    "set the drawing's units to mm, cm, m or in",
-                ),
-                E::UnitsDisagree { .. } => (
-                    "drawing-units-disagree",
-                    "units",
-                    raw.units.as_ref().map_or(fv.span(), |v| v.span()),
-                    "remove `units` (the header's unit is used) or correct the drawing",
-                ),
-                E::MissingLayer { .. } => (
-                    "drawing-missing-layer",
-                    "layer",
-                    lv.span(),
-                    "name a layer the drawing has",
-                ),
-                E::Unsupported { .. } => (
-                    "drawing-unsupported-entity",
-                    "layer",
-                    lv.span(),
-                    "the outline layer holds the outline only",
-                ),
-                E::OpenLoop { .. } => (
-                    "drawing-open-loop",
-                    "layer",
-                    lv.span(),
-                    "join the ends in the drawing",
-                ),
-                E::SelfIntersecting { .. } | E::Branching { .. } => (
-                    "drawing-self-intersecting",
-                    "layer",
-                    lv.span(),
-                    "draw the outline as one loop that does not cross itself",
-                ),
-                E::CrossesAxis { .. } => (
-                    "drawing-crosses-axis",
-                    "layer",
-                    lv.span(),
-                    "draw the half-section on one side of the axis only, or state where the axis lies with `axis` and `origin`",
-                ),
-                E::SeveralLoops { .. } => (
-                    "drawing-several-loops",
-                    "layer",
-                    lv.span(),
-                    "add `handle = \"...\"` or `index = 1` to this table",
-                ),
-                E::NoSuchLoop { .. } => (
-                    "drawing-no-such-loop",
-                    if raw.handle.is_some() {
-                        "handle"
-                    } else {
-                        "index"
-                    },
-                    raw.handle
-                        .as_ref()
-                        .or(raw.index.as_ref())
-                        .map_or(lv.span(), |v| v.span()),
-                    "pick one of the loops listed",
-                ),
-                E::NoArea { .. } => (
-                    "degenerate-shape",
-                    "layer",
-                    lv.span(),
-                    "the loop must enclose the body's cross-section",
-                ),
-            };
-            rd.push(
-                code,
-                at.key(key),
-                span,
-                e.to_string(),
-                Some(help.to_string()),
-            );
-            None
-        }
-    }
-}
-
-/// How the drawing lies against the model: `axis` ("y", the default, or "x") and `origin`
-/// (the drawing point at r = 0, z = 0, default the drawing's origin).
-fn frame(rd: &mut Reader, raw: &RawShape, at: &At) -> Option<drawing::Frame> {
-    let axis =
-        match &raw.axis {
-            Some(v) => {
-                let name = rd.string(v, &at.key("axis"), "\"y\" or \"x\" in quotes")?;
-                let Some(axis) = drawing::Axis::from_name(&name) else {
-                    rd.out_of_range(
-                    v,
-                    &at.key("axis"),
-                    format!("`{}` = \"{name}\" is not a drawing direction", at.key("axis")),
-                    Some(
-                        "accepted: \"y\" (the axis runs along the drawing's y, x is the radius) \
-                         or \"x\" (the axis runs along x, y is the radius)"
-                            .to_string(),
-                    ),
-                );
-                    return None;
-                };
-                axis
-            }
-            None => drawing::Axis::Y,
-        };
-    let origin = match &raw.origin {
-        Some(v) => {
-            let [x, y] = rd.pair(v, &at.key("origin"), Dimension::Length)?;
-            (x, y)
-        }
-        None => (0.0, 0.0),
-    };
-    Some(drawing::Frame { axis, origin })
-}
-
 fn area(pts: &[Point]) -> f64 {
     let n = pts.len();
     (0..n)
@@ -708,87 +504,6 @@ fn fillet_limit(pts: &[Point]) -> Option<f64> {
         limit = limit.min(0.5 * lu.min(lv) * t);
     }
     limit.is_finite().then_some(limit)
-}
-
-/// Points on the surface of `shape` (in the half-plane r >= 0), about `n` of them, for
-/// containment and overlap tests.
-pub(crate) fn boundary_samples(shape: &Shape, n: usize) -> Vec<Point> {
-    let n = n.max(8);
-    match shape {
-        Shape::Sphere { center_z, radius } => (0..=n)
-            .map(|k| {
-                let a = -std::f64::consts::FRAC_PI_2 + std::f64::consts::PI * k as f64 / n as f64;
-                Point::new((radius * a.cos()).max(0.0), center_z + radius * a.sin())
-            })
-            .collect(),
-        Shape::Torus {
-            center_z,
-            major_radius,
-            minor_radius,
-        } => (0..n)
-            .map(|k| {
-                let a = std::f64::consts::TAU * k as f64 / n as f64;
-                Point::new(
-                    major_radius + minor_radius * a.cos(),
-                    center_z + minor_radius * a.sin(),
-                )
-            })
-            .collect(),
-        Shape::RoundedRect { r0, r1, z0, z1, .. } => {
-            let lo = r0.max(0.0);
-            let corners = [
-                Point::new(lo, *z0),
-                Point::new(*r1, *z0),
-                Point::new(*r1, *z1),
-                Point::new(lo, *z1),
-            ];
-            let solid = *r0 <= 0.0;
-            outline_samples(shape, &corners, n, |a, b| solid && on_axis(a, b))
-        }
-        Shape::Polygon { points, .. } => outline_samples(shape, points, n, on_axis),
-        Shape::Drawn { .. } => shape.outline_points(n),
-    }
-}
-
-/// Samples the closed outline through `corners` evenly by length and projects each sample
-/// onto the true surface along the distance gradient (exact for exact distance functions).
-/// Edges for which `keep` holds are kept as they are (the axis side of a solid body).
-fn outline_samples(
-    shape: &Shape,
-    corners: &[Point],
-    n: usize,
-    keep: impl Fn(Point, Point) -> bool,
-) -> Vec<Point> {
-    let m = corners.len();
-    let lens: Vec<f64> = (0..m)
-        .map(|k| {
-            let (a, b) = (corners[k], corners[(k + 1) % m]);
-            (b.r - a.r).hypot(b.z - a.z)
-        })
-        .collect();
-    let total: f64 = lens.iter().sum();
-    let mut out = Vec::with_capacity(n + m);
-    for k in 0..m {
-        let (a, b) = (corners[k], corners[(k + 1) % m]);
-        let steps = ((n as f64 * lens[k] / total).ceil() as usize).max(2);
-        for s in 0..steps {
-            let t = s as f64 / steps as f64;
-            let p = Point::new(a.r + t * (b.r - a.r), a.z + t * (b.z - a.z));
-            if keep(a, b) {
-                out.push(p);
-                continue;
-            }
-            let d = shape.sdf(p);
-            let q = if d.abs() > 0.0 {
-                let g = shape.normal(p);
-                Point::new((p.r - d * g.r).max(0.0), p.z - d * g.z)
-            } else {
-                p
-            };
-            out.push(q);
-        }
-    }
-    out
 }
 
 /// A short description of a shape in millimetres, for the expansion listing.
@@ -865,6 +580,7 @@ pub fn describe(shape: &Shape) -> String {
 
 #[cfg(test)]
 mod tests {
+    use super::super::samples::boundary_samples;
     use super::*;
 
     #[test]

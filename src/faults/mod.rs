@@ -256,6 +256,7 @@ fn field_margins(
     work.energy_j = basis.energy_j(&ev);
     work.potentials = potentials;
     work.solution.phi = phi;
+    work.node_fields = std::sync::OnceLock::new();
     let m = margin::evaluate(model, work, None)?;
     let worst = m
         .rows

@@ -164,6 +164,7 @@ pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
         peaks: Vec::new(),
         probes: Vec::new(),
         energy_j: 0.0,
+        node_fields: Default::default(),
     }
 }
 

@@ -156,6 +156,41 @@ pub(super) fn worst_streamer_line(
     (best, used.len())
 }
 
+/// What the gas rows of one hotspot share: its gas, its name and its field line.
+struct GasHotspot<'a> {
+    ctx: &'a Ctx<'a>,
+    gas: &'a Gas,
+    state: &'a GasState,
+    hot: &'a SurfaceSample,
+    name: String,
+    derating: Derating,
+    /// The field line from the hotspot; `reached` when it ends on an opposite surface, at
+    /// `to`.
+    line: FieldLine,
+    reached: bool,
+    to: String,
+    /// Relative numerical error of the hotspot's conductor peak, from the grid study.
+    err: Option<f64>,
+}
+
+impl GasHotspot<'_> {
+    /// A gas row of this hotspot's conductor at its peak surface field (the item, medium and
+    /// error filled in).
+    fn surface_row(&self, at: Point, user_set: bool, scaling: Scaling, note: String) -> RowSpec {
+        RowSpec {
+            item: self.name.clone(),
+            medium: RowMedium::Gas,
+            peak: self.hot.e,
+            at,
+            numerical_error: self.err,
+            user_set,
+            scaling,
+            in_holdoff: true,
+            note: Some(note),
+        }
+    }
+}
+
 /// The gas rows of one conductor hotspot.
 pub(super) fn gas_rows(
     ctx: &Ctx,
@@ -170,63 +205,87 @@ pub(super) fn gas_rows(
     };
     let first_row = rows.len();
     let model = ctx.model;
-    let name = name_of(model, hot.conductor);
     let derating = gas_derating(ctx, state)?;
     let line = fieldline::trace(fm, hot, &TraceParams::default());
     let reached = !matches!(line.end, LineEnd::Stalled) && line.length_m > 0.0;
     let to = end_name(model, line.end);
     lines.push(summary(model, &line, hot, &to));
-    let err = ctx.relative_error(hot.conductor);
+    let h = GasHotspot {
+        ctx,
+        gas,
+        state,
+        hot,
+        name: name_of(model, hot.conductor),
+        derating,
+        line,
+        reached,
+        to,
+        err: ctx.relative_error(hot.conductor),
+    };
+    rows.extend(limiting_field_row(&h)?);
+    streamer_rows(&h, fm, samples, lines, rows)?;
+    rows.extend(gap_voltage_row(&h)?);
+    peek_row(&h, rows)?;
+    if h.reached && h.line.voltage_v > 0.0 {
+        below_paschen_minimum(&mut rows[first_row..], h.line.voltage_v, state.kind);
+    }
+    Ok(())
+}
+
+/// Row 1, the peak surface field against the limiting field: SF6 and its mixtures, the critical
+/// field (the standard SF6 design check); other gases only with a user-set `gas_field_limit`
+/// (their surface checks are the streamer integral and, in air, Peek; the long-gap limit
+/// against a small-radius surface field would mislead).
+fn limiting_field_row(h: &GasHotspot) -> Result<Option<MarginRow>, MarginError> {
+    let ctx = h.ctx;
+    let user_field = override_of(ctx.model, "gas_field_limit");
+    if !(h.state.kind.is_sf6_based() || user_field.is_some()) {
+        return Ok(None);
+    }
+    let mut limit = uniform::critical_field(h.gas, &ctx.options)?;
+    let mut user_set = false;
+    if let Some(v) = user_field {
+        limit = user_limit(limit, "gas_field_limit", v)?;
+        user_set = true;
+    }
     let gas_label = format!(
         "{} at {:.3} bar",
-        state.kind.label(),
-        state.pressure_pa / 1e5
+        h.state.kind.label(),
+        h.state.pressure_pa / 1e5
     );
+    Ok(Some(row(
+        ctx,
+        h.surface_row(
+            h.hot.at,
+            user_set,
+            Scaling::Linear,
+            format!("peak surface field in {gas_label}"),
+        ),
+        &limit.derated(h.derating.clone()),
+    )))
+}
 
-    // 1. Peak surface field against the limiting field: SF6 and its mixtures, the critical
-    // field (the standard SF6 design check); other gases only with a user-set
-    // `gas_field_limit` (their surface checks are the streamer integral and, in air, Peek; the
-    // long-gap limit against a small-radius surface field would mislead).
-    let long_gap = reached
-        && !state.kind.is_sf6_based()
-        && state.reduced_pd(line.length_m) / BAR_CM_PA_M > uniform::SCHUMANN_PD_RANGE_BAR_CM.1;
-    let user_field = override_of(model, "gas_field_limit");
-    if state.kind.is_sf6_based() || user_field.is_some() {
-        let mut limit = uniform::critical_field(gas, &ctx.options)?;
-        let mut user_set = false;
-        if let Some(v) = user_field {
-            limit = user_limit(limit, "gas_field_limit", v)?;
-            user_set = true;
-        }
-        rows.push(row(
-            ctx,
-            RowSpec {
-                item: name.clone(),
-                medium: RowMedium::Gas,
-                peak: hot.e,
-                at: hot.at,
-                numerical_error: err,
-                user_set,
-                scaling: Scaling::Linear,
-                in_holdoff: true,
-                note: Some(format!("peak surface field in {gas_label}")),
-            },
-            &limit.derated(derating.clone()),
-        ));
-    }
-
-    // 2. Streamer integral along the field line.
+/// Row 2, the streamer integral along the field lines of the hotspot's conductor: a row per worst
+/// line (inside and outside the fits' validity), or one row saying why none gave inception.
+fn streamer_rows(
+    h: &GasHotspot,
+    fm: &FieldMap,
+    samples: &[SurfaceSample],
+    lines: &mut Vec<LineSummary>,
+    rows: &mut Vec<MarginRow>,
+) -> Result<(), MarginError> {
+    let (ctx, hot, model) = (h.ctx, h.hot, h.ctx.model);
     // N2 at tank pressures is in the streamer regime, below the window of its Townsend fit:
     // the scaled-air model is used there (the stated alternative of the ionisation table).
     let model_ion =
-        if state.kind == GasKind::N2 && state.reduced_pressure_pa >= N2_SCALED_AIR_FROM_PA {
+        if h.state.kind == GasKind::N2 && h.state.reduced_pressure_pa >= N2_SCALED_AIR_FROM_PA {
             EffectiveIonisation::n2_scaled_air()
         } else {
-            EffectiveIonisation::for_gas(gas, &ctx.options)?
+            EffectiveIonisation::for_gas(h.gas, &ctx.options)?
         };
-    let p = state.reduced_pressure_pa;
-    let (worst, integrated) = worst_streamer_line(fm, samples, hot, &line, gas, &model_ion, p);
-    let e_ref = line.profile().first().map_or(hot.e, |&(_, e)| e);
+    let p = h.state.reduced_pressure_pa;
+    let (worst, integrated) = worst_streamer_line(fm, samples, hot, &h.line, h.gas, &model_ion, p);
+    let e_ref = h.line.profile().first().map_or(hot.e, |&(_, e)| e);
     let mut streamer_rows = Vec::new();
     if worst.valid.is_none() && worst.outside.is_none() {
         let reason = worst
@@ -276,176 +335,166 @@ pub(super) fn gas_rows(
     for (limit, at, note) in streamer_rows {
         rows.push(row(
             ctx,
-            RowSpec {
-                item: name.clone(),
-                medium: RowMedium::Gas,
-                peak: hot.e,
-                at,
-                numerical_error: err,
-                user_set: false,
-                scaling: Scaling::Bisection,
-                in_holdoff: true,
-                note: Some(note),
-            },
-            &limit.derated(derating.clone()),
+            h.surface_row(at, false, Scaling::Bisection, note),
+            &limit.derated(h.derating.clone()),
         ));
     }
+    Ok(())
+}
 
-    // 3. Gap voltage against the uniform-field breakdown of the same gap.
-    if reached && line.voltage_v > 0.0 {
-        let gap_limit = if long_gap {
-            let crit = uniform::critical_field(gas, &ctx.options)?;
-            Limit::new(
-                crit.criterion,
-                format!(
-                    "long-gap uniform-field limit ({} x field-line length; pd above the \
-                     Schumann range)",
-                    crit.name
-                ),
-                crit.source.clone(),
-                crit.mark,
+/// Row 3, the gap voltage against the uniform-field breakdown of the same gap (the long-gap limit
+/// above the Schumann range), when the field line reaches an opposite surface.
+fn gap_voltage_row(h: &GasHotspot) -> Result<Option<MarginRow>, MarginError> {
+    let (ctx, gas, line, to) = (h.ctx, h.gas, &h.line, &h.to);
+    if !(h.reached && line.voltage_v > 0.0) {
+        return Ok(None);
+    }
+    let long_gap = !h.state.kind.is_sf6_based()
+        && h.state.reduced_pd(line.length_m) / BAR_CM_PA_M > uniform::SCHUMANN_PD_RANGE_BAR_CM.1;
+    let gap_limit = if long_gap {
+        let crit = uniform::critical_field(gas, &ctx.options)?;
+        Limit::new(
+            crit.criterion,
+            format!(
+                "long-gap uniform-field limit ({} x field-line length; pd above the \
+                 Schumann range)",
+                crit.name
+            ),
+            crit.source.clone(),
+            crit.mark,
+            LimitKind::Voltage,
+            crit.ideal * line.length_m,
+            crit.validity.clone(),
+        )
+    } else {
+        match uniform::uniform_breakdown(gas, line.length_m, &ctx.options) {
+            Ok(u) => u.voltage,
+            Err(e) => unavailable(
+                Criterion::Paschen,
+                "uniform-field gap breakdown",
                 LimitKind::Voltage,
-                crit.ideal * line.length_m,
-                crit.validity.clone(),
-            )
-        } else {
-            match uniform::uniform_breakdown(gas, line.length_m, &ctx.options) {
-                Ok(u) => u.voltage,
-                Err(e) => unavailable(
-                    Criterion::Paschen,
-                    "uniform-field gap breakdown",
-                    LimitKind::Voltage,
-                    e.to_string(),
-                    "docs/references.md §1-3",
-                ),
-            }
-        };
-        let mut note = format!(
-            "voltage across the {:.1} mm field-line gap to {to}; the uniform-field value is an \
-             upper bound for a non-uniform gap (the streamer row covers that)",
-            line.length_m * 1e3
-        );
-        if matches!(line.end, LineEnd::Dielectric { .. }) {
-            note.push_str("; the line ends on an insulator surface, not an electrode");
+                e.to_string(),
+                "docs/references.md §1-3",
+            ),
         }
-        rows.push(row(
-            ctx,
-            RowSpec {
-                item: format!("gap {name} → {to}"),
-                medium: RowMedium::Gas,
-                peak: line.voltage_v,
-                at: hot.at,
-                numerical_error: None,
-                user_set: false,
-                scaling: Scaling::Linear,
-                in_holdoff: true,
-                note: Some(note),
-            },
-            &gap_limit.derated(derating.clone()),
-        ));
+    };
+    let mut note = format!(
+        "voltage across the {:.1} mm field-line gap to {to}; the uniform-field value is an \
+         upper bound for a non-uniform gap (the streamer row covers that)",
+        line.length_m * 1e3
+    );
+    if matches!(line.end, LineEnd::Dielectric { .. }) {
+        note.push_str("; the line ends on an insulator surface, not an electrode");
     }
+    Ok(Some(row(
+        ctx,
+        RowSpec {
+            item: format!("gap {} → {to}", h.name),
+            medium: RowMedium::Gas,
+            peak: line.voltage_v,
+            at: h.hot.at,
+            numerical_error: None,
+            user_set: false,
+            scaling: Scaling::Linear,
+            in_holdoff: true,
+            note: Some(note),
+        },
+        &gap_limit.derated(h.derating.clone()),
+    )))
+}
 
-    // 4. Corona onset in air (Peek) at the local radius of curvature; by the geometry either
-    // beside the streamer integral (an isolated conductor) or a cross-check (a gap).
-    if state.kind == GasKind::Air
-        && let Some(c) = hot.conductor.conductor_index()
-    {
-        let shape = &model.conductors[c].shape;
-        let (m, m_user) = match override_of(model, "corona_surface_factor") {
-            Some(v) => (v, true),
-            None => (DEFAULT_CORONA_SURFACE_FACTOR, false),
-        };
-        let geometry = match shape {
-            Shape::Sphere { .. } => PeekGeometry::Sphere,
-            _ => PeekGeometry::Coaxial,
-        };
-        let radius = local_radius(shape, hot.at);
-        let peek = match radius {
-            Some(radius) => {
-                let mut l = corona::onset_field_in_gas(geometry, radius, gas, m).map_err(|e| {
-                    MarginError::Override {
-                        key: "corona_surface_factor",
-                        value: m,
-                        reason: e,
-                    }
-                })?;
-                l.name = format!("{} at local radius {:.2} mm", l.name, radius * 1e3);
-                if m_user {
-                    l.source = format!("{}; surface factor m = {m}, user-set", l.source);
+/// Row 4, corona onset in air (Peek) at the local radius of curvature; by the geometry either
+/// beside the streamer integral (an isolated conductor) or a cross-check (a gap), when it also
+/// marks the streamer rows of the conductor as governing.
+fn peek_row(h: &GasHotspot, rows: &mut Vec<MarginRow>) -> Result<(), MarginError> {
+    let (ctx, hot, line, to) = (h.ctx, h.hot, &h.line, &h.to);
+    let model = ctx.model;
+    if h.state.kind != GasKind::Air {
+        return Ok(());
+    }
+    let Some(c) = hot.conductor.conductor_index() else {
+        return Ok(());
+    };
+    let shape = &model.conductors[c].shape;
+    let (m, m_user) = match override_of(model, "corona_surface_factor") {
+        Some(v) => (v, true),
+        None => (DEFAULT_CORONA_SURFACE_FACTOR, false),
+    };
+    let geometry = match shape {
+        Shape::Sphere { .. } => PeekGeometry::Sphere,
+        _ => PeekGeometry::Coaxial,
+    };
+    let radius = local_radius(shape, hot.at);
+    let peek = match radius {
+        Some(radius) => {
+            let mut l = corona::onset_field_in_gas(geometry, radius, h.gas, m).map_err(|e| {
+                MarginError::Override {
+                    key: "corona_surface_factor",
+                    value: m,
+                    reason: e,
                 }
-                l
+            })?;
+            l.name = format!("{} at local radius {:.2} mm", l.name, radius * 1e3);
+            if m_user {
+                l.source = format!("{}; surface factor m = {m}, user-set", l.source);
             }
-            None => unavailable(
-                Criterion::PeekCorona,
-                "Peek corona onset",
-                LimitKind::Field,
-                "the hotspot is on a flat face or a sharp edge: Peek's law needs a finite \
-                 conductor radius"
-                    .to_string(),
-                "Peek (1929), docs/references.md §5",
-            ),
-        };
-        let form = match geometry {
-            PeekGeometry::Sphere => "Peek's sphere form",
-            _ => "Peek's coaxial (cylinder) form at the in-plane radius of the hotspot",
-        };
-        let gap = match radius {
-            Some(r) if faces_electrode(&line) && line.length_m <= GAP_TO_RADIUS * r => Some(r),
-            _ => None,
-        };
-        let note = match (gap, radius) {
-            (Some(r), _) => format!(
-                "{form}; cross-check, not in the hold-off or the status: the field line reaches \
-                 {to} after {:.1} mm, within {GAP_TO_RADIUS} local radii ({:.1} mm), so this is \
-                 a gap and the streamer criterion along the field line governs (Peek's formula \
-                 is for a conductor far from others)",
-                line.length_m * 1e3,
-                r * 1e3
-            ),
-            (None, Some(r)) => format!(
-                "{form}; isolated conductor (no opposite electrode within {GAP_TO_RADIUS} local \
-                 radii, {:.1} mm): Peek's onset enters beside the streamer integral",
-                GAP_TO_RADIUS * r * 1e3
-            ),
-            (None, None) => form.to_string(),
-        };
-        let mut peek_row = row(
-            ctx,
-            RowSpec {
-                item: name,
-                medium: RowMedium::Gas,
-                peak: hot.e,
-                at: hot.at,
-                numerical_error: err,
-                user_set: m_user,
-                scaling: Scaling::Linear,
-                in_holdoff: gap.is_none(),
-                note: Some(note),
-            },
-            &peek,
-        );
-        if gap.is_some() {
-            peek_row.cross_check = true;
-            peek_row.criterion_name = format!(
-                "{} (cross-check: the streamer criterion governs this gap)",
-                peek_row.criterion_name
-            );
-            for n in rows
-                .iter_mut()
-                .filter(|r| r.criterion == Criterion::StreamerIntegral && r.item == peek_row.item)
-                .filter_map(|r| r.note.as_mut())
-            {
-                n.push_str(&format!(
-                    "; governs this gap (field line within {GAP_TO_RADIUS} local radii; Peek \
-                     shown as a cross-check)"
-                ));
-            }
+            l
         }
-        rows.push(peek_row);
+        None => unavailable(
+            Criterion::PeekCorona,
+            "Peek corona onset",
+            LimitKind::Field,
+            "the hotspot is on a flat face or a sharp edge: Peek's law needs a finite \
+             conductor radius"
+                .to_string(),
+            "Peek (1929), docs/references.md §5",
+        ),
+    };
+    let form = match geometry {
+        PeekGeometry::Sphere => "Peek's sphere form",
+        _ => "Peek's coaxial (cylinder) form at the in-plane radius of the hotspot",
+    };
+    let gap = match radius {
+        Some(r) if faces_electrode(line) && line.length_m <= GAP_TO_RADIUS * r => Some(r),
+        _ => None,
+    };
+    let note = match (gap, radius) {
+        (Some(r), _) => format!(
+            "{form}; cross-check, not in the hold-off or the status: the field line reaches \
+             {to} after {:.1} mm, within {GAP_TO_RADIUS} local radii ({:.1} mm), so this is \
+             a gap and the streamer criterion along the field line governs (Peek's formula \
+             is for a conductor far from others)",
+            line.length_m * 1e3,
+            r * 1e3
+        ),
+        (None, Some(r)) => format!(
+            "{form}; isolated conductor (no opposite electrode within {GAP_TO_RADIUS} local \
+             radii, {:.1} mm): Peek's onset enters beside the streamer integral",
+            GAP_TO_RADIUS * r * 1e3
+        ),
+        (None, None) => form.to_string(),
+    };
+    let mut spec = h.surface_row(hot.at, m_user, Scaling::Linear, note);
+    spec.in_holdoff = gap.is_none();
+    let mut peek_row = row(ctx, spec, &peek);
+    if gap.is_some() {
+        peek_row.cross_check = true;
+        peek_row.criterion_name = format!(
+            "{} (cross-check: the streamer criterion governs this gap)",
+            peek_row.criterion_name
+        );
+        for n in rows
+            .iter_mut()
+            .filter(|r| r.criterion == Criterion::StreamerIntegral && r.item == peek_row.item)
+            .filter_map(|r| r.note.as_mut())
+        {
+            n.push_str(&format!(
+                "; governs this gap (field line within {GAP_TO_RADIUS} local radii; Peek \
+                 shown as a cross-check)"
+            ));
+        }
     }
-    if reached && line.voltage_v > 0.0 {
-        below_paschen_minimum(&mut rows[first_row..], line.voltage_v, state.kind);
-    }
+    rows.push(peek_row);
     Ok(())
 }
 

@@ -27,7 +27,8 @@ pub(super) fn summary(
     }
 }
 
-/// The vacuum rows of one cathodic hotspot.
+/// The vacuum rows of one cathodic hotspot: its surface field, then the total-voltage and
+/// Cranberg rows of the vacuum gap its field line spans.
 pub(super) fn vacuum_rows(
     ctx: &Ctx,
     fm: &FieldMap,
@@ -39,44 +40,10 @@ pub(super) fn vacuum_rows(
     let model = ctx.model;
     let name = name_of(model, hot.conductor);
     let err = ctx.relative_error(hot.conductor);
-    let (c, c_user) = match override_of(model, "cranberg_constant") {
-        Some(v) => (v, true),
-        None => (vacuum::CRANBERG_C_DEFAULT, false),
-    };
-    let bad_c = |e: BreakdownError| MarginError::Override {
-        key: "cranberg_constant",
-        value: c,
-        reason: e,
-    };
-
-    // 1. Cathode surface field.
-    let mut limit = vacuum::cathode_surface_field_limit(CathodeClass::LargeArea);
-    let mut user_set = false;
-    if let Some(v) = override_of(model, "vacuum_field_limit") {
-        limit = user_limit(limit, "vacuum_field_limit", v)?;
-        user_set = true;
-    }
-    rows.push(row(
-        ctx,
-        RowSpec {
-            item: format!("{name} (cathode)"),
-            medium: RowMedium::Vacuum,
-            peak: hot.e,
-            at: hot.at,
-            numerical_error: err,
-            user_set,
-            scaling: Scaling::Linear,
-            in_holdoff: true,
-            note: Some("peak cathodic surface field in vacuum".to_string()),
-        },
-        &limit,
-    ));
-
+    rows.push(cathode_field_row(ctx, hot, &name, err)?);
     let (line, start, first_end) = vacuum_gap_line(fm, hot, samples);
     let to = end_name(model, line.end);
     lines.push(summary(model, &line, &start, &to));
-    let reached = gap_reached(&line);
-    let gap_item = format!("vacuum gap {name} → {to}");
     // When the peak's own line leaves the vacuum (e.g. into the insulator beside it), the gap
     // rows come from the strongest cathodic point whose line reaches an electrode.
     let from_note = match first_end {
@@ -90,47 +57,125 @@ pub(super) fn vacuum_rows(
         ),
         None => String::new(),
     };
-    let hot = &start;
+    let (c, c_user) = match override_of(model, "cranberg_constant") {
+        Some(v) => (v, true),
+        None => (vacuum::CRANBERG_C_DEFAULT, false),
+    };
+    let gap = VacuumGap {
+        reached: gap_reached(&line),
+        item: format!("vacuum gap {name} → {to}"),
+        note: format!(
+            "voltage across the {:.1} mm vacuum field-line gap to {to}{from_note}",
+            line.length_m * 1e3
+        ),
+        line,
+        cathode: start,
+        to,
+        c,
+        c_user,
+    };
+    rows.push(total_voltage_row(ctx, &gap)?);
+    rows.push(cranberg_row(ctx, &gap, err)?);
+    Ok(())
+}
 
-    // 2. Total-voltage effect: gap voltage against V = k d^alpha (Cranberg's case by default).
-    let fit = TotalVoltageFit::cranberg(c).map_err(bad_c)?;
-    let tv = if reached {
-        fit.voltage(line.length_m).map_err(bad_c)?
+/// Row 1, the cathode surface field against the large-area limit (or `vacuum_field_limit`).
+fn cathode_field_row(
+    ctx: &Ctx,
+    hot: &SurfaceSample,
+    name: &str,
+    err: Option<f64>,
+) -> Result<MarginRow, MarginError> {
+    let mut limit = vacuum::cathode_surface_field_limit(CathodeClass::LargeArea);
+    let mut user_set = false;
+    if let Some(v) = override_of(ctx.model, "vacuum_field_limit") {
+        limit = user_limit(limit, "vacuum_field_limit", v)?;
+        user_set = true;
+    }
+    Ok(row(
+        ctx,
+        RowSpec {
+            item: format!("{name} (cathode)"),
+            medium: RowMedium::Vacuum,
+            peak: hot.e,
+            at: hot.at,
+            numerical_error: err,
+            user_set,
+            scaling: Scaling::Linear,
+            in_holdoff: true,
+            note: Some("peak cathodic surface field in vacuum".to_string()),
+        },
+        &limit,
+    ))
+}
+
+/// The vacuum gap of a cathodic hotspot: the field line from the cathode point, where it
+/// ends, and Cranberg's constant (`cranberg_constant` when user-set).
+struct VacuumGap {
+    line: FieldLine,
+    /// The cathode point the line starts from (the hotspot, or the point used instead).
+    cathode: SurfaceSample,
+    to: String,
+    reached: bool,
+    item: String,
+    note: String,
+    c: f64,
+    c_user: bool,
+}
+
+impl VacuumGap {
+    fn bad_c(&self, e: BreakdownError) -> MarginError {
+        MarginError::Override {
+            key: "cranberg_constant",
+            value: self.c,
+            reason: e,
+        }
+    }
+}
+
+/// Row 2, the total-voltage effect: gap voltage against V = k d^alpha (Cranberg's case by default).
+fn total_voltage_row(ctx: &Ctx, gap: &VacuumGap) -> Result<MarginRow, MarginError> {
+    let line = &gap.line;
+    let fit = TotalVoltageFit::cranberg(gap.c).map_err(|e| gap.bad_c(e))?;
+    let tv = if gap.reached {
+        fit.voltage(line.length_m).map_err(|e| gap.bad_c(e))?
     } else {
         unavailable(
             Criterion::TotalVoltage,
             "total-voltage fit",
             LimitKind::Voltage,
-            format!("the field line from the cathode reached {to}, not an electrode"),
+            format!(
+                "the field line from the cathode reached {}, not an electrode",
+                gap.to
+            ),
             &fit.source,
         )
     };
-    let gap_note = format!(
-        "voltage across the {:.1} mm vacuum field-line gap to {to}{from_note}",
-        line.length_m * 1e3
-    );
-    rows.push(row(
+    Ok(row(
         ctx,
         RowSpec {
-            item: gap_item.clone(),
+            item: gap.item.clone(),
             medium: RowMedium::Vacuum,
             peak: line.voltage_v,
-            at: hot.at,
+            at: gap.cathode.at,
             numerical_error: None,
-            user_set: c_user,
+            user_set: gap.c_user,
             scaling: Scaling::Linear,
             in_holdoff: true,
-            note: Some(gap_note.clone()),
+            note: Some(gap.note.clone()),
         },
         &tv,
-    ));
+    ))
+}
 
-    // 3. Cranberg's V·E = C, in voltage form.
-    let cr = if reached {
+/// Row 3, Cranberg's V·E = C, in voltage form.
+fn cranberg_row(ctx: &Ctx, gap: &VacuumGap, err: Option<f64>) -> Result<MarginRow, MarginError> {
+    let (line, hot, c) = (&gap.line, &gap.cathode, gap.c);
+    let cr = if gap.reached {
         let scale = (c / (line.voltage_v * hot.e)).sqrt();
         let v_lim = scale * line.voltage_v;
-        let f = vacuum::cranberg_field_limit(v_lim, c).map_err(bad_c)?;
-        let gap = vacuum::cranberg_gap_voltage(line.length_m, c).map_err(bad_c)?;
+        let f = vacuum::cranberg_field_limit(v_lim, c).map_err(|e| gap.bad_c(e))?;
+        let gap_v = vacuum::cranberg_gap_voltage(line.length_m, c).map_err(|e| gap.bad_c(e))?;
         let mut l = Limit::new(
             Criterion::Cranberg,
             format!(
@@ -145,7 +190,7 @@ pub(super) fn vacuum_rows(
         );
         // Only the gap-length range of the supporting data is added (the voltage range is
         // checked at the limit itself).
-        if let Validity::OutsideValidity { reason } = gap.validity
+        if let Validity::OutsideValidity { reason } = gap_v.validity
             && reason.starts_with("gap")
         {
             l.validity = l.validity.and(Validity::OutsideValidity { reason });
@@ -156,29 +201,32 @@ pub(super) fn vacuum_rows(
             Criterion::Cranberg,
             "Cranberg V x E criterion",
             LimitKind::Voltage,
-            format!("the field line from the cathode reached {to}, not an electrode"),
+            format!(
+                "the field line from the cathode reached {}, not an electrode",
+                gap.to
+            ),
             "Cranberg, J. Appl. Phys. 23, 518 (1952)",
         )
     };
-    rows.push(row(
+    Ok(row(
         ctx,
         RowSpec {
-            item: gap_item,
+            item: gap.item.clone(),
             medium: RowMedium::Vacuum,
             peak: line.voltage_v,
             at: hot.at,
             numerical_error: err,
-            user_set: c_user,
+            user_set: gap.c_user,
             scaling: Scaling::SquareRoot,
             in_holdoff: true,
             note: Some(format!(
-                "{gap_note}; cathode field {:.3} MV/m; margin sqrt(C/(V E))",
+                "{}; cathode field {:.3} MV/m; margin sqrt(C/(V E))",
+                gap.note,
                 hot.e / 1e6
             )),
         },
         &cr,
-    ));
-    Ok(())
+    ))
 }
 
 /// Does a traced line span a gap between two electrodes?

@@ -273,7 +273,7 @@ pub fn evaluate(
     fine: &Analysis,
     study: Option<&GridStudy>,
 ) -> Result<Margins, MarginError> {
-    let fm = FieldMap::new(&fine.mesh, model, &fine.solution.phi, &fine.potentials);
+    let fm = fine.field_map(model);
     let gas = match &model.gas {
         Some(g) => Some((g.clone(), GasState::resolve(g)?)),
         None => None,

@@ -39,7 +39,8 @@ impl FaultSection {
         seconds: f64,
         stack: Option<&crate::stack::StackAnalysis>,
     ) -> FaultSection {
-        use crate::report::cautions::{CautionInputs, cautions, stored_energy};
+        use crate::report::cautions::{CautionInputs, cautions};
+        use crate::stack::stored_energy;
         let stored = replay
             .spark_energy
             .as_ref()
@@ -56,13 +57,7 @@ impl FaultSection {
                 replay.terminal_voltage_v,
                 stored,
             )),
-            stack_spark: stack.map(|st| crate::stack::StackSpark {
-                stored_no_load_j: model
-                    .multiplier
-                    .as_ref()
-                    .and_then(crate::report::cautions::multiplier_stored_energy_j),
-                ..crate::stack::stack_spark(st)
-            }),
+            stack_spark: stack.map(crate::stack::stack_spark),
             replay,
             seconds,
         }

@@ -198,7 +198,7 @@ impl Report {
         let mut cautions = cautions::cautions(&CautionInputs::for_model(
             model,
             model.terminal_voltage,
-            Some(cautions::stored_energy(model, fine.energy_j)),
+            Some(crate::stack::stored_energy(model, fine.energy_j)),
         ));
         if let Some(a) = study.as_ref().and_then(|s| s.accuracy.as_ref())
             && !a.reached
@@ -267,7 +267,7 @@ impl Report {
 
     /// Adds the multiplier stack: its section, and the reconciliation of the terminal voltage
     /// with its output (a caution when they differ beyond the tolerance). The stored-energy
-    /// caution already counts the stack at no load ([`cautions::stored_energy`]).
+    /// caution already counts the stack at no load ([`crate::stack::stored_energy`]).
     pub fn with_ladder(mut self, stack: Option<&crate::stack::StackAnalysis>) -> Report {
         if let Some(st) = stack {
             let r = crate::stack::reconcile(self.design.terminal_voltage_v, st);

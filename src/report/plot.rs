@@ -5,7 +5,6 @@
 //! Input: the fine analysis and the report. Output: SVG documents as strings.
 
 use crate::analysis::Analysis;
-use crate::field::FieldMap;
 use crate::model::Model;
 use crate::report::Report;
 use plotters::coord::types::RangedCoordf64;
@@ -113,7 +112,7 @@ impl Raster {
 /// regions outlined blue.
 pub fn field_map(model: &Model, fine: &Analysis) -> PlotResult {
     let mesh = &fine.mesh;
-    let fm = FieldMap::new(mesh, model, &fine.solution.phi, &fine.potentials);
+    let fm = fine.field_map(model);
     let dom = model.tank.bbox();
     let (w, h) = (dom.r_max - dom.r_min, dom.z_max - dom.z_min);
     // A raster of about 120 cells across the larger side.
