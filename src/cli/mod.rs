@@ -39,6 +39,21 @@ pub(crate) fn load_design(path: &Path) -> anyhow::Result<Option<Loaded>> {
     }
 }
 
+impl Loaded {
+    /// The design section of the JSON (title, file, SHA-256).
+    pub fn design_info(&self) -> holdoff::report::DesignInfo {
+        holdoff::report::DesignInfo::of(&self.model, &self.file, &self.text)
+    }
+}
+
+/// A command's JSON body with the design section first, in the same place in every command.
+#[derive(serde::Serialize)]
+pub(crate) struct WithDesign<'a, D: serde::Serialize, T: serde::Serialize> {
+    pub design: D,
+    #[serde(flatten)]
+    pub body: &'a T,
+}
+
 /// `--json FILE|-`, the same in every command: the JSON goes to FILE (written whole or not at
 /// all), or to standard output with `-`, in which case the text output is left out.
 #[derive(Debug, Clone, clap::Args)]
@@ -124,7 +139,7 @@ pub enum Command {
     Check(check::CheckArgs),
     /// Run `check` on the built-in demo design (an invented 750 kV SF6 column).
     Demo(check::DemoArgs),
-    /// Compare the margins of two designs, the rows that got worse first.
+    /// Compare the margins of two designs: the worst margin before and after, the governing rows first.
     Compare(compare::CompareArgs),
     /// Write the pre-commissioning review note of a design (Markdown).
     Report(report::ReportArgs),

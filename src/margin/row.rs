@@ -174,6 +174,35 @@ impl Margins {
     }
 }
 
+impl MarginRow {
+    /// The row's criterion label (docs/glossary.md): the criterion's label, "(gap voltage)"
+    /// for the limiting field applied to a gap voltage.
+    pub fn criterion_label(&self) -> String {
+        match (self.criterion, self.kind) {
+            (Criterion::CriticalField, LimitKind::Voltage) => {
+                "limiting field (gap voltage)".to_string()
+            }
+            (c, _) => c.label().to_string(),
+        }
+    }
+
+    /// The label with what qualifies the row: its derating, a user-set constant, a
+    /// cross-check.
+    pub fn criterion_label_qualified(&self) -> String {
+        let mut label = self.criterion_label();
+        if self.derating.factor != 1.0 {
+            label.push_str(&format!(", derated x{}", self.derating.factor));
+        }
+        if self.user_set {
+            label.push_str(" [user-set]");
+        }
+        if self.cross_check {
+            label.push_str(" (cross-check)");
+        }
+        label
+    }
+}
+
 /// A sharp convex corner of a conductor exposed to the field: the field there is singular.
 #[derive(Debug, Clone, Serialize)]
 pub struct SharpCorner {

@@ -38,6 +38,19 @@ pub struct DesignInfo {
     pub terminal_voltage_v: f64,
 }
 
+impl DesignInfo {
+    /// The design section of every command's JSON: title, file, SHA-256 of the text, terminal
+    /// voltage.
+    pub fn of(model: &Model, file: &str, text: &str) -> DesignInfo {
+        DesignInfo {
+            title: model.title.clone(),
+            file: file.to_string(),
+            sha256: sha256_hex(text),
+            terminal_voltage_v: model.terminal_voltage,
+        }
+    }
+}
+
 /// The grid.
 #[derive(Debug, Clone, Serialize)]
 pub struct MeshInfo {
@@ -213,12 +226,7 @@ impl Report {
                 name: "holdoff",
                 version: env!("CARGO_PKG_VERSION"),
             },
-            design: DesignInfo {
-                title: model.title.clone(),
-                file: file.to_string(),
-                sha256: sha256_hex(text),
-                terminal_voltage_v: model.terminal_voltage,
-            },
+            design: DesignInfo::of(model, file, text),
             mesh: MeshInfo {
                 nr: fine.mesh.nr(),
                 nz: fine.mesh.nz(),
