@@ -100,6 +100,21 @@ pub(crate) fn check_output(path: &Path, what: &str) -> anyhow::Result<()> {
         .with_context(|| format!("cannot write {what} {}", path.display()))
 }
 
+/// A progress bar on standard error, only when standard error is a terminal (never in a pipe,
+/// a log or the JSON): `len` steps of `unit`, headed by `what`.
+pub(crate) fn progress_bar(len: usize, what: &str, unit: &str) -> Option<indicatif::ProgressBar> {
+    std::io::IsTerminal::is_terminal(&std::io::stderr()).then(|| {
+        let b = indicatif::ProgressBar::new(len as u64);
+        if let Ok(style) = indicatif::ProgressStyle::with_template(&format!(
+            "{{msg}} [{{bar:40}}] {{pos}}/{{len}} {unit}, {{elapsed}}"
+        )) {
+            b.set_style(style.progress_chars("=> "));
+        }
+        b.set_message(what.to_string());
+        b
+    })
+}
+
 /// `--rows N|all`, the one row limit of every table: a count, or every row.
 #[derive(Debug, Clone, Copy)]
 pub struct Rows(pub Option<usize>);

@@ -52,16 +52,7 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         super::check_output(path, "the plot")?;
     }
     let span = range(&a.from, &a.to)?;
-    let bar = std::io::IsTerminal::is_terminal(&std::io::stderr()).then(|| {
-        let b = indicatif::ProgressBar::new(a.steps.max(2) as u64);
-        if let Ok(style) = indicatif::ProgressStyle::with_template(
-            "{msg} [{bar:40}] {pos}/{len} values, {elapsed}",
-        ) {
-            b.set_style(style.progress_chars("=> "));
-        }
-        b.set_message("sweep");
-        b
-    });
+    let bar = super::progress_bar(a.steps.max(2), "sweep", "values");
     let progress = |k: usize| {
         if let Some(b) = &bar {
             b.set_position(k as u64);
