@@ -87,11 +87,15 @@ pub struct MarginRow {
     pub mark: Mark,
     /// The unit of `peak` and `limit`: `field_v_per_m` or `voltage_v`.
     pub kind: LimitKind,
-    /// The computed value at the design terminal voltage.
+    /// The computed value at the design terminal voltage. (Peak and limits are written to
+    /// the JSON with their unit in the key, by `report::RowJson`.)
+    #[serde(skip)]
     pub peak: f64,
     /// The limit as used (derated where the row is derated); `None` outside validity.
+    #[serde(skip)]
     pub limit: Option<f64>,
     /// The ideal (undrated) limit; `None` outside validity.
+    #[serde(skip)]
     pub limit_ideal: Option<f64>,
     /// Factor to the criterion at the limit as used; `None` outside validity.
     pub margin: Option<f64>,

@@ -161,9 +161,9 @@ pub fn render(report: &Report, rows: Option<usize>) -> String {
         s.iterations,
         s.relative_residual,
         s.multigrid_levels,
-        s.seconds.assembly,
-        s.seconds.multigrid_setup,
-        s.seconds.solve
+        s.time.assembly_s,
+        s.time.multigrid_setup_s,
+        s.time.solve_s
     );
     if let Some(gs) = &report.grid_study {
         let _ = writeln!(
