@@ -17,16 +17,16 @@ fn ladder_json_has_the_documented_keys() {
         "topology",
         "stages",
         "output_no_load_v",
-        "output_mean_v",
+        "output_at_load_v",
         "drop_v",
         "ripple_pp_v",
         "stored_energy_j",
         "closed_form",
-        "nodes",
+        "per_stage",
     ] {
         assert!(v.get(key).is_some(), "missing {key}");
     }
-    let nodes = v["nodes"].as_array().expect("nodes");
+    let nodes = v["per_stage"].as_array().expect("nodes");
     assert_eq!(nodes.len(), 8);
     for n in nodes {
         for key in ["mean_v", "ripple_pp_v", "capacitor_max_v", "diode_piv_v"] {
@@ -35,7 +35,7 @@ fn ladder_json_has_the_documented_keys() {
     }
     // Stage voltages climb to the output.
     let top = nodes[7]["mean_v"].as_f64().unwrap();
-    assert!((top - v["output_mean_v"].as_f64().unwrap()).abs() < 1.0);
+    assert!((top - v["output_at_load_v"].as_f64().unwrap()).abs() < 1.0);
 }
 
 /// "auto" strays come from the capacitance matrix of the drawn stage rings, and strays lower
@@ -65,7 +65,7 @@ fn stage_potentials_follow_the_loaded_stack() {
         "-",
     ]);
     let ladder = &v["ladder"];
-    let nodes = ladder["nodes"].as_array().expect("ladder nodes");
+    let nodes = ladder["per_stage"].as_array().expect("ladder nodes");
     for k in 1..=5 {
         let ring = v["conductors"]
             .as_array()

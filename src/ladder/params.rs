@@ -377,7 +377,7 @@ impl LadderParams {
                 return Err(LadderError::invalid(
                     "capacitors.oscillating_b",
                     format!("{} values", caps.oscillating_b_f.len()),
-                    "no values for a half-wave cascade",
+                    "no values for a half-wave multiplier",
                 ));
             }
             Topology::Symmetric => {

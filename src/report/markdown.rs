@@ -46,10 +46,10 @@ pub fn render(
     if let Some(l) = &report.ladder {
         let _ = writeln!(
             o,
-            "- Multiplier: {} cascade, {} stages, {} at load, ripple {:.1} V p-p",
+            "- Multiplier: {}, {} stages, {} at load, ripple {:.1} V p-p",
             l.topology,
             l.stages,
-            kv(l.output_mean_v),
+            kv(l.output_at_load_v),
             l.ripple_pp_v
         );
     }
@@ -197,7 +197,7 @@ pub fn render(
             o,
             "No-load {} , at load {} (drop {}), ripple {:.1} V p-p, stored energy {:.1} J.\n",
             kv(l.output_no_load_v),
-            kv(l.output_mean_v),
+            kv(l.output_at_load_v),
             kv(l.drop_v),
             l.ripple_pp_v,
             l.stored_energy_j
@@ -207,7 +207,7 @@ pub fn render(
             "| stage | mean | ripple V p-p | capacitor max | diode PIV | energy J |"
         );
         let _ = writeln!(o, "|---:|---:|---:|---:|---:|---:|");
-        for n in &l.nodes {
+        for n in &l.per_stage {
             let _ = writeln!(
                 o,
                 "| {} | {} | {:.1} | {} | {} | {:.2} |",
