@@ -45,6 +45,7 @@ pub struct SizeTarget {
     /// Largest stage count searched; None = 2·n_min + 4, or 4 more than request / rating
     /// when a voltage rating asks for more stages.
     pub max_stages: Option<usize>,
+    #[serde(skip)]
     pub controls: SimControls,
 }
 
