@@ -6,12 +6,14 @@
 
 pub mod cautions;
 pub mod faults;
+pub mod fieldmap;
 pub mod finite;
 pub mod grading;
 pub mod html;
 pub mod ladder;
 pub mod markdown;
 pub mod plot;
+pub mod svg;
 pub mod table;
 
 use crate::analysis::Analysis;
