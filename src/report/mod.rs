@@ -358,6 +358,17 @@ impl Report {
         self
     }
 
+    /// The criterion label of the row that sets a hold-off voltage (docs/glossary.md), with
+    /// its derating unless `ideal`; the long name when the row is not among the margins.
+    pub fn holdoff_label(&self, h: &Holdoff, ideal: bool) -> String {
+        let row = self.margins.iter().find(|r| r.rank == h.rank);
+        match row {
+            Some(r) if ideal => r.criterion_label(),
+            Some(r) => r.criterion_label_qualified(),
+            None => h.criterion_name.clone(),
+        }
+    }
+
     /// The report as pretty JSON; a value serde cannot write is an error, never a stand-in
     /// document.
     pub fn to_json(&self) -> Result<String, serde_json::Error> {

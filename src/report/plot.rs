@@ -113,7 +113,7 @@ pub fn margin_bars(report: &Report, rows: usize) -> PlotResult {
         .filter_map(|r| {
             r.margin.map(|m| {
                 (
-                    format!("{} - {}", r.item, r.criterion_name),
+                    format!("{} - {}", r.item, r.criterion_label_qualified()),
                     m,
                     r.margin_ideal.unwrap_or(m),
                 )

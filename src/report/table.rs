@@ -310,7 +310,7 @@ fn render_margins(report: &Report, rows: Option<usize>, out: &mut String) {
                 "\nHold-off voltage {} (limits as used{polarity}), limiting: {} — {}",
                 super::kv_three_significant(h.voltage_v),
                 h.item,
-                h.criterion_name
+                report.holdoff_label(h, false)
             );
             if let Some(hi) = hi {
                 let _ = writeln!(
@@ -318,7 +318,7 @@ fn render_margins(report: &Report, rows: Option<usize>, out: &mut String) {
                     "Hold-off voltage {} (every limit ideal{polarity}), limiting: {} — {}",
                     super::kv_three_significant(hi.voltage_v),
                     hi.item,
-                    hi.criterion_name
+                    report.holdoff_label(hi, true)
                 );
             }
         }
