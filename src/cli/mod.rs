@@ -156,11 +156,11 @@ pub enum Command {
     Demo(check::DemoArgs),
     /// Compare the margins of two designs: the worst margin before and after, the governing rows first.
     Compare(compare::CompareArgs),
-    /// Write the pre-commissioning review note of a design (Markdown).
+    /// Write the pre-commissioning review note of a design (HTML with figures, or Markdown).
     Report(report::ReportArgs),
     /// Simulate the multiplier stack of a design file beside its closed forms.
     Ladder(ladder::LadderArgs),
-    /// Search stage count and capacitance for a terminal voltage, load and ripple.
+    /// Search stage count and capacitance for a terminal voltage, load and ripple; the designs that meet it.
     Size(Box<size::SizeArgs>),
     /// Vary one design value over a range; optionally find the least value that passes.
     Sweep(sweep::SweepArgs),
