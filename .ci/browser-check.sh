@@ -43,12 +43,26 @@ problems = []
 if "<h2>9. Sign-off</h2>" not in dom:
     problems.append("the page did not load to its end (no sign-off section in the DOM)")
 figures = re.findall(r"<figure id=\"figure-\d+\">(.*?)</figure>", dom, re.S)
-if len(figures) != 4:
-    problems.append(f"expected 4 figures, found {len(figures)}")
+if len(figures) != 5:
+    problems.append(f"expected 5 figures, found {len(figures)}")
 for k, f in enumerate(figures, 1):
     marks = len(re.findall(r"<(rect|path|polyline|circle|line|text)\b", f))
     if marks < 20:
         problems.append(f"figure {k} is empty ({marks} drawing elements)")
+# The field map (figure 1) and the zoom around the worst hotspot (figure 2): each with its
+# colour bar in kV/mm, labelled equipotentials, conductors drawn from their outlines and the
+# hotspot marked.
+for k, name in [(1, "field map"), (2, "hotspot zoom")]:
+    f = figures[k - 1] if len(figures) >= k else ""
+    bar = re.search(r'<g class="colour-bar">(.*?)</g>', f, re.S)
+    if not bar or len(re.findall(r"<rect\b", bar.group(1))) < 10 or "kV/mm" not in bar.group(1):
+        problems.append(f"the {name} has no colour bar in kV/mm")
+    if "equipotential-label" not in f or " kV</text>" not in f:
+        problems.append(f"the {name} has no labelled equipotentials")
+    if 'class="conductor"' not in f or 'class="hotspot"' not in f:
+        problems.append(f"the {name} draws no conductor outline or no hotspot")
+if len(figures) >= 2 and "Zoom around the worst hotspot" not in figures[1]:
+    problems.append("figure 2 is not the zoom around the worst hotspot")
 for line in errs.splitlines():
     if re.search(r"Uncaught|CONSOLE\(\d+\).*(error|Error)|Failed to load resource", line):
         problems.append("page error: " + line.strip())

@@ -37,7 +37,10 @@ pub enum StackError {
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum StraySource {
     /// One value for every node, from the design file.
-    Given { farads: f64 },
+    Given {
+        #[serde(rename = "per_node_f")]
+        farads: f64,
+    },
     /// From the capacitance matrix of the drawn stack: each smoothing node's capacitance to
     /// everything outside the stack; the oscillating nodes of a stage are given the value of
     /// their stage's smoothing node (they are not drawn).

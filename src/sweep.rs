@@ -45,7 +45,8 @@ pub enum SweepError {
 /// The result at one value of the parameter.
 #[derive(Debug, Clone, Serialize)]
 pub struct SweepPoint {
-    /// The value in SI units.
+    /// The value in SI units (in the JSON as `value_` and the unit suffix, [`InUnit`]).
+    #[serde(skip)]
     pub value_si: f64,
     /// The value as written into the design.
     pub value: String,
@@ -59,13 +60,54 @@ pub struct SweepPoint {
     pub unbuildable: Option<String>,
 }
 
+/// The suffix of a JSON key that holds a value of `dim` in SI units (docs/glossary.md).
+pub fn key_suffix(dim: Dimension) -> &'static str {
+    match dim {
+        Dimension::Length => "m",
+        Dimension::Voltage => "v",
+        Dimension::Field => "v_per_m",
+        Dimension::Pressure => "pa",
+        Dimension::Temperature => "k",
+        Dimension::Capacitance => "f",
+        Dimension::Resistance => "ohm",
+        Dimension::Current => "a",
+        Dimension::Frequency => "hz",
+        Dimension::Energy => "j",
+        Dimension::Power => "w",
+        Dimension::Ratio => "fraction",
+    }
+}
+
+/// A value written to the JSON under `name` and the unit suffix of its dimension
+/// (`value_pa`, `tolerance_m`, …).
+pub struct InUnit {
+    pub name: &'static str,
+    pub dim: Dimension,
+    pub value: f64,
+}
+
+impl Serialize for InUnit {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let mut m = s.serialize_map(Some(1))?;
+        m.serialize_entry(
+            &format!("{}_{}", self.name, key_suffix(self.dim)),
+            &self.value,
+        )?;
+        m.end()
+    }
+}
+
 /// The least value that meets the design factor, by bisection.
 #[derive(Debug, Clone, Serialize)]
 pub struct LeastValue {
+    /// The value in SI units (in the JSON as `value_` and the unit suffix, [`InUnit`]).
+    #[serde(skip)]
     pub value_si: f64,
     pub value: String,
     pub worst_margin: Option<f64>,
-    /// Bracket width at the end, SI units.
+    /// Bracket width at the end, SI units (in the JSON as `tolerance_` and the unit suffix).
+    #[serde(skip)]
     pub tolerance_si: f64,
     pub evaluations: usize,
     /// Changes between failing and passing seen along the sampled values (1 when the margins

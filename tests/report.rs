@@ -120,7 +120,7 @@ fn note_must_be_html_or_markdown() {
 }
 
 #[test]
-fn html_note_inlines_four_figures() {
+fn html_note_inlines_five_figures() {
     let tmp = tempfile::tempdir().expect("temp dir");
     let dir = tmp.path().to_path_buf();
     let design = small_design(&dir);
@@ -128,8 +128,26 @@ fn html_note_inlines_four_figures() {
     assert_exit_code_of_faults(&design, code);
     assert!(html.starts_with("<!DOCTYPE html>"));
     assert!(html.contains("<meta charset=\"utf-8\">"));
-    assert_eq!(html.matches("<figure id=").count(), 4);
-    assert_eq!(html.matches("<svg").count(), 4);
+    assert_eq!(html.matches("<figure id=").count(), 5);
+    assert_eq!(html.matches("<svg").count(), 5);
+    // The field map and the zoom around the rank-1 hotspot, each with its colour bar in kV/mm;
+    // the map draws every conductor of the model from its outline.
+    assert_eq!(html.matches("class=\"colour-bar\"").count(), 2);
+    assert_eq!(html.matches("|E| kV/mm").count(), 2);
+    assert!(html.contains("Zoom around the worst hotspot"));
+    assert!(html.contains("equipotential-label"));
+    let text = std::fs::read_to_string(&design).unwrap();
+    let model = holdoff::design::from_str(&text, "small").expect("small design");
+    let map = &html[html.find("<figure id=\"figure-1\">").unwrap()..];
+    let map = &map[..map.find("</figure>").unwrap()];
+    assert_eq!(
+        map.matches("class=\"conductor\"").count(),
+        model.conductors.len()
+    );
+    assert_eq!(
+        map.matches("class=\"dielectric\"").count(),
+        model.dielectrics.len()
+    );
     assert!(html.contains("<h2>9. Sign-off</h2>"));
     // Self-contained: no external resources.
     assert!(!html.contains("src=\"http") && !html.contains("href=\"http"));

@@ -140,6 +140,27 @@ pub enum Criterion {
     GasSurfaceFlashover,
 }
 
+impl Criterion {
+    /// The criterion's one label in every table, note and comparison (docs/glossary.md).
+    pub fn label(self) -> &'static str {
+        match self {
+            Criterion::Paschen => "Paschen (gap voltage)",
+            Criterion::SchumannAir => "Schumann fit (gap)",
+            Criterion::ScaledAir => "scaled-air fit (gap)",
+            Criterion::Sf6Streamer => "SF6 uniform-field fit (gap)",
+            Criterion::CriticalField => "limiting field",
+            Criterion::StreamerIntegral => "streamer integral",
+            Criterion::PeekCorona => "Peek corona onset",
+            Criterion::Cranberg => "Cranberg V·E",
+            Criterion::TotalVoltage => "total-voltage fit",
+            Criterion::CathodeSurfaceField => "cathode surface field",
+            Criterion::Kilpatrick => "Kilpatrick (RF)",
+            Criterion::VacuumSurfaceFlashover => "surface flashover (vacuum)",
+            Criterion::GasSurfaceFlashover => "surface flashover (gas)",
+        }
+    }
+}
+
 /// A factor applied to an ideal limit, with its basis.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Derating {

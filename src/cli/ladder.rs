@@ -19,17 +19,21 @@ pub struct LadderArgs {
 }
 
 pub fn run(args: &LadderArgs) -> Result<ExitCode> {
-    let Some(super::Loaded { model, file, .. }) = super::load_design(&args.file)? else {
+    let Some(loaded) = super::load_design(&args.file)? else {
         return Ok(ExitCode::from(2));
     };
     args.json.check()?;
-    let Some(stack) = analyze_stack(&model, &SolverParams::default(), &SimControls::default())?
+    let (model, file) = (&loaded.model, &loaded.file);
+    let Some(stack) = analyze_stack(model, &SolverParams::default(), &SimControls::default())?
     else {
         bail!("{file} has no [multiplier] table: nothing to simulate");
     };
     let section = LadderSection::new(&stack);
     holdoff::report::finite::ensure_finite(&section)?;
-    args.json.write(&section)?;
+    args.json.write(&super::WithDesign {
+        design: loaded.design_info(),
+        body: &section,
+    })?;
     if args.json.to_stdout() {
         return Ok(ExitCode::SUCCESS);
     }
@@ -49,7 +53,7 @@ pub fn run(args: &LadderArgs) -> Result<ExitCode> {
         .stored_no_load_j
         .map(|j| (j, holdoff::stack::STACK_ENERGY_BASIS.to_string()));
     for c in cautions(&CautionInputs::for_model(
-        &model,
+        model,
         section.output_no_load_v.abs() * model.terminal_voltage.signum(),
         stored,
     )) {

@@ -39,6 +39,21 @@ pub(crate) fn load_design(path: &Path) -> anyhow::Result<Option<Loaded>> {
     }
 }
 
+impl Loaded {
+    /// The design section of the JSON (title, file, SHA-256).
+    pub fn design_info(&self) -> holdoff::report::DesignInfo {
+        holdoff::report::DesignInfo::of(&self.model, &self.file, &self.text)
+    }
+}
+
+/// A command's JSON body with the design section first, in the same place in every command.
+#[derive(serde::Serialize)]
+pub(crate) struct WithDesign<'a, D: serde::Serialize, T: serde::Serialize> {
+    pub design: D,
+    #[serde(flatten)]
+    pub body: &'a T,
+}
+
 /// `--json FILE|-`, the same in every command: the JSON goes to FILE (written whole or not at
 /// all), or to standard output with `-`, in which case the text output is left out.
 #[derive(Debug, Clone, clap::Args)]
@@ -85,6 +100,21 @@ pub(crate) fn check_output(path: &Path, what: &str) -> anyhow::Result<()> {
         .with_context(|| format!("cannot write {what} {}", path.display()))
 }
 
+/// A progress bar on standard error, only when standard error is a terminal (never in a pipe,
+/// a log or the JSON): `len` steps of `unit`, headed by `what`.
+pub(crate) fn progress_bar(len: usize, what: &str, unit: &str) -> Option<indicatif::ProgressBar> {
+    std::io::IsTerminal::is_terminal(&std::io::stderr()).then(|| {
+        let b = indicatif::ProgressBar::new(len as u64);
+        if let Ok(style) = indicatif::ProgressStyle::with_template(&format!(
+            "{{msg}} [{{bar:40}}] {{pos}}/{{len}} {unit}, {{elapsed}}"
+        )) {
+            b.set_style(style.progress_chars("=> "));
+        }
+        b.set_message(what.to_string());
+        b
+    })
+}
+
 /// `--rows N|all`, the one row limit of every table: a count, or every row.
 #[derive(Debug, Clone, Copy)]
 pub struct Rows(pub Option<usize>);
@@ -124,13 +154,13 @@ pub enum Command {
     Check(check::CheckArgs),
     /// Run `check` on the built-in demo design (an invented 750 kV SF6 column).
     Demo(check::DemoArgs),
-    /// Compare the margins of two designs, the rows that got worse first.
+    /// Compare the margins of two designs: the worst margin before and after, the governing rows first.
     Compare(compare::CompareArgs),
-    /// Write the pre-commissioning review note of a design (Markdown).
+    /// Write the pre-commissioning review note of a design (HTML with figures, or Markdown).
     Report(report::ReportArgs),
     /// Simulate the multiplier stack of a design file beside its closed forms.
     Ladder(ladder::LadderArgs),
-    /// Search stage count and capacitance for a terminal voltage, load and ripple.
+    /// Search stage count and capacitance for a terminal voltage, load and ripple; the designs that meet it.
     Size(Box<size::SizeArgs>),
     /// Vary one design value over a range; optionally find the least value that passes.
     Sweep(sweep::SweepArgs),

@@ -2,7 +2,7 @@
 
 use anyhow::{Context, Result, bail};
 use clap::Args;
-use holdoff::report::{Report, html, markdown, plot, write_atomic};
+use holdoff::report::{Report, fieldmap, html, markdown, plot, write_atomic};
 use holdoff::solve::SolverParams;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -67,16 +67,22 @@ pub fn run(a: &ReportArgs) -> Result<ExitCode> {
     let faults_failed = fault_verdict.as_ref().is_some_and(|v| !v.pass);
     let mut note = markdown::render(&report, &listing, &text, faults.as_ref());
     if ext == "html" {
-        let map = plot::field_map(&model, &run.fine)?;
+        let map = fieldmap::field_map(&model, &run.fine, &report)?;
         let column = plot::column_field(&report)?;
         let along = plot::surface_profiles(&model, &run.fine, 3)?;
         let bars = plot::margin_bars(&report, 30)?;
-        let figures = vec![
-            ("The modelled geometry (conductors grey) with |E| in colour (brightest at the highest field) and ten equipotentials.".to_string(), map),
+        let mut figures = vec![
+            ("The modelled geometry from its true outlines (conductors grey, dielectrics brown, vacuum regions blue with a dashed edge) with |E| in colour (scale in kV/mm at the right) and equipotentials labelled in kV; the circle marks the worst hotspot (rank 1 of the margins).".to_string(), map),
             ("Peak surface field of every conductor against the height of its peak.".to_string(), column),
             ("The surface field along the three most stressed conductors, by angle around each conductor's centre.".to_string(), along),
             ("The worst margins with the design factor marked; red bars fail, amber bars are under review.".to_string(), bars),
         ];
+        if let Some(zoom) = fieldmap::hotspot_zoom(&model, &run.fine, &report) {
+            figures.insert(
+                1,
+                ("The neighbourhood of the worst hotspot (rank 1 of the margins, circled), with its own colour scale and equipotential steps.".to_string(), zoom?),
+            );
+        }
         note = html::render(&model.title, &note, &figures);
     }
     write_atomic(Path::new(&a.out), note.as_bytes())

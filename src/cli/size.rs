@@ -1,9 +1,11 @@
 //! `holdoff size`: search stage count and stage capacitance for a terminal voltage, load and
-//! ripple; list the feasible designs, each re-simulated against every limit.
+//! ripple; list the designs that meet the request (the drive turned down where a stack would
+//! give more), each re-simulated against every limit, or say which limit blocked each stage
+//! count.
 
 use anyhow::{Result, anyhow};
 use clap::Args;
-use holdoff::ladder::{SimControls, SizeTarget, Topology, size};
+use holdoff::ladder::{OVERSHOOT, SimControls, SizeTarget, Sizing, Topology, size_with_progress};
 use holdoff::units::{Dimension, parse};
 use std::process::ExitCode;
 
@@ -44,6 +46,10 @@ pub struct SizeArgs {
     /// `multiplier.stray_capacitance`).
     #[arg(long, default_value = "0 pF")]
     pub stray_capacitance: String,
+    /// The most stages searched (default: twice the fewest that reach the request, plus 4,
+    /// or more when a voltage rating asks for more stages).
+    #[arg(long, value_name = "N")]
+    pub max_stages: Option<usize>,
     /// How many designs the table lists, or `all`.
     #[arg(long, value_name = "N|all", default_value = "10", value_parser = super::parse_rows)]
     pub rows: super::Rows,
@@ -99,21 +105,82 @@ pub fn run(a: &SizeArgs) -> Result<ExitCode> {
             Dimension::Capacitance,
         )?,
         diode: None,
-        max_stages: None,
+        max_stages: a.max_stages,
         controls: SimControls::default(),
     };
-    let designs = size(&target)?;
-    a.json.write(&designs)?;
-    if a.json.to_stdout() {
-        return Ok(if designs.is_empty() {
-            ExitCode::from(1)
-        } else {
-            ExitCode::SUCCESS
-        });
+    let bar = super::progress_bar(0, "size", "stage counts");
+    let progress = |done: usize, total: usize| {
+        if let Some(b) = &bar {
+            b.set_length(total as u64);
+            b.set_position(done as u64);
+        }
+    };
+    let sizing = size_with_progress(&target, &progress)?;
+    if let Some(b) = &bar {
+        b.finish_and_clear();
     }
-    if designs.is_empty() {
-        println!("no design meets every limit within the searched stage counts");
-        return Ok(ExitCode::from(1));
+    a.json.write(&SizeJson {
+        request: &target,
+        sizing: &sizing,
+    })?;
+    let code = if sizing.designs.is_empty() {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    };
+    if !a.json.to_stdout() {
+        print!("{}", render(&target, &sizing, a.rows));
+    }
+    Ok(code)
+}
+
+/// The JSON of `size`: the request as read, then the outcome.
+#[derive(serde::Serialize)]
+struct SizeJson<'a> {
+    request: &'a SizeTarget,
+    #[serde(flatten)]
+    sizing: &'a Sizing,
+}
+
+fn kv(v: f64) -> String {
+    format!("{:.2}", v / 1e3)
+}
+
+/// The listing: the designs that meet the request, or the limits that blocked every stage
+/// count.
+fn render(target: &SizeTarget, sizing: &Sizing, rows: super::Rows) -> String {
+    let [first, last] = sizing.stages_searched;
+    let mut out = format!(
+        "request {} kV at load, {} mA, ripple at most {:.1} V p-p; drive {} kV peak at {:.1} kHz ({}); {}–{} stages searched\n",
+        kv(target.terminal_v),
+        target.load_current_a * 1e3,
+        target.ripple_limit_pp_v,
+        kv(target.drive_peak_v),
+        target.drive_frequency_hz / 1e3,
+        target.topology.as_str(),
+        first,
+        last
+    );
+    if sizing.designs.is_empty() {
+        out += "No design meets the request. What blocked each stage count:\n";
+        for (limit, count) in sizing.blocking() {
+            out += &format!(
+                "- {} ({} of {} stage counts): {}\n",
+                limit.label(),
+                count,
+                last - first + 1,
+                limit.advice()
+            );
+        }
+        for r in &sizing.rejected {
+            out += &format!(
+                "  {} stages: {} — {}\n",
+                r.stages,
+                r.limit.label(),
+                r.detail
+            );
+        }
+        return out;
     }
     let mut t = comfy_table::Table::new();
     t.load_style(holdoff::report::table::STYLE);
@@ -121,6 +188,7 @@ pub fn run(a: &SizeArgs) -> Result<ExitCode> {
         "rank",
         "stages",
         "C nF",
+        "drive kV",
         "at load kV",
         "no-load kV",
         "drop kV",
@@ -131,29 +199,53 @@ pub fn run(a: &SizeArgs) -> Result<ExitCode> {
         "diode PIV kV",
         "diode peak A",
     ]);
-    for d in designs.iter().take(a.rows.of(designs.len())) {
+    let right =
+        |s: String| comfy_table::Cell::new(s).set_alignment(comfy_table::CellAlignment::Right);
+    for d in sizing.designs.iter().take(rows.of(sizing.designs.len())) {
         t.add_row(vec![
-            d.rank.to_string(),
-            d.stages.to_string(),
-            format!("{:.3}", d.capacitance_f * 1e9),
-            format!("{:.2}", d.output_at_load_v / 1e3),
-            format!("{:.2}", d.no_load_v / 1e3),
-            format!("{:.2}", d.drop_v / 1e3),
-            format!("{:.1}", d.ripple_pp_v),
-            format!("{:.1}", d.stored_energy_j),
-            d.stack_height_m.map_or("-".into(), |h| format!("{h:.2}")),
-            format!("{:.2}", d.capacitor_max_v / 1e3),
-            format!("{:.2}", d.diode_piv_v / 1e3),
-            format!("{:.3}", d.diode_peak_current_a),
+            right(d.rank.to_string()),
+            right(d.stages.to_string()),
+            right(format!("{:.3}", d.capacitance_f * 1e9)),
+            right(format!(
+                "{}{}",
+                kv(d.drive_peak_v),
+                if d.drive_turned_down { " *" } else { "" }
+            )),
+            right(kv(d.output_at_load_v)),
+            right(kv(d.output_no_load_v)),
+            right(kv(d.drop_v)),
+            right(format!("{:.1}", d.ripple_pp_v)),
+            right(format!("{:.1}", d.stored_energy_j)),
+            right(d.stack_height_m.map_or("-".into(), |h| format!("{h:.2}"))),
+            right(kv(d.capacitor_max_v)),
+            right(kv(d.diode_piv_v)),
+            right(format!("{:.3}", d.diode_peak_current_a)),
         ]);
     }
-    println!("{t}");
-    println!(
-        "{} feasible designs, ranked by stored energy; each re-simulated to periodic steady state and checked against every limit given. Ripple is peak to peak.",
-        designs.len()
+    out += &format!("{t}\n");
+    out += &format!(
+        "{} designs meet the request, ranked by stored energy; each re-simulated to periodic steady state and checked against every limit given. Ripple is peak to peak.\n",
+        sizing.designs.len()
     );
-    println!(
-        "Caution: the stack stores lethal energy (column 'energy J'); discharge and ground it before contact, under the facility's high-voltage rules."
-    );
-    Ok(ExitCode::SUCCESS)
+    if sizing.designs.iter().any(|d| d.drive_turned_down) {
+        out += &format!(
+            "* drive turned down below the {} kV asked for: at full drive that stack would give more than the request (by over {:.0} %); its voltages, ratings and energy are those at the drive shown.\n",
+            kv(target.drive_peak_v),
+            OVERSHOOT * 100.0
+        );
+    }
+    if !sizing.rejected.is_empty() {
+        let blocked: Vec<String> = sizing
+            .blocking()
+            .iter()
+            .map(|(l, k)| format!("{} ({k})", l.label()))
+            .collect();
+        out += &format!(
+            "{} other stage counts gave no design: {}.\n",
+            sizing.rejected.len(),
+            blocked.join(", ")
+        );
+    }
+    out += "Caution: the stack stores lethal energy (column 'energy J'); discharge and ground it before contact, under the facility's high-voltage rules.\n";
+    out
 }

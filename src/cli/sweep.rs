@@ -4,7 +4,9 @@
 use anyhow::{Context, Result};
 use clap::Args;
 use comfy_table::{Cell, CellAlignment, ContentArrangement, Table};
-use holdoff::sweep::{least_value_sampled, range, sweep_with_progress};
+use holdoff::sweep::{
+    InUnit, LeastValue, SweepPoint, least_value_sampled, range, sweep_with_progress,
+};
 use serde::Serialize;
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -39,8 +41,28 @@ pub struct SweepArgs {
 #[derive(Serialize)]
 struct SweepOut<'a> {
     parameter: &'a str,
-    points: Vec<holdoff::sweep::SweepPoint>,
-    least: Option<holdoff::sweep::LeastValue>,
+    points: Vec<PointJson<'a>>,
+    least: Option<LeastJson<'a>>,
+}
+
+/// A point of the sweep with its value under the unit suffix of the swept quantity.
+#[derive(Serialize)]
+struct PointJson<'a> {
+    #[serde(flatten)]
+    value: InUnit,
+    #[serde(flatten)]
+    point: &'a SweepPoint,
+}
+
+/// The least value with its value and bracket under the unit suffix of the swept quantity.
+#[derive(Serialize)]
+struct LeastJson<'a> {
+    #[serde(flatten)]
+    value: InUnit,
+    #[serde(flatten)]
+    tolerance: InUnit,
+    #[serde(flatten)]
+    least: &'a LeastValue,
 }
 
 pub fn run(a: &SweepArgs) -> Result<ExitCode> {
@@ -52,16 +74,7 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         super::check_output(path, "the plot")?;
     }
     let span = range(&a.from, &a.to)?;
-    let bar = std::io::IsTerminal::is_terminal(&std::io::stderr()).then(|| {
-        let b = indicatif::ProgressBar::new(a.steps.max(2) as u64);
-        if let Ok(style) = indicatif::ProgressStyle::with_template(
-            "{msg} [{bar:40}] {pos}/{len} values, {elapsed}",
-        ) {
-            b.set_style(style.progress_chars("=> "));
-        }
-        b.set_message("sweep");
-        b
-    });
+    let bar = super::progress_bar(a.steps.max(2), "sweep", "values");
     let progress = |k: usize| {
         if let Some(b) = &bar {
             b.set_position(k as u64);
@@ -92,30 +105,55 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
     } else {
         None
     };
+    let dim = span.2;
     let out = SweepOut {
         parameter: &a.vary,
-        points,
-        least,
+        points: points
+            .iter()
+            .map(|point| PointJson {
+                value: InUnit {
+                    name: "value",
+                    dim,
+                    value: point.value_si,
+                },
+                point,
+            })
+            .collect(),
+        least: least.as_ref().map(|least| LeastJson {
+            value: InUnit {
+                name: "value",
+                dim,
+                value: least.value_si,
+            },
+            tolerance: InUnit {
+                name: "tolerance",
+                dim,
+                value: least.tolerance_si,
+            },
+            least,
+        }),
     };
-    if let Some(note) = out.least.as_ref().and_then(|l| l.note.as_ref()) {
+    if let Some(note) = least.as_ref().and_then(|l| l.note.as_ref()) {
         eprintln!("warning: {note}");
     }
     holdoff::report::finite::ensure_finite(&out)?;
     if let Some(path) = &a.plot {
         // The axis in the engineer's unit of the quantity.
-        let shown = holdoff::units::format_si(out.points[0].value_si, span.2);
+        let shown = holdoff::units::format_si(points[0].value_si, span.2);
         let unit = shown.split_whitespace().last().unwrap_or("").to_string();
         let (scale, unit) = match holdoff::units::parse(&format!("1 {unit}"), span.2) {
             Ok(s) => (s, unit),
             Err(_) => (1.0, "SI".to_string()),
         };
         let design_factor = model.checks.design_factor;
-        let svg =
-            holdoff::report::plot::sweep_plot(&a.vary, scale, &unit, &out.points, design_factor)?;
+        let svg = holdoff::report::plot::sweep_plot(&a.vary, scale, &unit, &points, design_factor)?;
         holdoff::report::write_atomic(path, svg.as_bytes())
             .with_context(|| format!("cannot write the plot {}", path.display()))?;
     }
-    a.json.write(&out)?;
+    a.json.write(&super::WithDesign {
+        design: holdoff::report::DesignInfo::of(&model, &file, &text),
+        body: &out,
+    })?;
     if a.json.to_stdout() {
         return Ok(ExitCode::SUCCESS);
     }
@@ -131,7 +169,7 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
         "meets design factor",
     ]);
     let num = |v: Option<f64>| v.map_or("-".to_string(), |m| format!("{m:.3}"));
-    for p in &out.points {
+    for p in &points {
         let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
         t.add_row(vec![
             Cell::new(holdoff::units::format_si(p.value_si, span.2)),
@@ -151,7 +189,7 @@ pub fn run(a: &SweepArgs) -> Result<ExitCode> {
     }
     println!("{t}");
     if a.least {
-        match &out.least {
+        match &least {
             Some(l) => println!(
                 "least {} meeting the design factor: {} (bracket {}, {} reviews); worst margin there {}",
                 a.vary,

@@ -19,6 +19,7 @@ use serde::Serialize;
 /// A protective gap firing over and over in a DC scenario.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct RepetitiveFiring {
+    #[serde(serialize_with = "crate::units::from_one")]
     pub column: usize,
     pub from_node: usize,
     pub to_node: usize,

@@ -19,14 +19,18 @@ pub enum Kind {
 pub struct ResistorRef {
     /// Running index over all resistors of all columns (column-major, gap, then string).
     pub index: usize,
+    #[serde(serialize_with = "crate::units::from_one")]
     pub column: usize,
+    #[serde(serialize_with = "crate::units::from_one")]
     pub gap: usize,
+    #[serde(serialize_with = "crate::units::from_one")]
     pub string: usize,
 }
 
 /// A protective gap that fired (or may fire, within its band) in a scenario.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct FiredGap {
+    #[serde(serialize_with = "crate::units::from_one")]
     pub column: usize,
     pub from_node: usize,
     pub to_node: usize,
@@ -217,6 +221,7 @@ impl FaultReplay {
 /// of each electrode to earth, and α = √(C_p/C_s) per gap.
 #[derive(Debug, Clone, Serialize)]
 pub struct LadderEquivalent {
+    #[serde(serialize_with = "crate::units::from_one")]
     pub column: usize,
     pub name: String,
     /// Mean mutual capacitance between neighbouring electrodes, F.
@@ -295,8 +300,11 @@ pub fn ladder_equivalents(
 /// `last_gap` (0-based, inclusive) of column `column`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 pub struct Section {
+    #[serde(serialize_with = "crate::units::from_one")]
     pub column: usize,
+    #[serde(serialize_with = "crate::units::from_one")]
     pub first_gap: usize,
+    #[serde(serialize_with = "crate::units::from_one")]
     pub last_gap: usize,
 }
 

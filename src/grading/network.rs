@@ -48,6 +48,7 @@ impl ProtectiveGap {
 /// One column's DC network: resistor strings, leakage, protective gaps, node currents.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Network {
+    #[serde(serialize_with = "crate::units::from_one")]
     pub column: usize,
     pub name: String,
     /// Resistance of each resistor, Ohm: `resistors_ohm[gap][string]`; `f64::INFINITY` is an

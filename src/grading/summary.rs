@@ -32,6 +32,7 @@ pub struct ProtectiveSummary {
 /// The nominal DC state of one column's grading network.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ColumnSummary {
+    #[serde(serialize_with = "crate::units::from_one")]
     pub column: usize,
     pub name: String,
     pub gaps: usize,
@@ -43,10 +44,14 @@ pub struct ColumnSummary {
     pub end_to_end_v: f64,
     /// Current into the chain at its `to` end (all strings and leakage), A.
     pub chain_current_a: Option<f64>,
+    #[serde(rename = "gap_min_v")]
     pub gap_v_min: f64,
+    #[serde(rename = "gap_max_v")]
     pub gap_v_max: f64,
     /// Largest voltage across and dissipation in one resistor, V and W.
+    #[serde(rename = "resistor_max_v")]
     pub resistor_v_max: f64,
+    #[serde(rename = "resistor_max_power_w")]
     pub resistor_power_w_max: Option<f64>,
     pub rating_v: Option<f64>,
     pub power_rating_w: Option<f64>,

@@ -188,7 +188,7 @@ fn assemble(
             "ripple: peak-to-peak, max − min of the terminal voltage over one cycle",
             "drop: simulated no-load output minus the cycle-mean loaded output",
             "regulation: (V_no_load − V_loaded)/V_loaded",
-            "stage k: smoothing node s{k}, k = 1 at the earthed foot, k = n the terminal",
+            "stage k: smoothing node s{k}, k = 1 at the grounded foot, k = n the terminal",
             "stored energy: cycle average of ½Cv² of each stage capacitor",
         ],
         waveform: (!s.wave.is_empty()).then(|| OutputWaveform {

@@ -34,4 +34,6 @@ pub use result::{
     LadderResult, OutputSummary, OutputWaveform, RunInfo, StageResult,
 };
 pub use sim::{SimControls, Start};
-pub use size::{SizeTarget, SizedDesign, size};
+pub use size::{
+    Blocking, OVERSHOOT, Rejection, SizeTarget, SizedDesign, Sizing, size, size_with_progress,
+};

@@ -148,9 +148,15 @@ impl DiodeParams {
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Load {
     /// A constant current drawn from the terminal (beam, divider and leakage together), A.
-    Current { amps: f64 },
+    Current {
+        #[serde(rename = "current_a")]
+        amps: f64,
+    },
     /// A resistor from the terminal to earth, Ω.
-    Resistance { ohms: f64 },
+    Resistance {
+        #[serde(rename = "resistance_ohm")]
+        ohms: f64,
+    },
 }
 
 /// Stage capacitances, each listed from stage 1 (bottom) to stage n (terminal).
@@ -371,7 +377,7 @@ impl LadderParams {
                 return Err(LadderError::invalid(
                     "capacitors.oscillating_b",
                     format!("{} values", caps.oscillating_b_f.len()),
-                    "no values for a half-wave cascade",
+                    "no values for a half-wave multiplier",
                 ));
             }
             Topology::Symmetric => {

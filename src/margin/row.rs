@@ -87,11 +87,15 @@ pub struct MarginRow {
     pub mark: Mark,
     /// The unit of `peak` and `limit`: `field_v_per_m` or `voltage_v`.
     pub kind: LimitKind,
-    /// The computed value at the design terminal voltage.
+    /// The computed value at the design terminal voltage. (Peak and limits are written to
+    /// the JSON with their unit in the key, by `report::RowJson`.)
+    #[serde(skip)]
     pub peak: f64,
     /// The limit as used (derated where the row is derated); `None` outside validity.
+    #[serde(skip)]
     pub limit: Option<f64>,
     /// The ideal (undrated) limit; `None` outside validity.
+    #[serde(skip)]
     pub limit_ideal: Option<f64>,
     /// Factor to the criterion at the limit as used; `None` outside validity.
     pub margin: Option<f64>,
@@ -171,6 +175,35 @@ impl Margins {
     /// True when any row fails the design factor.
     pub fn any_fail(&self) -> bool {
         self.worst_status() == Status::Fail
+    }
+}
+
+impl MarginRow {
+    /// The row's criterion label (docs/glossary.md): the criterion's label, "(gap voltage)"
+    /// for the limiting field applied to a gap voltage.
+    pub fn criterion_label(&self) -> String {
+        match (self.criterion, self.kind) {
+            (Criterion::CriticalField, LimitKind::Voltage) => {
+                "limiting field (gap voltage)".to_string()
+            }
+            (c, _) => c.label().to_string(),
+        }
+    }
+
+    /// The label with what qualifies the row: its derating, a user-set constant, a
+    /// cross-check.
+    pub fn criterion_label_qualified(&self) -> String {
+        let mut label = self.criterion_label();
+        if self.derating.factor != 1.0 {
+            label.push_str(&format!(", derated x{}", self.derating.factor));
+        }
+        if self.user_set {
+            label.push_str(" [user-set]");
+        }
+        if self.cross_check {
+            label.push_str(" (cross-check)");
+        }
+        label
     }
 }
 

@@ -79,11 +79,11 @@ pub fn cautions(inp: &CautionInputs) -> Vec<Caution> {
     });
     out.push(Caution {
         topic: "grounding before entry",
-        text: "Before entry: switch off and lock out the drive, wait the discharge interval, discharge through a resistive discharge stick, then apply a solid earthing hook to the terminal, column and stack and leave it on while anyone is inside. Verify absence of voltage; do not rely on interlocks alone.".into(),
+        text: "Before entry: switch off and lock out the drive, wait the discharge interval, discharge through a resistive discharge stick, then apply a solid grounding hook to the terminal, column and stack and leave it on while anyone is inside. Verify absence of voltage; do not rely on interlocks alone.".into(),
     });
     out.push(Caution {
         topic: "interlocks",
-        text: "Tank doors, manways and access areas need interlocks that remove the drive and close earthing switches; dump resistors must be sized for the stored energy with a time constant short compared with the access time.".into(),
+        text: "Tank doors, manways and access areas need interlocks that remove the drive and close grounding switches; dump resistors must be sized for the stored energy with a time constant short compared with the access time.".into(),
     });
     out.push(Caution {
         topic: "X-rays",

@@ -9,15 +9,17 @@ use std::fmt::Write;
 /// The `faults` section as written to JSON.
 #[derive(Debug, Clone, Serialize)]
 pub struct FaultSection {
-    pub title: String,
-    pub file: String,
-    pub sha256: String,
+    /// Title, file and SHA-256 of the design, as in every command's JSON.
+    pub design: crate::report::DesignInfo,
     #[serde(flatten)]
     pub replay: FaultReplay,
     /// Wall-clock seconds of the replay (basis and every scenario).
+    #[serde(rename = "total_s")]
     pub seconds: f64,
     /// Of which the unit solves and the scenarios' field checks.
+    #[serde(rename = "basis_s")]
     pub basis_seconds: f64,
+    #[serde(rename = "scenarios_s")]
     pub scenario_seconds: f64,
     /// The scenarios against the design factor and the resistor ratings.
     pub verdict: FaultVerdict,
@@ -46,9 +48,7 @@ impl FaultSection {
             .as_ref()
             .map(|e| stored_energy(model, e.stored_j));
         FaultSection {
-            title: model.title.clone(),
-            file: file.to_string(),
-            sha256: crate::report::sha256_hex(text),
+            design: crate::report::DesignInfo::of(model, file, text),
             basis_seconds: replay.basis_seconds,
             scenario_seconds: replay.scenario_seconds,
             verdict: FaultVerdict::of(&replay, model.checks.design_factor),
@@ -278,12 +278,12 @@ pub fn signed_percent(x: f64, digits: usize) -> String {
 pub fn render(s: &FaultSection, details: usize, rows: Option<usize>) -> String {
     let r = &s.replay;
     let mut out = String::new();
-    let _ = writeln!(out, "{}", s.title);
+    let _ = writeln!(out, "{}", s.design.title);
     let _ = writeln!(
         out,
         "design {}  sha256 {}",
-        s.file,
-        &s.sha256[..16.min(s.sha256.len())]
+        s.design.file,
+        &s.design.sha256[..16.min(s.design.sha256.len())]
     );
     let _ = writeln!(
         out,

@@ -3,7 +3,8 @@
 
 use pulldown_cmark::{Options, Parser, html};
 
-fn escape(s: &str) -> String {
+/// Escapes text for HTML and SVG.
+pub(crate) fn escape(s: &str) -> String {
     s.replace('&', "&amp;")
         .replace('<', "&lt;")
         .replace('>', "&gt;")

@@ -8,7 +8,7 @@ use std::fmt::Write;
 
 /// Ratings and voltages of one stage.
 #[derive(Debug, Clone, Serialize)]
-pub struct NodeRow {
+pub struct StageRow {
     pub stage: usize,
     pub mean_v: f64,
     pub ripple_pp_v: f64,
@@ -27,7 +27,8 @@ pub struct LadderSection {
     pub topology: String,
     pub stages: usize,
     pub output_no_load_v: f64,
-    pub output_mean_v: f64,
+    /// Cycle-mean output at load.
+    pub output_at_load_v: f64,
     pub drop_v: f64,
     pub regulation: f64,
     /// Peak-to-peak ripple of the output at load.
@@ -36,7 +37,8 @@ pub struct LadderSection {
     pub discharge_tau_s: Option<f64>,
     pub strays: StraySource,
     pub closed_form: ClosedForm,
-    pub nodes: Vec<NodeRow>,
+    /// One row per stage, from the ground end.
+    pub per_stage: Vec<StageRow>,
     pub conventions: Vec<&'static str>,
     pub cycles_simulated: usize,
 }
@@ -47,7 +49,7 @@ impl LadderSection {
         let nodes = r
             .stages
             .iter()
-            .map(|st| NodeRow {
+            .map(|st| StageRow {
                 stage: st.stage,
                 mean_v: st.mean_v,
                 ripple_pp_v: st.ripple_pp_v,
@@ -71,10 +73,10 @@ impl LadderSection {
             })
             .collect();
         LadderSection {
-            topology: format!("{:?}", r.topology),
+            topology: r.topology.as_str().to_string(),
             stages: r.stage_count,
             output_no_load_v: r.output.no_load_v,
-            output_mean_v: r.output.loaded_mean_v,
+            output_at_load_v: r.output.loaded_mean_v,
             drop_v: r.output.drop_v,
             regulation: r.output.regulation,
             ripple_pp_v: r.output.ripple_pp_v,
@@ -82,7 +84,7 @@ impl LadderSection {
             discharge_tau_s: r.discharge.as_ref().map(|d| d.tau_s),
             strays: s.strays.clone(),
             closed_form: s.closed_form.clone(),
-            nodes,
+            per_stage: nodes,
             conventions: r.conventions.clone(),
             cycles_simulated: r.convergence.loaded.cycles,
         }
@@ -105,7 +107,7 @@ pub fn render(l: &LadderSection) -> String {
         "diode mean mA",
         "energy J",
     ]);
-    for n in &l.nodes {
+    for n in &l.per_stage {
         let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
         t.add_row(vec![
             right(n.stage.to_string()),
@@ -121,11 +123,11 @@ pub fn render(l: &LadderSection) -> String {
     let _ = writeln!(out, "{t}");
     let _ = writeln!(
         out,
-        "{} cascade, {} stages: no-load {:.2} kV, at load {:.2} kV (drop {:.2} kV, regulation {:.2} %), ripple {:.1} V p-p; stored energy {:.1} J",
+        "{} multiplier, {} stages: no-load {:.2} kV, at load {:.2} kV (drop {:.2} kV, regulation {:.2} %), ripple {:.1} V p-p; stored energy {:.1} J",
         l.topology,
         l.stages,
         l.output_no_load_v / 1e3,
-        l.output_mean_v / 1e3,
+        l.output_at_load_v / 1e3,
         l.drop_v / 1e3,
         l.regulation * 100.0,
         l.ripple_pp_v,

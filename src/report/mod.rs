@@ -6,12 +6,14 @@
 
 pub mod cautions;
 pub mod faults;
+pub mod fieldmap;
 pub mod finite;
 pub mod grading;
 pub mod html;
 pub mod ladder;
 pub mod markdown;
 pub mod plot;
+pub mod svg;
 pub mod table;
 
 use crate::analysis::Analysis;
@@ -38,6 +40,19 @@ pub struct DesignInfo {
     pub terminal_voltage_v: f64,
 }
 
+impl DesignInfo {
+    /// The design section of every command's JSON: title, file, SHA-256 of the text, terminal
+    /// voltage.
+    pub fn of(model: &Model, file: &str, text: &str) -> DesignInfo {
+        DesignInfo {
+            title: model.title.clone(),
+            file: file.to_string(),
+            sha256: sha256_hex(text),
+            terminal_voltage_v: model.terminal_voltage,
+        }
+    }
+}
+
 /// The grid.
 #[derive(Debug, Clone, Serialize)]
 pub struct MeshInfo {
@@ -54,9 +69,9 @@ pub struct MeshInfo {
 /// Solver figures (DESIGN §6 `solver`).
 #[derive(Debug, Clone, Serialize)]
 pub struct SolverSeconds {
-    pub assembly: f64,
-    pub multigrid_setup: f64,
-    pub solve: f64,
+    pub assembly_s: f64,
+    pub multigrid_setup_s: f64,
+    pub solve_s: f64,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -68,7 +83,7 @@ pub struct SolverInfo {
     pub iterations: usize,
     pub relative_residual: f64,
     pub tolerance: f64,
-    pub seconds: SolverSeconds,
+    pub time: SolverSeconds,
     pub memory_bytes: usize,
 }
 
@@ -112,6 +127,7 @@ pub struct Report {
     /// The terminal voltage against the multiplier's output, when a stack is modelled.
     pub terminal_reconciliation: Option<crate::stack::TerminalReconciliation>,
     /// Ranked margin rows, worst first (DESIGN §6 `margins`); empty until margins are added.
+    #[serde(serialize_with = "margin_rows")]
     pub margins: Vec<MarginRow>,
     /// Hold-off voltage with the limits as used (gas rows derated where they are), V.
     pub holdoff_voltage_v: Option<f64>,
@@ -137,7 +153,46 @@ pub struct Report {
     pub cautions: Vec<Caution>,
 }
 
-/// SHA-256 of the design text, hex.
+/// A margin row as written to the JSON: the row's own keys, its criterion label, and peak and
+/// limits with the unit of the row in their keys (`peak_v_per_m` for a field, `peak_v` for a
+/// voltage).
+#[derive(Serialize)]
+struct RowJson<'a> {
+    #[serde(flatten)]
+    row: &'a MarginRow,
+    criterion_label: String,
+    #[serde(flatten)]
+    values: RowValues<'a>,
+}
+
+struct RowValues<'a>(&'a MarginRow);
+
+impl Serialize for RowValues<'_> {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let r = self.0;
+        let [peak, limit, ideal] = match r.kind {
+            crate::breakdown::LimitKind::Field => {
+                ["peak_v_per_m", "limit_v_per_m", "limit_ideal_v_per_m"]
+            }
+            crate::breakdown::LimitKind::Voltage => ["peak_v", "limit_v", "limit_ideal_v"],
+        };
+        let mut m = s.serialize_map(Some(3))?;
+        m.serialize_entry(peak, &r.peak)?;
+        m.serialize_entry(limit, &r.limit)?;
+        m.serialize_entry(ideal, &r.limit_ideal)?;
+        m.end()
+    }
+}
+
+fn margin_rows<S: serde::Serializer>(rows: &[MarginRow], s: S) -> Result<S::Ok, S::Error> {
+    s.collect_seq(rows.iter().map(|row| RowJson {
+        row,
+        criterion_label: row.criterion_label_qualified(),
+        values: RowValues(row),
+    }))
+}
+
 pub use crate::units::kv_three_significant;
 
 /// What follows a hold-off voltage: nothing for a positive terminal; for a negative one, that
@@ -150,6 +205,7 @@ pub fn holdoff_polarity(terminal_v: f64) -> &'static str {
     }
 }
 
+/// SHA-256 of the design text, hex.
 pub fn sha256_hex(text: &str) -> String {
     let digest = Sha256::digest(text.as_bytes());
     digest.iter().map(|b| format!("{b:02x}")).collect()
@@ -213,12 +269,7 @@ impl Report {
                 name: "holdoff",
                 version: env!("CARGO_PKG_VERSION"),
             },
-            design: DesignInfo {
-                title: model.title.clone(),
-                file: file.to_string(),
-                sha256: sha256_hex(text),
-                terminal_voltage_v: model.terminal_voltage,
-            },
+            design: DesignInfo::of(model, file, text),
             mesh: MeshInfo {
                 nr: fine.mesh.nr(),
                 nz: fine.mesh.nz(),
@@ -237,10 +288,10 @@ impl Report {
                 iterations: info.iterations,
                 relative_residual: info.relative_residual,
                 tolerance: info.tolerance,
-                seconds: SolverSeconds {
-                    assembly: info.seconds_assembly,
-                    multigrid_setup: info.seconds_multigrid_setup,
-                    solve: info.seconds_solve,
+                time: SolverSeconds {
+                    assembly_s: info.seconds_assembly,
+                    multigrid_setup_s: info.seconds_multigrid_setup,
+                    solve_s: info.seconds_solve,
                 },
                 memory_bytes: info.memory_bytes,
             },
@@ -305,6 +356,17 @@ impl Report {
         self.field_lines = m.field_lines;
         self.margin_notes = m.notes;
         self
+    }
+
+    /// The criterion label of the row that sets a hold-off voltage (docs/glossary.md), with
+    /// its derating unless `ideal`; the long name when the row is not among the margins.
+    pub fn holdoff_label(&self, h: &Holdoff, ideal: bool) -> String {
+        let row = self.margins.iter().find(|r| r.rank == h.rank);
+        match row {
+            Some(r) if ideal => r.criterion_label(),
+            Some(r) => r.criterion_label_qualified(),
+            None => h.criterion_name.clone(),
+        }
     }
 
     /// The report as pretty JSON; a value serde cannot write is an error, never a stand-in

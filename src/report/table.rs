@@ -1,7 +1,7 @@
 //! The terminal rendering of a report: conductor peaks, probes, the ranked margins and the
 //! hold-off voltage, solver figures, cautions (always last).
 
-use crate::breakdown::{Criterion, LimitKind};
+use crate::breakdown::LimitKind;
 use crate::margin::{MarginRow, Status};
 use crate::report::Report;
 use comfy_table::{Cell, CellAlignment, ContentArrangement, Table};
@@ -161,9 +161,9 @@ pub fn render(report: &Report, rows: Option<usize>) -> String {
         s.iterations,
         s.relative_residual,
         s.multigrid_levels,
-        s.seconds.assembly,
-        s.seconds.multigrid_setup,
-        s.seconds.solve
+        s.time.assembly_s,
+        s.time.multigrid_setup_s,
+        s.time.solve_s
     );
     if let Some(gs) = &report.grid_study {
         let _ = writeln!(
@@ -185,24 +185,6 @@ pub fn render(report: &Report, rows: Option<usize>) -> String {
     out
 }
 
-fn criterion_label(c: Criterion) -> &'static str {
-    match c {
-        Criterion::Paschen => "Paschen (gap voltage)",
-        Criterion::SchumannAir => "Schumann fit (gap)",
-        Criterion::ScaledAir => "scaled-air fit (gap)",
-        Criterion::Sf6Streamer => "SF6 uniform-field fit (gap)",
-        Criterion::CriticalField => "limiting field",
-        Criterion::StreamerIntegral => "streamer integral",
-        Criterion::PeekCorona => "Peek corona onset",
-        Criterion::Cranberg => "Cranberg V·E",
-        Criterion::TotalVoltage => "total-voltage fit",
-        Criterion::CathodeSurfaceField => "cathode surface field",
-        Criterion::Kilpatrick => "Kilpatrick (RF)",
-        Criterion::VacuumSurfaceFlashover => "surface flashover (vacuum)",
-        Criterion::GasSurfaceFlashover => "surface flashover (gas)",
-    }
-}
-
 /// A peak or limit in the unit of its row: kV/mm for fields, kV for voltages.
 pub(crate) fn value_with_unit(kind: LimitKind, v: f64) -> String {
     match kind {
@@ -213,21 +195,7 @@ pub(crate) fn value_with_unit(kind: LimitKind, v: f64) -> String {
 
 fn margin_row_cells(r: &MarginRow) -> Vec<Cell> {
     let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
-    let mut criterion = match (r.criterion, r.kind) {
-        (Criterion::CriticalField, LimitKind::Voltage) => {
-            "limiting field (gap voltage)".to_string()
-        }
-        (c, _) => criterion_label(c).to_string(),
-    };
-    if r.derating.factor != 1.0 {
-        criterion.push_str(&format!(", derated x{}", r.derating.factor));
-    }
-    if r.user_set {
-        criterion.push_str(" [user-set]");
-    }
-    if r.cross_check {
-        criterion.push_str(" (cross-check)");
-    }
+    let criterion = r.criterion_label_qualified();
     vec![
         right(r.rank.to_string()),
         Cell::new(&r.item),
@@ -311,7 +279,7 @@ fn render_margins(report: &Report, rows: Option<usize>, out: &mut String) {
                 crate::breakdown::Validity::OutsideValidity { reason } => reason.clone(),
                 crate::breakdown::Validity::Valid => "no peak value".to_string(),
             };
-            let key = format!("{}: {}", criterion_label(r.criterion), reason);
+            let key = format!("{}: {}", r.criterion_label(), reason);
             match reasons.iter_mut().find(|(k, _)| *k == key) {
                 Some((_, ranks)) => ranks.push(r.rank),
                 None => reasons.push((key, vec![r.rank])),
@@ -342,7 +310,7 @@ fn render_margins(report: &Report, rows: Option<usize>, out: &mut String) {
                 "\nHold-off voltage {} (limits as used{polarity}), limiting: {} — {}",
                 super::kv_three_significant(h.voltage_v),
                 h.item,
-                h.criterion_name
+                report.holdoff_label(h, false)
             );
             if let Some(hi) = hi {
                 let _ = writeln!(
@@ -350,7 +318,7 @@ fn render_margins(report: &Report, rows: Option<usize>, out: &mut String) {
                     "Hold-off voltage {} (every limit ideal{polarity}), limiting: {} — {}",
                     super::kv_three_significant(hi.voltage_v),
                     hi.item,
-                    hi.criterion_name
+                    report.holdoff_label(hi, true)
                 );
             }
         }

@@ -191,3 +191,8 @@ pub fn format_si(value: f64, dim: Dimension) -> String {
     let u = &units[k];
     format!("{} {}", four_figures(value / u.factor), u.symbol)
 }
+/// Writes a 0-based index as its number from 1, as columns, gaps and strings are numbered in
+/// every output (docs/glossary.md): `#[serde(serialize_with = "crate::units::from_one")]`.
+pub fn from_one<S: serde::Serializer>(index: &usize, s: S) -> Result<S::Ok, S::Error> {
+    s.serialize_u64(*index as u64 + 1)
+}

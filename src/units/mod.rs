@@ -16,7 +16,7 @@ use std::fmt;
 
 mod format;
 
-pub use format::{format_si, kv_three_significant};
+pub use format::{format_si, from_one, kv_three_significant};
 
 /// What a quantity measures.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
