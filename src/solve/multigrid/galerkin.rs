@@ -1,0 +1,257 @@
+//! The Galerkin coarse operator Pᵀ A P of a level, with the nodes that would make it singular
+//! taken out.
+//!
+//! Input: a fine level with its interpolation weights along r and z and the kept lines.
+//! Output: the coarse level (nine-point stencils, mask, line factors).
+
+use super::level::{Level, PARALLEL_NODES};
+use super::transfer::AxisMap;
+use rayon::prelude::*;
+
+/// Stencil slots: centre, the four axis neighbours, the four diagonal neighbours.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(super) enum Slot {
+    C,
+    W,
+    E,
+    S,
+    N,
+    Sw,
+    Se,
+    Nw,
+    Ne,
+}
+
+pub(super) const SLOTS: [(Slot, i32, i32); 9] = [
+    (Slot::C, 0, 0),
+    (Slot::W, -1, 0),
+    (Slot::E, 1, 0),
+    (Slot::S, 0, -1),
+    (Slot::N, 0, 1),
+    (Slot::Sw, -1, -1),
+    (Slot::Se, 1, -1),
+    (Slot::Nw, -1, 1),
+    (Slot::Ne, 1, 1),
+];
+
+/// The Galerkin coarse operator Pᵀ A P with tensor bilinear P, accumulated in double
+/// precision. A coarse node that sits on a fixed fine node is fixed too (it takes no
+/// correction, as the boundary it lies in), so every live coarse node coincides with a live
+/// fine node and P keeps full column rank: the coarse operator stays nonsingular even where a
+/// strip of free nodes is thinner than a coarse cell.
+pub(super) fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -> Level {
+    let (cnr, cnz) = (ci.len(), cj.len());
+    let cn = cnr * cnz;
+    // A coarse node takes corrections when the fine node under it does, or when that node is
+    // fixed but borders free ones (it then carries the correction up to the surface).
+    let mut live = vec![false; cn];
+    for (jj, &fj) in cj.iter().enumerate() {
+        for (ii, &fi) in ci.iter().enumerate() {
+            let p = f.p(fi, fj);
+            let pw = f.pw;
+            let free_nb = [
+                p - 1,
+                p + 1,
+                p - pw,
+                p + pw,
+                p - pw - 1,
+                p - pw + 1,
+                p + pw - 1,
+                p + pw + 1,
+            ]
+            .iter()
+            .any(|&q| f.mask[q] != 0);
+            live[jj * cnr + ii] = f.mask[p] != 0 || free_nb;
+        }
+    }
+    let mut acc = vec![[0.0f64; 9]; cn];
+    let slot_of = |oi: i64, oj: i64| -> usize {
+        SLOTS
+            .iter()
+            .position(|&(_, di, dj)| di as i64 == oi && dj as i64 == oj)
+            .unwrap_or(0)
+    };
+    let mut slot_table = [[0usize; 3]; 3];
+    for (oj, row) in slot_table.iter_mut().enumerate() {
+        for (oi, v) in row.iter_mut().enumerate() {
+            *v = slot_of(oi as i64 - 1, oj as i64 - 1);
+        }
+    }
+    // Parents along each axis: the one or two coarse indices with a nonzero weight.
+    let axis_parents = |m: &AxisMap| -> Vec<([(usize, f64); 2], usize)> {
+        (0..m.c0.len())
+            .map(|i| {
+                let (c, w0, w1) = (m.c0[i], m.w0[i] as f64, m.w1[i] as f64);
+                if w1 == 0.0 {
+                    ([(c, w0), (c, 0.0)], 1)
+                } else {
+                    ([(c, w0), (c + 1, w1)], 2)
+                }
+            })
+            .collect()
+    };
+    let pr = axis_parents(mr);
+    let pz = axis_parents(mz);
+    let slots: Vec<(usize, i64, i64)> = SLOTS
+        .iter()
+        .filter(|(s, _, _)| !f.st[*s as usize].is_empty())
+        .map(|&(s, di, dj)| (s as usize, di as i64, dj as i64))
+        .collect();
+    // Fine rows whose z-parents include each coarse row; every coarse row of the product is
+    // then gathered independently, in parallel.
+    let mut rows_of: Vec<Vec<(usize, f64)>> = vec![Vec::new(); cnz];
+    for (j, (pzj, nzj)) in pz.iter().enumerate() {
+        for &(cjf, wjf) in &pzj[..*nzj] {
+            rows_of[cjf].push((j, wjf));
+        }
+    }
+    let live_ref = &live;
+    let gather = |cjf: usize, acc_row: &mut [[f64; 9]]| {
+        for &(j, wjf) in &rows_of[cjf] {
+            for i in 0..f.nr {
+                let p = f.p(i, j);
+                if f.mask[p] == 0 {
+                    continue;
+                }
+                let (pri, nri) = pr[i];
+                for &(slot, di, dj) in &slots {
+                    let a = f.st[slot][p] as f64;
+                    if a == 0.0 {
+                        continue;
+                    }
+                    // Neighbours outside the grid have zero coefficients, so (gi, gj) is
+                    // inside.
+                    let (gi, gj) = ((i as i64 + di) as usize, (j as i64 + dj) as usize);
+                    if f.mask[f.p(gi, gj)] == 0 {
+                        continue;
+                    }
+                    let (prg, nrg) = pr[gi];
+                    let (pzg, nzg) = pz[gj];
+                    for &(cif, wif) in &pri[..nri] {
+                        if !live_ref[cjf * cnr + cif] {
+                            continue;
+                        }
+                        let wa = wif * wjf * a;
+                        let row = &mut acc_row[cif];
+                        for &(cjg, wjg) in &pzg[..nzg] {
+                            let oj = cjg + 1 - cjf;
+                            for &(cig, wig) in &prg[..nrg] {
+                                if !live_ref[cjg * cnr + cig] {
+                                    continue;
+                                }
+                                let oi = cig + 1 - cif;
+                                row[slot_table[oj][oi]] += wa * wig * wjg;
+                            }
+                        }
+                    }
+                }
+            }
+        }
+    };
+    if f.nr * f.nz >= PARALLEL_NODES {
+        acc.par_chunks_mut(cnr)
+            .enumerate()
+            .for_each(|(cjf, acc_row)| gather(cjf, acc_row));
+    } else {
+        for (cjf, acc_row) in acc.chunks_mut(cnr).enumerate() {
+            gather(cjf, acc_row);
+        }
+    }
+    remove_singular(&mut acc, &mut live, cnr, cnz, &slot_table);
+    let mut c = Level::new(cnr, cnz, true);
+    for j in 0..cnz {
+        for i in 0..cnr {
+            let k = j * cnr + i;
+            let p = c.p(i, j);
+            if !live[k] || acc[k][Slot::C as usize] == 0.0 {
+                c.st[Slot::C as usize][p] = 1.0;
+                c.mask[p] = 0;
+            } else {
+                for (s, v) in acc[k].iter().enumerate() {
+                    c.st[s][p] = *v as f32;
+                }
+                c.mask[p] = 1;
+            }
+        }
+    }
+    c.factor();
+    c
+}
+
+/// Takes out of the coarse operator every live node whose line factorisation would meet a
+/// vanishing pivot (coarse nodes whose interpolation columns are nearly dependent, as where a
+/// strip of gas is thinner than a coarse cell): its row and column are removed, which is the
+/// Galerkin product with that column of P left out, and the test repeats until none is left.
+fn remove_singular(
+    acc: &mut [[f64; 9]],
+    live: &mut [bool],
+    cnr: usize,
+    cnz: usize,
+    slot_table: &[[usize; 3]; 3],
+) {
+    const C: usize = Slot::C as usize;
+    let rel = 1e-6;
+    for _pass in 0..8 {
+        let mut bad = Vec::new();
+        // r-lines (nodes k, k + 1, …) and z-lines (k, k + cnr, …).
+        let mut scan = |line: &mut dyn Iterator<Item = usize>, lo: usize, hi: usize| {
+            let mut up = 0.0;
+            let mut prev_live = false;
+            for k in line {
+                if !live[k] {
+                    up = 0.0;
+                    prev_live = false;
+                    continue;
+                }
+                let lower = if prev_live { acc[k][lo] } else { 0.0 };
+                let m = acc[k][C] - lower * up;
+                if m.is_nan() || m <= rel * acc[k][C].abs() {
+                    bad.push(k);
+                    up = 0.0;
+                    prev_live = false;
+                    continue;
+                }
+                up = acc[k][hi] / m;
+                prev_live = true;
+            }
+        };
+        for j in 0..cnz {
+            scan(
+                &mut (j * cnr..(j + 1) * cnr),
+                Slot::W as usize,
+                Slot::E as usize,
+            );
+        }
+        for i in 0..cnr {
+            scan(
+                &mut (i..cnr * cnz).step_by(cnr),
+                Slot::S as usize,
+                Slot::N as usize,
+            );
+        }
+        if bad.is_empty() {
+            return;
+        }
+        for k in bad {
+            if !live[k] {
+                continue;
+            }
+            live[k] = false;
+            let (i, j) = ((k % cnr) as i64, (k / cnr) as i64);
+            // Remove the couplings of the neighbours to k.
+            for dj in -1i64..=1 {
+                for di in -1i64..=1 {
+                    let (ni, nj) = (i + di, j + dj);
+                    if ni < 0 || nj < 0 || ni >= cnr as i64 || nj >= cnz as i64 {
+                        continue;
+                    }
+                    let nk = nj as usize * cnr + ni as usize;
+                    // From nk, k lies at offset (−di, −dj).
+                    let slot = slot_table[(1 - dj) as usize][(1 - di) as usize];
+                    acc[nk][slot] = 0.0;
+                }
+            }
+            acc[k] = [0.0; 9];
+        }
+    }
+}
