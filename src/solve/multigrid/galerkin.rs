@@ -92,10 +92,14 @@ pub(super) fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: 
     };
     let pr = axis_parents(mr);
     let pz = axis_parents(mz);
-    let slots: Vec<(usize, i64, i64)> = SLOTS
+    // The fine slots present, with the padded offset of their neighbour.
+    let slots: Vec<(usize, i64, usize, isize)> = SLOTS
         .iter()
         .filter(|(s, _, _)| !f.st[*s as usize].is_empty())
-        .map(|&(s, di, dj)| (s as usize, di as i64, dj as i64))
+        .map(|&(s, di, dj)| {
+            let off = di as isize + dj as isize * f.pw as isize;
+            (s as usize, di as i64, (dj + 1) as usize, off)
+        })
         .collect();
     // Fine rows whose z-parents include each coarse row; every coarse row of the product is
     // then gathered independently, in parallel.
@@ -105,45 +109,68 @@ pub(super) fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: 
             rows_of[cjf].push((j, wjf));
         }
     }
+    // P is the tensor product Pz ⊗ Pr (masked), so Pᵀ A P is formed one axis at a time: each
+    // fine row's couplings to the rows j − 1, j, j + 1 are first reduced along r (Prᵀ · Pr,
+    // three coarse columns per row), then those rows along z into the coarse row. A coarse
+    // node's row and column are cleared afterwards when it takes no correction.
     let live_ref = &live;
     let gather = |cjf: usize, acc_row: &mut [[f64; 9]]| {
+        // Along r: t[ci][3 (dj + 1) + (dci + 1)] for one fine row.
+        let mut t = vec![[0.0f64; 9]; cnr];
         for &(j, wjf) in &rows_of[cjf] {
+            t.iter_mut().for_each(|v| *v = [0.0; 9]);
             for i in 0..f.nr {
                 let p = f.p(i, j);
                 if f.mask[p] == 0 {
                     continue;
                 }
                 let (pri, nri) = pr[i];
-                for &(slot, di, dj) in &slots {
+                for &(slot, di, dj1, off) in &slots {
                     let a = f.st[slot][p] as f64;
-                    if a == 0.0 {
+                    // Neighbours outside the grid have zero coefficients, so the neighbour
+                    // is inside.
+                    if a == 0.0 || f.mask[p.wrapping_add_signed(off)] == 0 {
                         continue;
                     }
-                    // Neighbours outside the grid have zero coefficients, so (gi, gj) is
-                    // inside.
-                    let (gi, gj) = ((i as i64 + di) as usize, (j as i64 + dj) as usize);
-                    if f.mask[f.p(gi, gj)] == 0 {
-                        continue;
-                    }
-                    let (prg, nrg) = pr[gi];
-                    let (pzg, nzg) = pz[gj];
+                    let col = 3 * dj1;
+                    let (prg, nrg) = pr[(i as i64 + di) as usize];
                     for &(cif, wif) in &pri[..nri] {
-                        if !live_ref[cjf * cnr + cif] {
-                            continue;
-                        }
-                        let wa = wif * wjf * a;
-                        let row = &mut acc_row[cif];
-                        for &(cjg, wjg) in &pzg[..nzg] {
-                            let oj = cjg + 1 - cjf;
-                            for &(cig, wig) in &prg[..nrg] {
-                                if !live_ref[cjg * cnr + cig] {
-                                    continue;
-                                }
-                                let oi = cig + 1 - cif;
-                                row[slot_table[oj][oi]] += wa * wig * wjg;
-                            }
+                        let row = &mut t[cif];
+                        let wa = wif * a;
+                        for &(cig, wig) in &prg[..nrg] {
+                            row[col + cig + 1 - cif] += wa * wig;
                         }
                     }
+                }
+            }
+            // Along z: the fine row j and its neighbours into the coarse rows around cjf.
+            for (trow, out) in t.iter().zip(acc_row.iter_mut()) {
+                for (k, &v) in trow.iter().enumerate() {
+                    if v == 0.0 {
+                        continue;
+                    }
+                    let (dj, dci) = (k / 3, k % 3);
+                    let (pzg, nzg) = pz[j + dj - 1];
+                    for &(cjg, wjg) in &pzg[..nzg] {
+                        out[slot_table[cjg + 1 - cjf][dci]] += wjf * wjg * v;
+                    }
+                }
+            }
+        }
+        for (cif, out) in acc_row.iter_mut().enumerate() {
+            if !live_ref[cjf * cnr + cif] {
+                *out = [0.0; 9];
+                continue;
+            }
+            for &(slot, di, dj) in &SLOTS[1..] {
+                let (ni, nj) = (cif as i64 + di as i64, cjf as i64 + dj as i64);
+                if ni >= 0
+                    && nj >= 0
+                    && (ni as usize) < cnr
+                    && (nj as usize) < cnz
+                    && !live_ref[nj as usize * cnr + ni as usize]
+                {
+                    out[slot as usize] = 0.0;
                 }
             }
         }

@@ -59,14 +59,16 @@ impl Level {
     pub(super) fn factor(&mut self) {
         let (nr, nz, pw) = (self.nr, self.nz, self.pw);
         let [c, _, _, s, n, ..] = &self.st;
-        for i in 0..nr {
-            let mut up_prev = 0.0f32;
-            for j in 0..nz {
-                let p = (j + 1) * pw + 1 + i;
-                let m = c[p] - s[p] * up_prev;
+        // z-lines: every column's recurrence advanced a row at a time, in memory order.
+        let mut up_prev = vec![0.0f32; nr];
+        for j in 0..nz {
+            let base = (j + 1) * pw + 1;
+            for (i, up) in up_prev.iter_mut().enumerate() {
+                let p = base + i;
+                let m = c[p] - s[p] * *up;
                 let inv = 1.0 / m;
                 self.z_inv[p] = inv;
-                up_prev = n[p] * inv;
+                *up = n[p] * inv;
             }
         }
         let (w, e) = (&self.st[1], &self.st[2]);
@@ -92,52 +94,46 @@ impl Level {
         np * 4 * (slots + 5) + np
     }
 
-    /// The residual b − A x, into the scratch vector.
-    pub(super) fn residual(&mut self) {
+    /// The residual b − A x on row j, into `out` (nr values).
+    pub(super) fn residual_row(&self, j: usize, out: &mut [f32]) {
         let (nr, pw) = (self.nr, self.pw);
         let [c, w, e, s, n, sw, se, nw, ne] = &self.st;
         let x = &self.x;
-        for j in 0..self.nz {
-            let base = (j + 1) * pw + 1;
-            let row = base..base + nr;
-            let xc = &x[row.clone()];
-            let (xl, xr) = (&x[base - 1..base - 1 + nr], &x[base + 1..base + 1 + nr]);
-            let (xd, xu) = (&x[base - pw..base - pw + nr], &x[base + pw..base + pw + nr]);
-            let (cc, ww, ee, ss, nn) = (
-                &c[row.clone()],
-                &w[row.clone()],
-                &e[row.clone()],
-                &s[row.clone()],
-                &n[row.clone()],
+        let base = (j + 1) * pw + 1;
+        let row = base..base + nr;
+        let xc = &x[row.clone()];
+        let (xl, xr) = (&x[base - 1..base - 1 + nr], &x[base + 1..base + 1 + nr]);
+        let (xd, xu) = (&x[base - pw..base - pw + nr], &x[base + pw..base + pw + nr]);
+        let (cc, ww, ee, ss, nn) = (
+            &c[row.clone()],
+            &w[row.clone()],
+            &e[row.clone()],
+            &s[row.clone()],
+            &n[row.clone()],
+        );
+        let bb = &self.b[row.clone()];
+        let out = &mut out[..nr];
+        for k in 0..nr {
+            out[k] = bb[k]
+                - (cc[k] * xc[k] + ww[k] * xl[k] + ee[k] * xr[k] + ss[k] * xd[k] + nn[k] * xu[k]);
+        }
+        if self.nine {
+            let (xdl, xdr) = (
+                &x[base - pw - 1..base - pw - 1 + nr],
+                &x[base - pw + 1..base - pw + 1 + nr],
             );
-            let bb = &self.b[row.clone()];
-            let out = &mut self.dp[row.clone()];
+            let (xul, xur) = (
+                &x[base + pw - 1..base + pw - 1 + nr],
+                &x[base + pw + 1..base + pw + 1 + nr],
+            );
+            let (a, b2, c2, d) = (
+                &sw[row.clone()],
+                &se[row.clone()],
+                &nw[row.clone()],
+                &ne[row],
+            );
             for k in 0..nr {
-                out[k] = bb[k]
-                    - (cc[k] * xc[k]
-                        + ww[k] * xl[k]
-                        + ee[k] * xr[k]
-                        + ss[k] * xd[k]
-                        + nn[k] * xu[k]);
-            }
-            if self.nine {
-                let (xdl, xdr) = (
-                    &x[base - pw - 1..base - pw - 1 + nr],
-                    &x[base - pw + 1..base - pw + 1 + nr],
-                );
-                let (xul, xur) = (
-                    &x[base + pw - 1..base + pw - 1 + nr],
-                    &x[base + pw + 1..base + pw + 1 + nr],
-                );
-                let (a, b2, c2, d) = (
-                    &sw[row.clone()],
-                    &se[row.clone()],
-                    &nw[row.clone()],
-                    &ne[row],
-                );
-                for k in 0..nr {
-                    out[k] -= a[k] * xdl[k] + b2[k] * xdr[k] + c2[k] * xul[k] + d[k] * xur[k];
-                }
+                out[k] -= a[k] * xdl[k] + b2[k] * xdr[k] + c2[k] * xul[k] + d[k] * xur[k];
             }
         }
     }

@@ -31,7 +31,7 @@ use crate::solve::operator::Operator;
 use galerkin::{SLOTS, Slot, galerkin};
 use level::Level;
 use nalgebra::{DMatrix, DVector};
-use transfer::{axis_map, coarse_indices, prolong_add, restrict};
+use transfer::{axis_map, coarse_indices, prolong_add, restrict_residual};
 
 /// Settings of the V-cycle.
 #[derive(Debug, Clone, Copy)]
@@ -209,57 +209,46 @@ impl Multigrid {
         }
     }
 
-    fn smooth_pre(l: &mut Level, symmetric: bool) {
-        l.relax_r_lines(0);
-        l.relax_r_lines(1);
+    /// The pre-smoother: r-lines (even rows, then odd), and for the symmetric cycle z-lines
+    /// (even columns, then odd). From a zero start the first pass reads no neighbours (they
+    /// are zero), so x needs no clearing: every row is written before it is read.
+    fn smooth_pre(l: &mut Level, symmetric: bool, zero_start: bool) {
+        l.relax_r_lines(0, zero_start);
+        l.relax_r_lines(1, false);
         if symmetric {
             l.relax_z_lines(0);
             l.relax_z_lines(1);
         }
     }
 
+    /// The post-smoother: the pre-smoother's steps in reverse order (its adjoint for the
+    /// symmetric cycle); only z-lines for the non-symmetric one.
     fn smooth_post(l: &mut Level, symmetric: bool) {
         l.relax_z_lines(1);
         l.relax_z_lines(0);
         if symmetric {
-            l.relax_r_lines(1);
-            l.relax_r_lines(0);
+            l.relax_r_lines(1, false);
+            l.relax_r_lines(0, false);
         }
     }
 
     fn cycle(&mut self, li: usize) {
         let last = self.levels.len() - 1;
         if li == last {
-            let l = &mut self.levels[li];
-            if let Some(lu) = &self.coarse_lu {
-                let mut b = DVector::<f64>::zeros(l.nr * l.nz);
-                for j in 0..l.nz {
-                    for i in 0..l.nr {
-                        b[j * l.nr + i] = l.b[l.p(i, j)] as f64;
-                    }
-                }
-                if let Some(x) = lu.solve(&b) {
-                    for j in 0..l.nz {
-                        for i in 0..l.nr {
-                            let p = l.p(i, j);
-                            l.x[p] = x[j * l.nr + i] as f32;
-                        }
-                    }
-                }
-            }
+            self.coarsest();
             return;
         }
+        let symmetric = self.params.symmetric;
         {
             let l = &mut self.levels[li];
-            l.x.iter_mut().for_each(|v| *v = 0.0);
-            for _ in 0..self.params.sweeps {
-                Self::smooth_pre(l, self.params.symmetric);
+            for sweep in 0..self.params.sweeps {
+                Self::smooth_pre(l, symmetric, sweep == 0);
             }
-            l.residual();
         }
         {
+            // The non-symmetric pre-smoother ends on the odd r-lines: their residual is zero.
             let (fine, rest) = self.levels.split_at_mut(li + 1);
-            restrict(&fine[li], &mut rest[0]);
+            restrict_residual(&fine[li], &mut rest[0], !symmetric);
         }
         self.cycle(li + 1);
         {
@@ -267,7 +256,30 @@ impl Multigrid {
             let f = &mut fine[li];
             prolong_add(f, &rest[0]);
             for _ in 0..self.params.sweeps {
-                Self::smooth_post(f, self.params.symmetric);
+                Self::smooth_post(f, symmetric);
+            }
+        }
+    }
+
+    /// The coarsest level solved by the dense LU factors.
+    fn coarsest(&mut self) {
+        let Some(l) = self.levels.last_mut() else {
+            return;
+        };
+        if let Some(lu) = &self.coarse_lu {
+            let mut b = DVector::<f64>::zeros(l.nr * l.nz);
+            for j in 0..l.nz {
+                for i in 0..l.nr {
+                    b[j * l.nr + i] = l.b[l.p(i, j)] as f64;
+                }
+            }
+            if let Some(x) = lu.solve(&b) {
+                for j in 0..l.nz {
+                    for i in 0..l.nr {
+                        let p = l.p(i, j);
+                        l.x[p] = x[j * l.nr + i] as f32;
+                    }
+                }
             }
         }
     }

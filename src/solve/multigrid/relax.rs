@@ -8,37 +8,69 @@
 use super::level::{Level, PARALLEL_NODES, Shared};
 use rayon::prelude::*;
 
+/// r-lines whose Thomas recurrences are interleaved in one task.
+const R_GROUP: usize = 4;
+
 impl Level {
-    /// Exact solves on every r-line of one colour (j ≡ colour mod 2); the lines of one colour
-    /// are independent and run in parallel on large levels.
-    pub(super) fn relax_r_lines(&mut self, colour: usize) {
+    /// Exact solves on every r-line of one colour (j ≡ colour mod 2). The lines of one colour
+    /// are independent: they are taken `R_GROUP` at a time, their sequential Thomas
+    /// recurrences interleaved so that the processor overlaps them (each line's arithmetic is
+    /// the same as alone), and the groups run in parallel on large levels.
+    /// With `zero_start` the rows of the other colour are taken as zero (the first pass of a
+    /// cycle) and not read.
+    pub(super) fn relax_r_lines(&mut self, colour: usize, zero_start: bool) {
         let (nr, pw, nz, nine) = (self.nr, self.pw, self.nz, self.nine);
         let st = &self.st;
         let b = &self.b;
         let r_inv = &self.r_inv;
         let x = Shared(self.x.as_mut_ptr());
         let dp = Shared(self.dp.as_mut_ptr());
-        let line = |j: usize| {
-            let base = (j + 1) * pw + 1;
-            // SAFETY: the task for line j writes only row j of `x` and `dp`; it reads rows
-            // j − 1 and j + 1 of `x`, which belong to the other colour and are written by no
-            // task of this pass. Rows of one colour are disjoint, so no two tasks touch the
-            // same element and no element is read while another task writes it.
-            let (xd, xu, xrow, out) = unsafe {
-                (
-                    std::slice::from_raw_parts(x.get().add(base - pw - 1), nr + 2),
-                    std::slice::from_raw_parts(x.get().add(base + pw - 1), nr + 2),
-                    std::slice::from_raw_parts_mut(x.get().add(base), nr),
-                    std::slice::from_raw_parts_mut(dp.get().add(base), nr),
-                )
-            };
-            relax_one_r_line(st, b, r_inv, base, nr, nine, xd, xu, xrow, out);
+        let group = |js: &[usize]| {
+            for &j in js {
+                let base = (j + 1) * pw + 1;
+                // SAFETY: the task of a group writes only the rows j of its lines in `x` and
+                // `dp`; it reads rows j − 1 and j + 1 of `x`, which belong to the other colour
+                // and are written by no task of this pass. Rows of one colour are disjoint, so
+                // no two tasks touch the same element and no element is read while another
+                // task writes it.
+                let (xd, xu, out) = unsafe {
+                    (
+                        std::slice::from_raw_parts(x.get().add(base - pw - 1), nr + 2),
+                        std::slice::from_raw_parts(x.get().add(base + pw - 1), nr + 2),
+                        std::slice::from_raw_parts_mut(dp.get().add(base), nr),
+                    )
+                };
+                if zero_start {
+                    out.copy_from_slice(&b[base..base + nr]);
+                } else {
+                    r_line_rhs(st, b, base, nr, nine, xd, xu, out);
+                }
+            }
+            let bases = |k: usize| (js[k] + 1) * pw + 1;
+            let (w, e) = (&st[1], &st[2]);
+            // SAFETY: as above; `r_thomas` touches `x` and `dp` only on the rows of `js`.
+            unsafe {
+                match js.len() {
+                    4 => r_thomas(
+                        [bases(0), bases(1), bases(2), bases(3)],
+                        nr,
+                        w,
+                        e,
+                        r_inv,
+                        x,
+                        dp,
+                    ),
+                    3 => r_thomas([bases(0), bases(1), bases(2)], nr, w, e, r_inv, x, dp),
+                    2 => r_thomas([bases(0), bases(1)], nr, w, e, r_inv, x, dp),
+                    _ => r_thomas([bases(0)], nr, w, e, r_inv, x, dp),
+                }
+            }
         };
-        let lines = (colour..nz).step_by(2);
+        let lines: Vec<usize> = (colour..nz).step_by(2).collect();
         if nr * nz >= PARALLEL_NODES {
-            lines.collect::<Vec<_>>().into_par_iter().for_each(line);
+            lines.par_chunks(R_GROUP).for_each(group);
         } else {
-            lines.for_each(line);
+            lines.chunks(R_GROUP).for_each(group);
         }
     }
 
@@ -140,24 +172,20 @@ impl Level {
     }
 }
 
-/// One r-line: right-hand side from the rows below and above, then the Thomas solve with the
-/// reciprocal pivots `r_inv` factored once (upper factors east × pivot), so the sequential
-/// recurrences hold no division. `xd` and `xu` are the padded rows below and above (one ghost
-/// each side).
+/// The right-hand side of one r-line, b − (couplings to the rows below and above), into
+/// `out`; `xd` and `xu` are the padded rows below and above (one ghost each side).
 #[allow(clippy::too_many_arguments)]
-fn relax_one_r_line(
+fn r_line_rhs(
     st: &[Vec<f32>; 9],
     b: &[f32],
-    r_inv: &[f32],
     base: usize,
     nr: usize,
     nine: bool,
     xd: &[f32],
     xu: &[f32],
-    xrow: &mut [f32],
     out: &mut [f32],
 ) {
-    let [_, w, e, s, n, sw, se, nw, ne] = st;
+    let [_, _, _, s, n, sw, se, nw, ne] = st;
     let row = base..base + nr;
     let (ss, nn, bb) = (&s[row.clone()], &n[row.clone()], &b[row.clone()]);
     let (xdc, xuc) = (&xd[1..nr + 1], &xu[1..nr + 1]);
@@ -169,7 +197,7 @@ fn relax_one_r_line(
             &sw[row.clone()],
             &se[row.clone()],
             &nw[row.clone()],
-            &ne[row.clone()],
+            &ne[row],
         );
         let (xdl, xdr) = (&xd[..nr], &xd[2..nr + 2]);
         let (xul, xur) = (&xu[..nr], &xu[2..nr + 2]);
@@ -177,17 +205,53 @@ fn relax_one_r_line(
             out[k] -= a[k] * xdl[k] + b2[k] * xdr[k] + c2[k] * xul[k] + d[k] * xur[k];
         }
     }
-    let (ww, ee, inv) = (&w[row.clone()], &e[row.clone()], &r_inv[row]);
-    let mut prev = 0.0f32;
-    for k in 0..nr {
-        let v = (out[k] - ww[k] * prev) * inv[k];
-        out[k] = v;
-        prev = v;
+}
+
+/// The Thomas solves of `N` r-lines starting at the padded indices `bases`, their
+/// right-hand sides in `dp`, the solutions into `x`, with the reciprocal pivots `r_inv`
+/// factored once (upper factors east × pivot), so the sequential recurrences hold no
+/// division; the `N` recurrences advance together, each computed exactly as alone.
+///
+/// # Safety
+/// Every `bases[l] .. bases[l] + nr` must lie inside the level's arrays, and no other
+/// thread may touch `x` or `dp` on those rows meanwhile.
+#[allow(clippy::too_many_arguments)]
+unsafe fn r_thomas<const N: usize>(
+    bases: [usize; N],
+    nr: usize,
+    w: &[f32],
+    e: &[f32],
+    r_inv: &[f32],
+    x: Shared,
+    dp: Shared,
+) {
+    let (xp, dq) = (x.get(), dp.get());
+    for &base in &bases {
+        assert!(base + nr <= w.len() && base + nr <= e.len() && base + nr <= r_inv.len());
     }
-    let mut next = 0.0f32;
+    let mut prev = [0.0f32; N];
+    for k in 0..nr {
+        for l in 0..N {
+            let p = bases[l] + k;
+            // SAFETY: p < len of every array (asserted above; the level's arrays share one
+            // length); the caller owns the rows.
+            unsafe {
+                let v = (*dq.add(p) - *w.get_unchecked(p) * prev[l]) * *r_inv.get_unchecked(p);
+                *dq.add(p) = v;
+                prev[l] = v;
+            }
+        }
+    }
+    let mut next = [0.0f32; N];
     for k in (0..nr).rev() {
-        let v = out[k] - ee[k] * inv[k] * next;
-        xrow[k] = v;
-        next = v;
+        for l in 0..N {
+            let p = bases[l] + k;
+            // SAFETY: as above.
+            unsafe {
+                let v = *dq.add(p) - *e.get_unchecked(p) * *r_inv.get_unchecked(p) * next[l];
+                *xp.add(p) = v;
+                next[l] = v;
+            }
+        }
     }
 }

@@ -13,7 +13,10 @@ use rayon::prelude::*;
 pub(super) struct AxisMap {
     pub(super) c0: Vec<usize>,
     pub(super) w0: Vec<f32>,
+    /// Zero where the fine index lies on a coarse one.
     pub(super) w1: Vec<f32>,
+    /// For each coarse index, the fine indices with a nonzero weight on it, and that weight.
+    pub(super) children: Vec<Vec<(usize, f32)>>,
 }
 
 pub(super) fn coarse_indices(n: usize) -> Vec<usize> {
@@ -44,70 +47,64 @@ pub(super) fn axis_map(x: &[f64], cidx: &[usize]) -> AxisMap {
             w1[i] = (1.0 - t) as f32;
         }
     }
-    AxisMap { c0, w0, w1 }
+    let mut children = vec![Vec::new(); cidx.len()];
+    for i in 0..n {
+        children[c0[i]].push((i, w0[i]));
+        if w1[i] != 0.0 {
+            children[c0[i] + 1].push((i, w1[i]));
+        }
+    }
+    AxisMap {
+        c0,
+        w0,
+        w1,
+        children,
+    }
 }
 
-/// b_c = Pᵀ r (masked), as two passes of the tensor product: along r within each fine row,
-/// then along z into each coarse row; both passes run in parallel on large levels.
-pub(super) fn restrict(f: &Level, c: &mut Level) {
+/// b_c = Pᵀ (b − A x) (masked), the fine residual formed row by row inside the restriction
+/// (no residual array is written or read back). One coarse row at a time: each fine row whose
+/// z-parents include it has its residual formed and restricted along r, then added with its
+/// z-weight; the coarse rows run in parallel on large levels. With `odd_rows_solved` the
+/// fine rows of odd index were the last solved exactly by the smoother, so their residual
+/// is zero (to rounding) and they are skipped: half the rows, and the rows between coarse
+/// rows, so no fine row is formed twice.
+pub(super) fn restrict_residual(f: &Level, c: &mut Level, odd_rows_solved: bool) {
     let Some((mr, mz)) = f.map.as_ref() else {
         return;
     };
-    let (cnr, cpw) = (c.nr, c.pw);
-    let parallel = f.nr * f.nz >= PARALLEL_NODES;
-    // Pass 1: each fine row restricted along r into `cnr` values.
-    let mut t = vec![0.0f32; f.nz * cnr];
-    let along_r = |j: usize, out: &mut [f32]| {
-        let base = (j + 1) * f.pw + 1;
-        for i in 0..f.nr {
-            let p = base + i;
-            if f.mask[p] == 0 {
-                continue;
-            }
-            let rv = f.dp[p];
-            let ci = mr.c0[i];
-            out[ci] += mr.w0[i] * rv;
-            if mr.w1[i] != 0.0 {
-                out[ci + 1] += mr.w1[i] * rv;
-            }
-        }
-    };
-    if parallel {
-        t.par_chunks_mut(cnr)
-            .enumerate()
-            .for_each(|(j, out)| along_r(j, out));
-    } else {
-        t.chunks_mut(cnr)
-            .enumerate()
-            .for_each(|(j, out)| along_r(j, out));
-    }
-    // Pass 2: each coarse row gathers the restricted fine rows whose parents include it.
-    let mut rows_of: Vec<Vec<(usize, f32)>> = vec![Vec::new(); c.nz];
-    for j in 0..f.nz {
-        rows_of[mz.c0[j]].push((j, mz.w0[j]));
-        if mz.w1[j] != 0.0 {
-            rows_of[mz.c0[j] + 1].push((j, mz.w1[j]));
-        }
-    }
+    let cpw = c.pw;
     let mask = &c.mask;
     let along_z = |cj: usize, row: &mut [f32]| {
         // `row` is the padded coarse row cj (ghosts at both ends).
         row.iter_mut().for_each(|v| *v = 0.0);
-        for &(j, w) in &rows_of[cj] {
-            let src = &t[j * cnr..(j + 1) * cnr];
-            for (ci, v) in src.iter().enumerate() {
-                row[ci + 1] += w * v;
+        let mut res = vec![0.0f32; f.nr];
+        for &(j, wz) in &mz.children[cj] {
+            if odd_rows_solved && j % 2 == 1 {
+                continue;
+            }
+            f.residual_row(j, &mut res);
+            let base = (j + 1) * f.pw + 1;
+            let m = &f.mask[base..base + f.nr];
+            for i in 0..f.nr {
+                if m[i] == 0 {
+                    continue;
+                }
+                let v = wz * res[i];
+                let ci = mr.c0[i];
+                row[ci + 1] += mr.w0[i] * v;
+                row[ci + 2] += mr.w1[i] * v;
             }
         }
         let base = (cj + 1) * cpw;
-        for ci in 0..cnr {
-            if mask[base + ci + 1] == 0 {
-                row[ci + 1] = 0.0;
+        for (v, &m) in row.iter_mut().zip(&mask[base..base + cpw]) {
+            if m == 0 {
+                *v = 0.0;
             }
         }
     };
     let interior = &mut c.b[cpw..cpw * (c.nz + 1)];
-    if parallel {
+    if f.nr * f.nz >= PARALLEL_NODES {
         interior
             .par_chunks_mut(cpw)
             .enumerate()
