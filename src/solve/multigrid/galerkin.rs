@@ -90,7 +90,11 @@ pub(super) fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: 
             })
             .collect()
     };
-    let pr = axis_parents(mr);
+    // Along r: the coarse index below, its weight and the weight on the next (zero when the
+    // fine line is kept).
+    let par: Vec<(usize, f64, f64)> = (0..mr.c0.len())
+        .map(|i| (mr.c0[i], mr.w0[i] as f64, mr.w1[i] as f64))
+        .collect();
     let pz = axis_parents(mz);
     // The fine slots present, with the padded offset of their neighbour.
     let slots: Vec<(usize, i64, usize, isize)> = SLOTS
@@ -115,36 +119,41 @@ pub(super) fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: 
     // node's row and column are cleared afterwards when it takes no correction.
     let live_ref = &live;
     let gather = |cjf: usize, acc_row: &mut [[f64; 9]]| {
-        // Along r: t[ci][3 (dj + 1) + (dci + 1)] for one fine row.
-        let mut t = vec![[0.0f64; 9]; cnr];
+        // Along r: t[9 ci + 3 (dj + 1) + (dci + 1)] for one fine row.
+        let mut t = vec![0.0f64; 9 * cnr];
         for &(j, wjf) in &rows_of[cjf] {
-            t.iter_mut().for_each(|v| *v = [0.0; 9]);
-            for i in 0..f.nr {
-                let p = f.p(i, j);
-                if f.mask[p] == 0 {
-                    continue;
-                }
-                let (pri, nri) = pr[i];
-                for &(slot, di, dj1, off) in &slots {
-                    let a = f.st[slot][p] as f64;
+            t.iter_mut().for_each(|v| *v = 0.0);
+            let base = f.p(0, j);
+            let own = &f.mask[base..base + f.nr];
+            for &(slot, di, dj1, off) in &slots {
+                let coef = &f.st[slot][base..base + f.nr];
+                let nb = &f.mask[base.wrapping_add_signed(off)..][..f.nr];
+                for i in 0..f.nr {
+                    let a = coef[i] as f64;
                     // Neighbours outside the grid have zero coefficients, so the neighbour
                     // is inside.
-                    if a == 0.0 || f.mask[p.wrapping_add_signed(off)] == 0 {
+                    if a == 0.0 || own[i] == 0 || nb[i] == 0 {
                         continue;
                     }
-                    let col = 3 * dj1;
-                    let (prg, nrg) = pr[(i as i64 + di) as usize];
-                    for &(cif, wif) in &pri[..nri] {
-                        let row = &mut t[cif];
-                        let wa = wif * a;
-                        for &(cig, wig) in &prg[..nrg] {
-                            row[col + cig + 1 - cif] += wa * wig;
+                    let g = (i as i64 + di) as usize;
+                    let ((c, u0, u1), (cg, v0, v1)) = (par[i], par[g]);
+                    // (c, cg); (c, cg + 1); (c + 1, cg); (c + 1, cg + 1). Between two kept
+                    // lines lies at most one fine line, so every offset is within one.
+                    let k = 9 * c + 3 * dj1 + cg + 1 - c;
+                    t[k] += u0 * v0 * a;
+                    if v1 != 0.0 {
+                        t[k + 1] += u0 * v1 * a;
+                    }
+                    if u1 != 0.0 {
+                        t[k + 8] += u1 * v0 * a;
+                        if v1 != 0.0 {
+                            t[k + 9] += u1 * v1 * a;
                         }
                     }
                 }
             }
             // Along z: the fine row j and its neighbours into the coarse rows around cjf.
-            for (trow, out) in t.iter().zip(acc_row.iter_mut()) {
+            for (trow, out) in t.chunks_exact(9).zip(acc_row.iter_mut()) {
                 for (k, &v) in trow.iter().enumerate() {
                     if v == 0.0 {
                         continue;

@@ -156,10 +156,12 @@ impl Multigrid {
     /// and the processor, from the stencil width and the sweeps of every level: each pass
     /// streams the arrays it reads and writes once (single precision, 4 bytes; a mask byte),
     /// and what one pass leaves in cache is not counted again. Per node and pass: a line
-    /// relaxation reads the stencil slots, b, x and its pivots and writes x and its scratch; the residual reads the stencil, b and x and writes the scratch; the
-    /// restriction reads the scratch and mask; the prolongation reads and writes x and reads
-    /// the mask; the zero start writes x. The finest level also converts the double-precision
-    /// residual in (8 + 4) and the correction out (4 + 8).
+    /// relaxation reads the stencil slots, b, x and its pivots and writes x and its scratch
+    /// (the first pass of a cycle reads no x); the residual formed inside the restriction
+    /// reads the stencil, b, x and the mask on the rows it forms (half of them after the
+    /// non-symmetric pre-smoother); the prolongation reads and writes x and reads the mask.
+    /// The finest level also converts the double-precision residual in (8 + 4) and the
+    /// correction out (4 + 8).
     pub fn bytes_per_cycle(&self) -> f64 {
         let last = self.levels.len() - 1;
         let mut total = 0.0;
@@ -178,10 +180,13 @@ impl Multigrid {
             } else {
                 r_pass + z_pass
             };
-            let residual = 4.0 * (slots + 3.0);
-            let transfer = (4.0 + 1.0) + (8.0 + 1.0);
-            let zero = 4.0;
-            total += n * (self.params.sweeps as f64 * per_sweep + residual + transfer + zero);
+            // The zero start: the first even-row pass reads no x (a quarter of the x reads
+            // of the first r-line sweep).
+            let zero_start = -2.0;
+            let rows_formed = if self.params.symmetric { 1.0 } else { 0.5 };
+            let residual = rows_formed * (4.0 * (slots + 2.0) + 1.0);
+            let prolong = 8.0 + 1.0;
+            total += n * (self.params.sweeps as f64 * per_sweep + zero_start + residual + prolong);
             if li == 0 {
                 total += n * 24.0;
             }
