@@ -28,6 +28,9 @@ pub(super) struct Level {
     /// Reciprocal Thomas pivots of the z-lines, computed once (the upper factors are the north
     /// coefficients times these).
     pub(super) z_inv: Vec<f32>,
+    /// Upper Thomas factors of the z-lines, north × `z_inv`, so that the back substitution
+    /// reads one array for them.
+    pub(super) z_up: Vec<f32>,
     /// Reciprocal Thomas pivots of the r-lines, computed once (upper factors: east × these),
     /// which takes the division out of the sequential recurrence of every r-line solve.
     pub(super) r_inv: Vec<f32>,
@@ -51,6 +54,7 @@ impl Level {
             b: full(),
             dp: full(),
             z_inv: full(),
+            z_up: full(),
             r_inv: full(),
         }
     }
@@ -69,6 +73,7 @@ impl Level {
                 let inv = 1.0 / m;
                 self.z_inv[p] = inv;
                 *up = n[p] * inv;
+                self.z_up[p] = *up;
             }
         }
         let (w, e) = (&self.st[1], &self.st[2]);
@@ -91,7 +96,7 @@ impl Level {
     pub(super) fn bytes(&self) -> usize {
         let np = self.pw * (self.nz + 2);
         let slots = if self.nine { 9 } else { 5 };
-        np * 4 * (slots + 5) + np
+        np * 4 * (slots + 6) + np
     }
 
     /// The residual b − A x on row j, into `out` (nr values).

@@ -82,10 +82,11 @@ impl Level {
         let st = &self.st;
         let b = &self.b;
         let inv = &self.z_inv;
+        let up = &self.z_up;
         let x = Shared(self.x.as_mut_ptr());
         let dp = Shared(self.dp.as_mut_ptr());
         let block = |cols: std::ops::Range<usize>| {
-            let [_, w, e, s, n, sw, se, nw, ne] = st;
+            let [_, w, e, s, _, sw, se, nw, ne] = st;
             let first = cols.start + (cols.start + colour) % 2;
             if first >= cols.end {
                 return;
@@ -93,13 +94,13 @@ impl Level {
             // The last column of this colour in the block.
             let last = first + 2 * ((cols.end - 1 - first) / 2);
             let len = last - first + 1;
-            // SAFETY: a block writes `x` only in its own columns of this colour and `dp` only
-            // in its own columns; it reads `x` in the columns first − 1 ..= last + 1, of which
-            // those of this colour are its own (not written during the elimination, which
-            // only reads `x`) and the others are of the other colour, written by no block of
-            // this pass. Blocks cover disjoint columns, so no element is written by two tasks
-            // or read by one while another writes it. The slices of one row below never
-            // overlap a slice written at the same time.
+            // SAFETY: a block writes `x` and `dp` only in its columns first ..= last (new
+            // values in the columns of this colour; the other colour's values of `x` written
+            // back unchanged); it reads `x` in the columns first − 1 ..= last + 1. The edge
+            // columns first − 1 and last + 1 are of the other colour and lie in no other
+            // block's first ..= last (a block's range starts and ends on this colour), so no
+            // element is written by two tasks or read by one while another writes it. The
+            // slices of one row below never overlap a slice written at the same time.
             unsafe {
                 let (xp, dq) = (x.get(), dp.get());
                 // Elimination over the contiguous columns first ..= last, both colours, so
@@ -148,11 +149,17 @@ impl Level {
                 for i in (first..=last).step_by(2) {
                     *xp.add(top + i) = *dq.add(top + i);
                 }
+                // Back substitution a row at a time over the contiguous columns, both colours
+                // computed (so that the loop vectorises) and only this colour's kept.
                 for j in (0..nz - 1).rev() {
-                    let base = (j + 1) * pw + 1;
-                    for i in (first..=last).step_by(2) {
-                        let p = base + i;
-                        *xp.add(p) = *dq.add(p) - n[p] * inv[p] * *xp.add(p + pw);
+                    let p0 = (j + 1) * pw + 1 + first;
+                    let xr = std::slice::from_raw_parts_mut(xp.add(p0), len);
+                    let xa = std::slice::from_raw_parts(xp.add(p0 + pw), len);
+                    let d = std::slice::from_raw_parts(dq.add(p0), len);
+                    let u = &up[p0..p0 + len];
+                    for k in 0..len {
+                        let v = d[k] - u[k] * xa[k];
+                        xr[k] = if k % 2 == 0 { v } else { xr[k] };
                     }
                 }
             }
