@@ -42,28 +42,7 @@ pub(super) const SLOTS: [(Slot, i32, i32); 9] = [
 pub(super) fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: &[usize]) -> Level {
     let (cnr, cnz) = (ci.len(), cj.len());
     let cn = cnr * cnz;
-    // A coarse node takes corrections when the fine node under it does, or when that node is
-    // fixed but borders free ones (it then carries the correction up to the surface).
-    let mut live = vec![false; cn];
-    for (jj, &fj) in cj.iter().enumerate() {
-        for (ii, &fi) in ci.iter().enumerate() {
-            let p = f.p(fi, fj);
-            let pw = f.pw;
-            let free_nb = [
-                p - 1,
-                p + 1,
-                p - pw,
-                p + pw,
-                p - pw - 1,
-                p - pw + 1,
-                p + pw - 1,
-                p + pw + 1,
-            ]
-            .iter()
-            .any(|&q| f.mask[q] != 0);
-            live[jj * cnr + ii] = f.mask[p] != 0 || free_nb;
-        }
-    }
+    let mut live = live_nodes(f, ci, cj);
     let mut acc = vec![[0.0f64; 9]; cn];
     let slot_of = |oi: i64, oj: i64| -> usize {
         SLOTS
@@ -194,6 +173,40 @@ pub(super) fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: 
         }
     }
     remove_singular(&mut acc, &mut live, cnr, cnz, &slot_table);
+    coarse_level(&acc, &live, cnr, cnz)
+}
+
+/// The coarse nodes that take corrections: those whose fine node does, and those whose fine
+/// node is fixed but borders free ones (they carry the correction up to the surface).
+fn live_nodes(f: &Level, ci: &[usize], cj: &[usize]) -> Vec<bool> {
+    let cnr = ci.len();
+    let mut live = vec![false; cnr * cj.len()];
+    for (jj, &fj) in cj.iter().enumerate() {
+        for (ii, &fi) in ci.iter().enumerate() {
+            let p = f.p(fi, fj);
+            let pw = f.pw;
+            let free_nb = [
+                p - 1,
+                p + 1,
+                p - pw,
+                p + pw,
+                p - pw - 1,
+                p - pw + 1,
+                p + pw - 1,
+                p + pw + 1,
+            ]
+            .iter()
+            .any(|&q| f.mask[q] != 0);
+            live[jj * cnr + ii] = f.mask[p] != 0 || free_nb;
+        }
+    }
+    live
+}
+
+/// The coarse level from the accumulated rows: live nodes keep their row (in single
+/// precision), the others become identity rows that take no correction; then the line
+/// pivots are factored.
+fn coarse_level(acc: &[[f64; 9]], live: &[bool], cnr: usize, cnz: usize) -> Level {
     let mut c = Level::new(cnr, cnz, true);
     for j in 0..cnz {
         for i in 0..cnr {
