@@ -4,14 +4,15 @@ conservative 5-point axisymmetric operator that holdoff solves, in the same run.
 
 Not run in CI. Usage (from the repository root):
 
-    python3 benches/compare_pyamg.py [--threads N] [nodes ...]
+    python3 benches/compare_pyamg.py [--threads N] [--bin PATH] [nodes ...]
 
 It runs `holdoff bench` for each size (which prints holdoff's own timings, the fastest of three
 runs, and exports the symmetric operator), loads the exported operator and right-hand side (Matrix Market files), solves to 1e-10
 relative residual with pyamg, also the fastest of three runs, and prints seconds per unknown for
 both and their ratio. Both sides run on the same thread count N (default 1): holdoff through
 RAYON_NUM_THREADS, numpy/scipy through OMP_NUM_THREADS, OPENBLAS_NUM_THREADS and
-MKL_NUM_THREADS, all set to N here before anything starts, and both printed.
+MKL_NUM_THREADS, all set to N here before anything starts, and both printed. `--bin PATH` runs
+an already built holdoff executable instead of `cargo run --release`.
 """
 import os
 import subprocess
@@ -20,7 +21,7 @@ import tempfile
 import time
 
 
-def threads_from_argv():
+def options_from_argv():
     args = sys.argv[1:]
     n = "1"
     if "--threads" in args:
@@ -29,10 +30,17 @@ def threads_from_argv():
             sys.exit("--threads: expected a whole number of at least 1")
         n = args[i + 1]
         del args[i : i + 2]
-    return n, args
+    binary = None
+    if "--bin" in args:
+        i = args.index("--bin")
+        if i + 1 >= len(args) or not os.path.isfile(args[i + 1]):
+            sys.exit("--bin: expected the path of a holdoff executable")
+        binary = os.path.abspath(args[i + 1])
+        del args[i : i + 2]
+    return n, binary, args
 
 
-THREADS, SIZE_ARGS = threads_from_argv()
+THREADS, BINARY, SIZE_ARGS = options_from_argv()
 PINNED = ("RAYON_NUM_THREADS", "OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
 for var in PINNED:
     os.environ[var] = THREADS
@@ -49,8 +57,9 @@ except ImportError:
 
 
 def holdoff_bench(nodes, export_dir):
+    command = [BINARY] if BINARY else ["cargo", "run", "--release", "--quiet", "--"]
     out = subprocess.check_output(
-        ["cargo", "run", "--release", "--quiet", "--", "bench", "--sizes", str(nodes), "--export", export_dir],
+        command + ["bench", "--sizes", str(nodes), "--export", export_dir],
         text=True,
         env=os.environ.copy(),
     )

@@ -67,22 +67,81 @@ fn dot_shadow(a: &[f32], b: &[f64]) -> f64 {
     }
 }
 
-/// y += a·x and z += b·w in one pass.
-fn axpy2(y: &mut [f64], a: f64, x: &[f64], z: &mut [f64], b: f64, w: &[f64]) {
-    if y.len() >= PARALLEL_LEN {
-        y.par_iter_mut()
-            .zip(z.par_iter_mut())
-            .zip(x.par_iter().zip(w.par_iter()))
-            .for_each(|((yi, zi), (xi, wi))| {
-                *yi += a * xi;
-                *zi += b * wi;
-            });
-    } else {
-        for k in 0..y.len() {
-            y[k] += a * x[k];
-            z[k] += b * w[k];
+/// Partial sums over fixed chunks of `REDUCE_CHUNK` elements, added in order, whatever the
+/// thread count.
+fn add_partials<const K: usize>(partial: &[[f64; K]]) -> [f64; K] {
+    let mut sum = [0.0; K];
+    for p in partial {
+        for (s, v) in sum.iter_mut().zip(p) {
+            *s += v;
         }
     }
+    sum
+}
+
+/// y = A x fused with sums over the same rows: `f(first, ys)` returns the sums of one chunk
+/// of rows (from row `first`) once its products are in `ys`; the sums of the fixed chunks
+/// are added in order, so the result does not depend on the thread count.
+fn apply_reduce<const K: usize>(
+    op: &Operator,
+    x: &[f64],
+    y: &mut [f64],
+    f: impl Fn(usize, &[f64]) -> [f64; K] + Sync,
+) -> [f64; K] {
+    let chunk = |(c, ys): (usize, &mut [f64])| {
+        op.apply_rows(x, ys, c * REDUCE_CHUNK);
+        f(c * REDUCE_CHUNK, ys)
+    };
+    let partial: Vec<[f64; K]> = if y.len() >= PARALLEL_LEN {
+        y.par_chunks_mut(REDUCE_CHUNK)
+            .enumerate()
+            .map(chunk)
+            .collect()
+    } else {
+        y.chunks_mut(REDUCE_CHUNK).enumerate().map(chunk).collect()
+    };
+    add_partials(&partial)
+}
+
+/// y += a·x and z += b·w in one pass, fused with sums over the updated z as in
+/// [`apply_reduce`].
+#[allow(clippy::too_many_arguments)]
+fn axpy2_reduce<const K: usize>(
+    y: &mut [f64],
+    a: f64,
+    x: &[f64],
+    z: &mut [f64],
+    b: f64,
+    w: &[f64],
+    f: impl Fn(usize, &[f64]) -> [f64; K] + Sync,
+) -> [f64; K] {
+    let chunk = |(c, (ys, zs)): (usize, (&mut [f64], &mut [f64]))| {
+        let first = c * REDUCE_CHUNK;
+        let (xs, ws) = (&x[first..first + ys.len()], &w[first..first + zs.len()]);
+        for k in 0..ys.len() {
+            ys[k] += a * xs[k];
+            zs[k] += b * ws[k];
+        }
+        f(first, zs)
+    };
+    let partial: Vec<[f64; K]> = if y.len() >= PARALLEL_LEN {
+        y.par_chunks_mut(REDUCE_CHUNK)
+            .zip(z.par_chunks_mut(REDUCE_CHUNK))
+            .enumerate()
+            .map(chunk)
+            .collect()
+    } else {
+        y.chunks_mut(REDUCE_CHUNK)
+            .zip(z.chunks_mut(REDUCE_CHUNK))
+            .enumerate()
+            .map(chunk)
+            .collect()
+    };
+    add_partials(&partial)
+}
+
+fn sum_sq(v: &[f64]) -> f64 {
+    v.iter().map(|a| a * a).sum()
 }
 
 fn norm(a: &[f64]) -> f64 {
@@ -148,8 +207,9 @@ pub fn pcg(
     let mut q = vec![0.0; n];
     let mut rz = dot(&r, &z);
     for it in 1..=params.max_iterations {
-        op.apply(&p, &mut q);
-        let pq = dot(&p, &q);
+        let [pq] = apply_reduce(op, &p, &mut q, |first, qs| {
+            [qs.iter().zip(&p[first..]).map(|(a, b)| a * b).sum()]
+        });
         if pq <= 0.0 || !pq.is_finite() {
             return KrylovInfo {
                 iterations: it,
@@ -158,8 +218,8 @@ pub fn pcg(
             };
         }
         let alpha = rz / pq;
-        axpy2(x, alpha, &p, &mut r, -alpha, &q);
-        rn = norm(&r);
+        let [rr] = axpy2_reduce(x, alpha, &p, &mut r, -alpha, &q, |_, rs| [sum_sq(rs)]);
+        rn = rr.sqrt();
         if rn / bnorm <= params.tolerance {
             // Confirm with the true residual.
             let tn = residual(op, x, b, &mut r);
@@ -218,8 +278,17 @@ pub fn bicgstab(
             converged: true,
         })
     };
+    // (r̂₀, r), formed with each update of r.
+    let mut r0r = dot_shadow(&r0, &r);
+    let shadow = |first: usize, vs: &[f64]| -> f64 {
+        r0[first..first + vs.len()]
+            .iter()
+            .zip(vs)
+            .map(|(&a, b)| a as f64 * b)
+            .sum()
+    };
     for it in 1..=params.max_iterations {
-        let rho_new = dot_shadow(&r0, &r);
+        let rho_new = r0r;
         if rho_new == 0.0 || !rho_new.is_finite() {
             break;
         }
@@ -230,29 +299,34 @@ pub fn bicgstab(
             .with_min_len(PARALLEL_LEN / 2)
             .for_each(|(pk, (rk, vk))| *pk = rk + beta * (*pk - omega * vk));
         mg.apply(&p, &mut hat);
-        op.apply(&hat, &mut v);
-        let r0v = dot_shadow(&r0, &v);
+        let [r0v] = apply_reduce(op, &hat, &mut v, |first, vs| [shadow(first, vs)]);
         if r0v == 0.0 || !r0v.is_finite() {
             break;
         }
         alpha = rho / r0v;
-        axpy2(x, alpha, &hat, &mut r, -alpha, &v);
-        if norm(&r) / bnorm <= params.tolerance
+        let [rr] = axpy2_reduce(x, alpha, &hat, &mut r, -alpha, &v, |_, rs| [sum_sq(rs)]);
+        if rr.sqrt() / bnorm <= params.tolerance
             && let Some(info) = done(op, x, &mut r, it)
         {
             return info;
         }
         mg.apply(&r, &mut hat);
-        op.apply(&hat, &mut t);
-        let tt = dot(&t, &t);
-        omega = if tt > 0.0 { dot(&t, &r) / tt } else { 0.0 };
-        axpy2(x, omega, &hat, &mut r, -omega, &t);
-        rn = norm(&r);
+        let [tt, tr] = apply_reduce(op, &hat, &mut t, |first, ts| {
+            let rs = &r[first..first + ts.len()];
+            [sum_sq(ts), ts.iter().zip(rs).map(|(a, b)| a * b).sum()]
+        });
+        omega = if tt > 0.0 { tr / tt } else { 0.0 };
+        let [rr, rs0] = axpy2_reduce(x, omega, &hat, &mut r, -omega, &t, |first, rs| {
+            [sum_sq(rs), shadow(first, rs)]
+        });
+        rn = rr.sqrt();
+        r0r = rs0;
         if rn / bnorm <= params.tolerance {
             if let Some(info) = done(op, x, &mut r, it) {
                 return info;
             }
             rn = norm(&r);
+            r0r = dot_shadow(&r0, &r);
         }
         if omega == 0.0 {
             break;

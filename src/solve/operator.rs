@@ -251,48 +251,51 @@ impl Operator {
 
     /// y = A x.
     pub fn apply(&self, x: &[f64], y: &mut [f64]) {
-        let n = self.stencil.len();
-        let nr = self.nr;
-        let st = &self.stencil;
-        let rows = |first: usize, ys: &mut [f64]| {
-            for (off, yr) in ys.iter_mut().enumerate() {
-                let k = first + off;
-                let c = &st[k];
-                *yr = if k >= nr && k + nr < n {
-                    // Interior rows: every neighbour index is in range, and a missing
-                    // neighbour has a zero coefficient. Summed in CSR column order.
-                    c[ST_S] * x[k - nr]
-                        + c[ST_W] * x[k - 1]
-                        + c[ST_C] * x[k]
-                        + c[ST_E] * x[k + 1]
-                        + c[ST_N] * x[k + nr]
-                } else {
-                    let mut acc = 0.0;
-                    let cols = [
-                        k.checked_sub(nr),
-                        k.checked_sub(1),
-                        Some(k),
-                        Some(k + 1).filter(|&q| q < n),
-                        Some(k + nr).filter(|&q| q < n),
-                    ];
-                    for (v, col) in c.iter().zip(cols) {
-                        if let Some(q) = col
-                            && *v != 0.0
-                        {
-                            acc += v * x[q];
-                        }
-                    }
-                    acc
-                };
-            }
-        };
         if y.len() >= PARALLEL_ROWS {
             use rayon::prelude::*;
             y.par_chunks_mut(CHUNK)
                 .enumerate()
-                .for_each(|(c, ys)| rows(c * CHUNK, ys));
+                .for_each(|(c, ys)| self.apply_rows(x, ys, c * CHUNK));
         } else {
-            rows(0, y);
+            self.apply_rows(x, y, 0);
+        }
+    }
+
+    /// The rows `first .. first + ys.len()` of A x, into `ys` (for products fused with other
+    /// work on the same rows).
+    pub fn apply_rows(&self, x: &[f64], ys: &mut [f64], first: usize) {
+        let n = self.stencil.len();
+        let nr = self.nr;
+        let st = &self.stencil;
+        for (off, yr) in ys.iter_mut().enumerate() {
+            let k = first + off;
+            let c = &st[k];
+            *yr = if k >= nr && k + nr < n {
+                // Interior rows: every neighbour index is in range, and a missing
+                // neighbour has a zero coefficient. Summed in CSR column order.
+                c[ST_S] * x[k - nr]
+                    + c[ST_W] * x[k - 1]
+                    + c[ST_C] * x[k]
+                    + c[ST_E] * x[k + 1]
+                    + c[ST_N] * x[k + nr]
+            } else {
+                let mut acc = 0.0;
+                let cols = [
+                    k.checked_sub(nr),
+                    k.checked_sub(1),
+                    Some(k),
+                    Some(k + 1).filter(|&q| q < n),
+                    Some(k + nr).filter(|&q| q < n),
+                ];
+                for (v, col) in c.iter().zip(cols) {
+                    if let Some(q) = col
+                        && *v != 0.0
+                    {
+                        acc += v * x[q];
+                    }
+                }
+                acc
+            };
         }
     }
 
