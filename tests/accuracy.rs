@@ -557,3 +557,37 @@ fn insulator_peaks_agree_with_the_fem_references() {
     assert!(worst <= 0.005, "worst difference {worst}");
     assert_eq!(bracketed, n, "{bracketed} of {n} bracketed");
 }
+
+/// Triple junctions with a finite field: the tube between the plates meets both plates at a
+/// right angle, where the uniform field V/d is undisturbed (docs/references.md §19), so the
+/// field on the plate next to each junction (gas and vacuum side) is V/d. At the default mesh
+/// every junction of the tube converges on the three grids, is within 0.1 % of V/d, and its
+/// error bar contains the difference.
+#[test]
+fn right_angle_junctions_converge_to_the_uniform_field() {
+    let case = tube_between_plates(9.4);
+    let exact = case.exact[0].2;
+    let r = review(&case.model, &SolverParams::default(), true).expect("review");
+    let study = r.study.as_ref().expect("study");
+    let tube = study.junctions.iter().filter(|j| j.dielectric == 0);
+    let mut n = 0;
+    for j in tube {
+        let diff = (j.fields_v_per_m[0] / exact - 1.0).abs();
+        eprintln!(
+            "junction conductor {} {:?}: {:.2?} kV/m, {}, bar {:?}, difference {:.4} %",
+            j.conductor,
+            j.side,
+            j.fields_v_per_m.map(|v| v / 1e3),
+            j.convergence,
+            j.relative_error,
+            diff * 100.0
+        );
+        assert_eq!(j.convergence, "converges");
+        assert!(diff <= 1e-3, "{diff}");
+        assert!(j.relative_error.is_some_and(|e| e >= diff));
+        n += 1;
+    }
+    // The plate at both ends of the gas and the vacuum face: the plate itself and the tank
+    // floor (the tank has no junction rows), so two junctions of the plate.
+    assert!(n >= 2, "{n} junctions");
+}
