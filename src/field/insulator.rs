@@ -28,27 +28,30 @@ impl FieldMap<'_> {
     /// interface, not a surface) are left out. The tangential component is continuous across
     /// the interface, so the interpolated field just outside gives it on both sides.
     pub fn insulator_samples(&self, index: usize) -> Vec<InsulatorSample> {
-        self.mesh
-            .insulator_sites(self.model, index)
-            .iter()
-            .map(|site| {
-                let n = site.normal;
-                let f = self.one_sided_field(site, index);
-                let tangent = [-n.z, n.r];
-                InsulatorSample {
-                    dielectric: index,
-                    at: site.at,
-                    normal: n,
-                    side: if site.vacuum_side {
-                        Medium::Vacuum
-                    } else {
-                        Medium::Gas
-                    },
-                    e_tangential: (f.field[0] * tangent[0] + f.field[1] * tangent[1]).abs(),
-                    e: crate::geometry::magnitude(f.field[0], f.field[1]),
-                }
-            })
-            .collect()
+        let sites = self.mesh.insulator_sites(self.model, index);
+        let sample = |site: &crate::mesh::InsulatorSite| {
+            let n = site.normal;
+            let f = self.one_sided_field(site, index);
+            let tangent = [-n.z, n.r];
+            InsulatorSample {
+                dielectric: index,
+                at: site.at,
+                normal: n,
+                side: if site.vacuum_side {
+                    Medium::Vacuum
+                } else {
+                    Medium::Gas
+                },
+                e_tangential: (f.field[0] * tangent[0] + f.field[1] * tangent[1]).abs(),
+                e: crate::geometry::magnitude(f.field[0], f.field[1]),
+            }
+        };
+        // Each sample is its own fit: in parallel on long surfaces, in site order either way.
+        if sites.len() >= PARALLEL_SITES {
+            sites.par_iter().map(sample).collect()
+        } else {
+            sites.iter().map(sample).collect()
+        }
     }
 }
 
@@ -94,6 +97,9 @@ fn blocked(shapes: &[&crate::geometry::Shape], a: Point, b: Point) -> bool {
         false
     })
 }
+
+/// Insulator surfaces with this many sites are sampled in parallel.
+const PARALLEL_SITES: usize = 512;
 
 /// Nodes within this many cells of a surface point enter the one-sided fit of the field there.
 const FIT_REACH_CELLS: f64 = 3.0;
