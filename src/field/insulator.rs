@@ -81,7 +81,13 @@ fn blocked(shapes: &[&crate::geometry::Shape], a: Point, b: Point) -> bool {
     if len == 0.0 {
         return false;
     }
+    let (r0, r1) = (a.r.min(b.r), a.r.max(b.r));
+    let (z0, z1) = (a.z.min(b.z), a.z.max(b.z));
     shapes.iter().any(|s| {
+        let bb = s.bbox();
+        if bb.r_min > r1 || bb.r_max < r0 || bb.z_min > z1 || bb.z_max < z0 {
+            return false;
+        }
         let mut t = 0.0;
         for _ in 0..64 {
             let p = Point::new(a.r + t / len * (b.r - a.r), a.z + t / len * (b.z - a.z));
