@@ -308,6 +308,9 @@ pub struct ReplayOptions {
     pub seed: u64,
     /// Sections shorted for the conditioning spark energy (empty = none).
     pub shorted_sections: Vec<Section>,
+    /// Evaluate every row of every scenario, instead of screening the conductors whose rows
+    /// cannot set a scenario's worst margin (the same results, slower; for checking).
+    pub exhaustive: bool,
 }
 
 impl Default for ReplayOptions {
@@ -316,6 +319,7 @@ impl Default for ReplayOptions {
             samples: 200,
             seed: 1,
             shorted_sections: Vec::new(),
+            exhaustive: false,
         }
     }
 }

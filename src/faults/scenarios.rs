@@ -3,12 +3,15 @@
 //! checks formed from the basis in parallel (identical potentials once), and the spread of
 //! the draws.
 
+use super::screen::{self, Screen, tied, worst_row};
 use super::{
     Basis, Evaluated, FaultError, Kind, MonteCarlo, ReplayOptions, ResistorRef, ScenarioResult,
-    Worst, field_margins, fired_gaps, firing, resistor_check, solve_networks,
+    Worst, evaluate_halves, fired_gaps, firing, load_field, resistor_check, solve_networks,
+    worst_of,
 };
 use crate::analysis::Analysis;
 use crate::grading::{self, Network, NetworkSolution};
+use crate::margin;
 use crate::mesh::Mesh;
 use crate::model::Model;
 use crate::solve::Solution;
@@ -168,18 +171,19 @@ pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
 }
 
 /// The networks of every case (cheap), then the field checks once per distinct set of
-/// conductor potentials, in parallel; `tick` is called once per case. `gap_capacitance` is
-/// the capacitance across each protective gap (`firing::gap_capacitances`). Also gives how many
-/// cases shared an identical one's evaluation.
+/// conductor potentials, in parallel: the nominal (case 0) in full, the others screened
+/// against it (`screen`) unless `exhaustive`; `tick` is called once per case. Also gives how
+/// many cases shared an identical one's evaluation.
 pub(super) fn evaluate(
     model: &Model,
     mesh: &Mesh,
     basis: &Basis,
     stage_v: Option<&[f64]>,
     cases: &[Case],
-    gap_capacitance: &[Vec<Option<f64>>],
+    exhaustive: bool,
     tick: &(dyn Fn() + Sync),
 ) -> Result<(Vec<Evaluated>, usize), FaultError> {
+    let gap_capacitance = firing::gap_capacitances(model, basis, &cases[0].networks);
     // The insulator sites are geometry: found once here, shared by every worker's copy.
     let _ = mesh.insulator_sites(model, 0);
     // With parallel strings, the same resistor failing in either string gives the same
@@ -208,15 +212,28 @@ pub(super) fn evaluate(
         })
         .collect();
     // The nominal field (case 0), from which every scenario's sum starts; the scenarios' fields
-    // are then formed a block at a time, each unit solution read once per block.
+    // are then formed a block at a time, each unit solution read once per block. The nominal
+    // is evaluated in full, and its rows screen the others' (`screen`).
     let nominal_ev = basis.electrode_potentials(&prepared[0].2);
     let nominal_phi = basis.field(&nominal_ev);
+    let mut nominal_work = work_analysis(mesh, basis);
+    load_field(
+        model,
+        basis,
+        &mut nominal_work,
+        prepared[0].2.clone(),
+        Some(nominal_phi.clone()),
+    );
+    let nominal = evaluate_halves(model, &nominal_work)?;
+    let screen = (!exhaustive).then(|| Screen::new(model, &nominal_work, &nominal));
+    let mut worst: Vec<Worst> = vec![worst_of(&nominal.rows)];
+    tick();
     // Work analyses for the worker threads, reused across the blocks.
-    let pool: Vec<std::sync::Mutex<Analysis>> = (0..rayon::current_num_threads())
-        .map(|_| std::sync::Mutex::new(work_analysis(mesh, basis)))
+    let pool: Vec<std::sync::Mutex<Analysis>> = std::iter::once(nominal_work)
+        .chain((1..rayon::current_num_threads()).map(|_| work_analysis(mesh, basis)))
+        .map(std::sync::Mutex::new)
         .collect();
-    let mut worst: Vec<Worst> = Vec::with_capacity(distinct.len());
-    for block in distinct.chunks(FIELD_BLOCK) {
+    for block in distinct[1..].chunks(FIELD_BLOCK) {
         let sets: Vec<Vec<f64>> = block
             .iter()
             .map(|&ci| basis.electrode_potentials(&prepared[ci].2))
@@ -234,7 +251,11 @@ pub(super) fn evaluate(
                     Some(w) => w,
                     None => fresh.insert(work_analysis(mesh, basis)),
                 };
-                let w = field_margins(model, basis, work, prepared[ci].2.clone(), Some(phi))?;
+                load_field(model, basis, work, prepared[ci].2.clone(), Some(phi));
+                let w = match &screen {
+                    Some(screen) => screened_margins(model, screen, work)?,
+                    None => worst_of(&margin::evaluate(model, work, None)?.rows),
+                };
                 tick();
                 Ok(w)
             })
@@ -264,7 +285,7 @@ pub(super) fn evaluate(
                     model,
                     &case.networks,
                     &sols,
-                    gap_capacitance,
+                    &gap_capacitance,
                 ),
             }
         })
@@ -326,3 +347,44 @@ pub(super) fn monte_carlo(
         None
     }
 }
+
+/// The worst row of the scenario loaded in `work`, screened against the nominal (`screen`):
+/// the insulator rows, the conductors that must be evaluated and those whose bound lies
+/// within [`LIKELY`] of the smallest predicted margin first, then any other conductor whose
+/// bound does not clear the worst margin found. The same worst row as a full evaluation; a
+/// tie for the smallest margin, whose order only a full evaluation settles, is evaluated in
+/// full.
+fn screened_margins(model: &Model, screen: &Screen, work: &Analysis) -> Result<Worst, FaultError> {
+    let rho = screen.rise(model, work);
+    let bounds = screen.bounds(&rho);
+    let least = bounds.iter().flatten().copied().reduce(f64::min);
+    let first: Vec<bool> = screen
+        .always(&rho)
+        .iter()
+        .zip(&bounds)
+        .map(|(a, b)| match (b, least) {
+            (Some(b), Some(l)) => *a || *b <= l * screen::SAFETY * LIKELY,
+            _ => true,
+        })
+        .collect();
+    let mut rows = margin::evaluate_selected(model, work, None, &|c| first[c], true)?.rows;
+    let found = worst_row(&rows).and_then(|r| r.margin);
+    let second: Vec<bool> = screen
+        .needed(&rho, found)
+        .iter()
+        .zip(&first)
+        .map(|(n, f)| *n && !f)
+        .collect();
+    if second.iter().any(|x| *x) {
+        rows.extend(margin::evaluate_selected(model, work, None, &|c| second[c], false)?.rows);
+    }
+    margin::rank(&mut rows);
+    if tied(&rows) {
+        return Ok(worst_of(&margin::evaluate(model, work, None)?.rows));
+    }
+    Ok(worst_of(&rows))
+}
+
+/// The first round of a screened scenario takes the conductors whose predicted margin (the
+/// bound without the safety factor) lies within this factor of the smallest one.
+const LIKELY: f64 = 1.05;
