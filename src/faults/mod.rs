@@ -230,8 +230,9 @@ fn resistor_check(
 type Worst = (Option<f64>, Option<String>, Option<String>);
 
 /// Loads one set of conductor potentials into the work analysis `work`: the field formed
-/// from the basis unless `phi` gives it already (from [`Basis::fields_from`]), its surface
-/// samples, peaks and probes.
+/// from the basis unless `phi` gives it already (from [`Basis::fields_from`]) and its surface
+/// samples, all that the margin rows read (the peaks, probes and energy of an analysis are
+/// left empty: a scenario reports its worst row only).
 fn load_field(
     model: &Model,
     basis: &Basis,
@@ -239,23 +240,11 @@ fn load_field(
     potentials: Vec<f64>,
     phi: Option<Vec<f64>>,
 ) {
-    let ev = basis.electrode_potentials(&potentials);
-    let phi = phi.unwrap_or_else(|| basis.field(&ev));
-    {
-        let fm = FieldMap::new(&work.mesh, model, &phi, &potentials);
-        let samples = fm.surface_samples();
-        work.peaks = fm.conductor_peaks(&samples);
-        work.samples = samples;
-        work.probes = model
-            .probes
-            .iter()
-            .map(|p| crate::analysis::ProbeResult {
-                name: p.name.clone(),
-                field: fm.at(p.at),
-            })
-            .collect();
-    }
-    work.energy_j = basis.energy_j(&ev);
+    let phi = phi.unwrap_or_else(|| basis.field(&basis.electrode_potentials(&potentials)));
+    work.samples = FieldMap::new(&work.mesh, model, &phi, &potentials).surface_samples();
+    work.peaks.clear();
+    work.probes.clear();
+    work.energy_j = 0.0;
     work.potentials = potentials;
     work.solution.phi = phi;
 }

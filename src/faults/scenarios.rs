@@ -152,7 +152,7 @@ pub(super) fn cases(
 
 /// Scenario fields formed together from the basis (a few per worker thread, so that their
 /// sums stay in cache and the margins of one block keep every thread busy).
-const FIELD_BLOCK: usize = 16;
+const FIELD_BLOCK: usize = 8;
 
 /// A work analysis on `mesh` for one worker thread, its fields formed from the basis.
 pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
@@ -387,4 +387,4 @@ fn screened_margins(model: &Model, screen: &Screen, work: &Analysis) -> Result<W
 
 /// The first round of a screened scenario takes the conductors whose predicted margin (the
 /// bound without the safety factor) lies within this factor of the smallest one.
-const LIKELY: f64 = 1.05;
+const LIKELY: f64 = 1.25;
