@@ -624,7 +624,11 @@ fn resistor_ratings_are_checked_against_dc_and_the_clamped_transient() {
     assert!(!tr.resistor_rating_exceeded);
     let nominal = first(&r, Kind::Nominal);
     assert!((nominal.resistors.rating_margin.expect("rated") - 1.25).abs() < 1e-4);
-    assert!(r.notes.iter().any(|n| n.contains("impulse rating 80.0 kV")));
+    assert!(
+        holdoff::report::faults::notes(&r)
+            .iter()
+            .any(|n| n.contains("impulse rating 80.0 kV"))
+    );
 }
 
 /// A basis that would not fit the memory budget is refused before any solve, with the
@@ -728,7 +732,11 @@ fn a_terminal_in_volts_sparks_like_the_terminal() {
     for (x, y) in a[0].iter().zip(&b[0]) {
         assert!((x - y).abs() < 1e-6 * 200e3, "{x} vs {y}");
     }
-    assert!(volts.notes.iter().any(|n| n.contains("highest voltage")));
+    assert!(
+        holdoff::report::faults::notes(&volts)
+            .iter()
+            .any(|n| n.contains("highest voltage"))
+    );
 }
 
 /// `--rows N` lists the worst N scenarios and says how many more there are; `--rows all`

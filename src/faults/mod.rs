@@ -14,8 +14,9 @@
 //! are conserved: C_FF ΔV_F + C_FH ΔV_H = 0.
 //!
 //! Files: `basis` (unit solves, superposition), `results` (what a replay gives), `scenarios`
-//! (the DC cases), `transient` (the spark transient), `firing` (repetitive firing), `notes`
-//! (the replay's stated assumptions); this file runs the replay in stages.
+//! (the DC cases), `screen` (which conductor rows a scenario must form), `transient` (the
+//! spark transient), `clamp` (the protective gaps through it), `firing` (repetitive firing),
+//! `notes` (the replay's stated assumptions, as data); this file runs the replay in stages.
 
 use crate::analysis::Analysis;
 use crate::capacitance::{CapacitanceMatrix, Electrode, conductor_charges, electrodes};
@@ -30,6 +31,7 @@ use serde::Serialize;
 use thiserror::Error;
 
 mod basis;
+mod clamp;
 mod firing;
 mod notes;
 mod results;
@@ -38,12 +40,12 @@ mod screen;
 mod transient;
 pub use basis::Basis;
 use basis::*;
+pub use clamp::{ClampedStep, GapLink, clamped_step, gap_links};
 pub use firing::{RepetitiveFiring, transfer_capacitance};
-use notes::*;
+pub use notes::ReplayNote;
+use notes::network_notes;
 pub use results::*;
-pub use transient::{
-    ClampedStep, GapLink, clamped_step, fast_step, gap_links, node_electrode, spark_energy_with,
-};
+pub use transient::{fast_step, node_electrode, spark_energy_with};
 
 /// Why the fast transient after a spark cannot be formed.
 #[derive(Debug, Error)]

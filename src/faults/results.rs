@@ -199,7 +199,10 @@ pub struct FaultReplay {
     /// Scenarios whose field checks were shared with an identical one (the same resistor in
     /// another string).
     pub shared_evaluations: usize,
-    pub notes: Vec<String>,
+    /// What the replay assumes, as data (`report::faults::notes` words them; the JSON
+    /// carries the words).
+    #[serde(skip)]
+    pub notes: Vec<ReplayNote>,
 }
 
 impl FaultReplay {

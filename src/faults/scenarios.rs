@@ -54,7 +54,7 @@ pub(super) fn cases(
     model: &Model,
     networks: &[Network],
     options: &ReplayOptions,
-    notes: &mut Vec<String>,
+    notes: &mut Vec<super::ReplayNote>,
 ) -> Result<Cases, FaultError> {
     let mut cases = vec![Case {
         name: "nominal".to_string(),
@@ -124,7 +124,7 @@ pub(super) fn cases(
         .any(|c| c.tolerance.unwrap_or(0.0) > 0.0);
     let draws = if any_tol { options.samples } else { 0 };
     if options.samples > 0 && !any_tol {
-        notes.push("no column gives a resistor tolerance: no Monte Carlo draws".to_string());
+        notes.push(super::ReplayNote::NoDraws);
     }
     for d in 0..draws {
         let mut t = networks.to_vec();

@@ -332,7 +332,7 @@ pub fn render(
             "\n**{}**\n",
             cell(&crate::report::faults::FaultVerdict::of(f, report.design_factor).line())
         );
-        for n in &f.notes {
+        for n in &crate::report::faults::notes(f) {
             let _ = writeln!(o, "- {}", cell(n));
         }
         let _ = writeln!(o);
