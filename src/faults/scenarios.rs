@@ -228,11 +228,23 @@ pub(super) fn evaluate(
     let screen = (!exhaustive).then(|| Screen::new(model, &nominal_work, &nominal));
     let mut worst: Vec<Worst> = vec![worst_of(&nominal.rows)];
     tick();
-    // Work analyses for the worker threads, reused across the blocks.
-    let pool: Vec<std::sync::Mutex<Analysis>> = std::iter::once(nominal_work)
-        .chain((1..rayon::current_num_threads()).map(|_| work_analysis(mesh, basis)))
-        .map(std::sync::Mutex::new)
-        .collect();
+    // Work analyses for the worker threads, reused across the blocks: one is taken per
+    // scenario and given back after it, and a new one made only when none is free (a thread
+    // waiting inside a parallel part of a margin check may start another scenario).
+    let pool: std::sync::Mutex<Vec<Analysis>> = std::sync::Mutex::new(
+        std::iter::once(nominal_work)
+            .chain((1..rayon::current_num_threads()).map(|_| work_analysis(mesh, basis)))
+            .collect(),
+    );
+    let take = || {
+        let free = pool.lock().ok().and_then(|mut p| p.pop());
+        free.unwrap_or_else(|| work_analysis(mesh, basis))
+    };
+    let give = |w: Analysis| {
+        if let Ok(mut p) = pool.lock() {
+            p.push(w);
+        }
+    };
     for block in distinct[1..].chunks(FIELD_BLOCK) {
         let sets: Vec<Vec<f64>> = block
             .iter()
@@ -243,19 +255,14 @@ pub(super) fn evaluate(
             .par_iter()
             .zip(fields)
             .map(|(&ci, phi)| -> Result<Worst, FaultError> {
-                // A free work analysis of the pool (a thread waiting inside a parallel margin
-                // check may start another scenario, so a thread can need two).
-                let mut held = pool.iter().find_map(|m| m.try_lock().ok());
-                let mut fresh = None;
-                let work = match held.as_deref_mut() {
-                    Some(w) => w,
-                    None => fresh.insert(work_analysis(mesh, basis)),
-                };
+                let mut held = take();
+                let work = &mut held;
                 load_field(model, basis, work, prepared[ci].2.clone(), Some(phi));
                 let w = match &screen {
                     Some(screen) => screened_margins(model, screen, work)?,
                     None => worst_of(&margin::evaluate(model, work, None)?.rows),
                 };
+                give(held);
                 tick();
                 Ok(w)
             })

@@ -396,7 +396,6 @@ fn ranked_table(out: &mut String, r: &FaultReplay, rows: Option<usize>) {
             rest.len()
         );
     }
-
 }
 
 /// The lines under the table: the Monte Carlo spread, the ladder equivalents, the spark
