@@ -3,7 +3,7 @@
 //! checks formed from the basis in parallel (identical potentials once), and the spread of
 //! the draws.
 
-use super::screen::{self, Screen, tied, worst_row};
+use super::screen::{Screen, tied, worst_row};
 use super::{
     Basis, Evaluated, FaultError, Kind, MonteCarlo, ReplayOptions, ResistorRef, ScenarioResult,
     Worst, evaluate_halves, fired_gaps, firing, load_field, resistor_check, solve_networks,
@@ -356,21 +356,21 @@ pub(super) fn monte_carlo(
 }
 
 /// The worst row of the scenario loaded in `work`, screened against the nominal (`screen`):
-/// the insulator rows, the conductors that must be evaluated and those whose bound lies
-/// within [`LIKELY`] of the smallest predicted margin first, then any other conductor whose
-/// bound does not clear the worst margin found. The same worst row as a full evaluation; a
-/// tie for the smallest margin, whose order only a full evaluation settles, is evaluated in
-/// full.
+/// the insulator rows, the conductors that must be evaluated and those whose bound lies below
+/// [`LIKELY`] times a guess at the worst margin (`Screen::guess`) first, then any other
+/// conductor whose bound does not clear the worst margin found. The same worst row as a full
+/// evaluation; a tie for the smallest margin, whose order only a full evaluation settles, is
+/// evaluated in full.
 fn screened_margins(model: &Model, screen: &Screen, work: &Analysis) -> Result<Worst, FaultError> {
     let rho = screen.rise(model, work);
     let bounds = screen.bounds(&rho);
-    let least = bounds.iter().flatten().copied().reduce(f64::min);
+    let guess = screen.guess(&rho);
     let first: Vec<bool> = screen
         .always(&rho)
         .iter()
         .zip(&bounds)
-        .map(|(a, b)| match (b, least) {
-            (Some(b), Some(l)) => *a || *b <= l * screen::SAFETY * LIKELY,
+        .map(|(a, b)| match (b, guess) {
+            (Some(b), Some(g)) => *a || *b <= g * LIKELY,
             _ => true,
         })
         .collect();
@@ -392,6 +392,6 @@ fn screened_margins(model: &Model, screen: &Screen, work: &Analysis) -> Result<W
     Ok(worst_of(&rows))
 }
 
-/// The first round of a screened scenario takes the conductors whose predicted margin (the
-/// bound without the safety factor) lies within this factor of the smallest one.
-const LIKELY: f64 = 1.25;
+/// The first round of a screened scenario takes the conductors whose bound lies below this
+/// factor times the guess at the worst margin.
+const LIKELY: f64 = 1.0;
