@@ -152,7 +152,7 @@ pub(super) fn cases(
 
 /// Scenario fields formed together from the basis (a few per worker thread, so that their
 /// sums stay in cache and the margins of one block keep every thread busy).
-const FIELD_BLOCK: usize = 8;
+const FIELD_BLOCK: usize = 4;
 
 /// A work analysis on `mesh` for one worker thread, its fields formed from the basis.
 pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
