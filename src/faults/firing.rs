@@ -74,7 +74,7 @@ pub fn gap_capacitances(
     networks: &[Network],
 ) -> Vec<Vec<Option<f64>>> {
     let floating = super::transient::floating_electrodes(model, basis);
-    let (f, row) = super::transient::floating_rows(&floating);
+    let (f, row) = super::clamp::floating_rows(&floating);
     let c = &basis.capacitance.c_f;
     // A singular matrix leaves every gap without a capacitance (and no repetition figures).
     let lu = nalgebra::DMatrix::from_fn(f.len(), f.len(), |i, j| c[f[i]][f[j]]).lu();

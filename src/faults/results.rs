@@ -203,7 +203,10 @@ pub struct FaultReplay {
     /// Scenarios whose field checks were shared with an identical one (the same resistor in
     /// another string).
     pub shared_evaluations: usize,
-    pub notes: Vec<String>,
+    /// What the replay assumes, as data (`report::faults::notes` words them; the JSON
+    /// carries the words).
+    #[serde(skip)]
+    pub notes: Vec<ReplayNote>,
 }
 
 impl FaultReplay {
@@ -316,6 +319,9 @@ pub struct ReplayOptions {
     pub seed: u64,
     /// Sections shorted for the conditioning spark energy (empty = none).
     pub shorted_sections: Vec<Section>,
+    /// Evaluate every row of every scenario, instead of screening the conductors whose rows
+    /// cannot set a scenario's worst margin (the same results, slower; for checking).
+    pub exhaustive: bool,
 }
 
 impl Default for ReplayOptions {
@@ -324,6 +330,7 @@ impl Default for ReplayOptions {
             samples: 200,
             seed: 1,
             shorted_sections: Vec::new(),
+            exhaustive: false,
         }
     }
 }
