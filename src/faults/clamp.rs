@@ -9,7 +9,7 @@ use crate::grading::Network;
 use crate::model::Model;
 
 /// A protective gap between two electrodes as the transient sees it: `a` and `b` its ends
-/// (None = earth), `clamp_v` the most it holds (the top of its firing band).
+/// (None = ground), `clamp_v` the most it holds (the top of its firing band).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct GapLink {
     pub a: Option<usize>,

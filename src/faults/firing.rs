@@ -38,7 +38,7 @@ pub struct RepetitiveFiring {
     pub power_w: f64,
 }
 
-/// Capacitance across electrodes `a` and `b` (None = earth) just after a fast charge
+/// Capacitance across electrodes `a` and `b` (None = ground) just after a fast charge
 /// transfer between them, the electrodes marked `floating` keeping their charges and the rest
 /// holding: C = q/(ΔV_b − ΔV_a) with ΔV_F = C_FF⁻¹·Δq. None when neither end floats.
 pub fn transfer_capacitance(

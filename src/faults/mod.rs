@@ -50,7 +50,7 @@ pub use transient::{fast_step, node_electrode, spark_energy_with};
 /// Why the fast transient after a spark cannot be formed.
 #[derive(Debug, Error)]
 pub enum TransientError {
-    #[error("the design has no conductor off earth potential")]
+    #[error("the design has no conductor off ground potential")]
     NothingOffEarth,
     #[error(
         "{electrodes} electrodes in the capacitance matrix, but {floating} / {before} / {after} entries given"
@@ -77,7 +77,7 @@ pub enum TransientError {
     GapsInconsistent { passes: usize },
     #[error("the capacitance matrix with the conducting protective gaps is singular")]
     SingularWithGaps,
-    #[error("no conductor apart from the grading electrodes is off earth potential")]
+    #[error("no conductor apart from the grading electrodes is off ground potential")]
     NoStrayConductor,
     /// Columns and gaps counted from 1, as the user names them.
     #[error("shorted section names column {column}, but the design has {columns} columns")]

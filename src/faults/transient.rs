@@ -114,7 +114,7 @@ fn electrode_spec<'m>(model: &'m Model, basis: &Basis, e: usize) -> Option<&'m P
 }
 
 /// The electrode of node `k` of column `column` (0 = its `from` end, the electrodes in
-/// order, then its `to` end); None for an earthed end or the tank.
+/// order, then its `to` end); None for a grounded end or the tank.
 pub fn node_electrode(model: &Model, basis: &Basis, column: usize, k: usize) -> Option<usize> {
     let col = model.columns.get(column)?;
     let cond = if k == 0 {
@@ -127,7 +127,7 @@ pub fn node_electrode(model: &Model, basis: &Basis, column: usize, k: usize) -> 
     cond.and_then(|c| basis.conductor_electrode.get(c).copied().flatten())
 }
 
-/// The electrodes a terminal-to-tank spark takes to earth: those tied to the terminal voltage
+/// The electrodes a terminal-to-tank spark takes to ground: those tied to the terminal voltage
 /// as marked in `sparked`; when none is (a terminal fed as "stage:N" or given in volts), the
 /// held electrodes at the highest voltage.
 fn choose_sparked(

@@ -248,8 +248,8 @@ pub fn repetition_line(r: &crate::faults::FaultReplay) -> Option<String> {
 pub fn ladder_line(l: &crate::faults::LadderEquivalent) -> String {
     format!(
         "Column '{}' as a capacitive ladder: series {:.2} pF between neighbouring electrodes, \
-         {:.2} pF from each to earth, α = √(C_p/C_s) = {:.3} per gap, αN = {:.2}; the ladder puts \
-         {:.1} kV on the terminal-end gap just after a spark (it keeps only neighbour and earth \
+         {:.2} pF from each to ground, α = √(C_p/C_s) = {:.3} per gap, αN = {:.2}; the ladder puts \
+         {:.1} kV on the terminal-end gap just after a spark (it keeps only neighbour and ground \
          capacitances; the transient scenario uses the whole matrix)",
         l.name,
         l.series_f * 1e12,
