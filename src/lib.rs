@@ -68,3 +68,6 @@ pub mod study;
 pub mod sweep;
 pub mod thermo;
 pub mod units;
+
+#[cfg(test)]
+mod verification;
