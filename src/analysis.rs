@@ -120,7 +120,7 @@ fn field_products(fm: &FieldMap, model: &Model) -> Result<FieldProducts, Analysi
 impl Analysis {
     /// The field map of this solution, for `model` (the model it was solved for). The
     /// node-field table is formed once per analysis, however many maps are taken.
-    pub fn field_map<'a>(&'a self, model: &'a Model) -> FieldMap<'a> {
+    pub(crate) fn field_map<'a>(&'a self, model: &'a Model) -> FieldMap<'a> {
         FieldMap::sharing(
             &self.mesh,
             model,

@@ -4,7 +4,7 @@
 //! Output: consumed by `grading` (electrode potentials), `mesh` (geometry), `solve`, `field` and
 //! the criteria. Nothing here knows about TOML or about the grid.
 
-pub use crate::geometry::{BBox, Point, Shape};
+pub use crate::geometry::{BBox, DrawingSource, Outline, Piece, Point, Shape};
 use serde::Serialize;
 
 /// How a conductor's potential is set, before the grading network resolves it to volts.

@@ -5,7 +5,7 @@
 //! the problem must point at with `# <-- CODE`.
 
 use holdoff::design::{self, ListingKind};
-use holdoff::geometry::Shape;
+use holdoff::model::Shape;
 use holdoff::model::{Origin, PotentialSpec, Tank, Wall};
 use std::path::Path;
 
