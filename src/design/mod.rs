@@ -1,6 +1,6 @@
 //! The design file: parse, validate, expand generators into a `model::Model`.
 //!
-//! Input: the text of a TOML design file (DESIGN §3). Output: the validated `Model` in SI
+//! Input: the text of a TOML design file (docs/design-file.md). Output: the validated `Model` in SI
 //! units, or a [`DesignError`] listing every problem with its key path, line, column and what
 //! is accepted. Two stages, as the file is read:
 //!

@@ -2,7 +2,7 @@
 //! samples for the overlap and enclosure tests; a short description in millimetres.
 //!
 //! Input: the shape keys of a `[[conductor]]`, `[[dielectric]]` or `[[vacuum]]` table
-//! (DESIGN §3: sphere, torus, rounded_cylinder, tube, disc, polygon; and outline, read from a
+//! (docs/design-file.md: sphere, torus, rounded_cylinder, tube, disc, polygon; and outline, read from a
 //! DXF drawing by `drawing`). Output: a validated
 //! `Shape` in metres, or located problems (negative or zero sizes, reversed intervals, corner
 //! radii that do not fit, self-intersecting outlines, keys the shape does not use).

@@ -1,4 +1,4 @@
-//! The high-voltage cautions that end every terminal run and every report (DESIGN §7).
+//! The high-voltage cautions that end every terminal run and every report (SAFETY.md).
 //!
 //! Generic, jurisdiction-free wording; the figures (stored energy, gas) come from the run.
 

@@ -21,7 +21,7 @@ pub struct StageRow {
     pub stored_energy_j: f64,
 }
 
-/// The section (DESIGN §6 `ladder`; stable keys, SI units).
+/// The section (the JSON section `ladder`; stable keys, SI units).
 #[derive(Debug, Clone, Serialize)]
 pub struct LadderSection {
     pub topology: String,

@@ -66,7 +66,7 @@ pub struct MeshInfo {
     pub surface_samples: usize,
 }
 
-/// Solver figures (DESIGN §6 `solver`).
+/// Solver figures (the JSON section `solver`).
 #[derive(Debug, Clone, Serialize)]
 pub struct SolverSeconds {
     pub assembly_s: f64,
@@ -87,7 +87,7 @@ pub struct SolverInfo {
     pub memory_bytes: usize,
 }
 
-/// One conductor's peak (DESIGN §6 `conductors`).
+/// One conductor's peak (the JSON section `conductors`).
 #[derive(Debug, Clone, Serialize)]
 pub struct ConductorRow {
     pub name: String,
@@ -100,7 +100,7 @@ pub struct ConductorRow {
     pub extrapolated_peak_v_per_m: Option<f64>,
 }
 
-/// One probe (DESIGN §6 `probes`).
+/// One probe (the JSON section `probes`).
 #[derive(Debug, Clone, Serialize)]
 pub struct ProbeRow {
     pub name: String,
@@ -122,11 +122,12 @@ pub struct Report {
     pub grid_study: Option<GridStudy>,
     /// Electrostatic energy of the solved field, ½∫εE²dV, J.
     pub field_energy_j: f64,
-    /// The multiplier stack, when the design has one (DESIGN §6 `ladder`).
+    /// The multiplier stack, when the design has one (the JSON section `ladder`).
     pub ladder: Option<ladder::LadderSection>,
     /// The terminal voltage against the multiplier's output, when a stack is modelled.
     pub terminal_reconciliation: Option<crate::stack::TerminalReconciliation>,
-    /// Ranked margin rows, worst first (DESIGN §6 `margins`); empty until margins are added.
+    /// Ranked margin rows, worst first (the JSON section `margins`); empty until margins are
+    /// added.
     #[serde(serialize_with = "margin_rows")]
     pub margins: Vec<MarginRow>,
     /// Hold-off voltage with the limits as used (gas rows derated where they are), V.
