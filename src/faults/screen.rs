@@ -282,16 +282,22 @@ impl Screen {
     }
 }
 
-/// |E| at the marked free nodes of the field loaded in `work` (0 elsewhere).
+/// |E| at the marked free nodes of the field loaded in `work` (0 elsewhere), read from its
+/// node-field table (formed here when the scenario's margins have not formed it yet, and kept
+/// for them).
 fn node_magnitudes(model: &Model, work: &Analysis, marked: &[bool]) -> Vec<f64> {
-    use rayon::prelude::*;
-    let fm = FieldMap::new(&work.mesh, model, &work.solution.phi, &work.potentials);
-    (0..work.mesh.nodes())
-        .into_par_iter()
-        .with_min_len(4096)
-        .map(|k| {
-            if marked[k] {
-                let e = fm.node_field(k);
+    let fm = FieldMap::sharing(
+        &work.mesh,
+        model,
+        &work.solution.phi,
+        &work.potentials,
+        &work.node_fields,
+    );
+    fm.node_fields()
+        .iter()
+        .zip(marked)
+        .map(|(e, &m)| {
+            if m {
                 crate::geometry::magnitude(e[0], e[1])
             } else {
                 0.0

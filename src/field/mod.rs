@@ -132,8 +132,10 @@ impl<'a> FieldMap<'a> {
         }
     }
 
-    /// The field at every node (zero at fixed nodes), as [`FieldMap::node_field`].
-    fn node_fields(&self) -> &[[f64; 2]] {
+    /// The field at every node (zero at fixed nodes), as [`FieldMap::node_field`]: formed on
+    /// first use and kept (in the shared table when the map was made by
+    /// [`FieldMap::sharing`]).
+    pub fn node_fields(&self) -> &[[f64; 2]] {
         let cache = match &self.node_fields {
             NodeFields::Own(c) => c,
             NodeFields::Shared(c) => *c,
