@@ -30,6 +30,8 @@ pub struct Basis {
     /// Unit solution of each electrode on the free nodes.
     phi: Vec<Vec<f32>>,
     pub capacitance: CapacitanceMatrix,
+    /// The surface samples of the mesh, placed once for every field formed from the basis.
+    pub surface_plan: crate::field::SurfacePlan,
     /// Figures of the last unit solve (for the analyses formed from the basis).
     pub info: SolveInfo,
 }
@@ -144,6 +146,7 @@ impl Basis {
                 asymmetry: if scale > 0.0 { asymmetry / scale } else { 0.0 },
                 iterations,
             },
+            surface_plan: crate::field::SurfacePlan::of(mesh, model),
             info,
         })
     }

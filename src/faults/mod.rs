@@ -247,7 +247,7 @@ fn load_field(
     // and the samples and the margins then share one table formed from this field.
     work.node_fields = std::sync::OnceLock::new();
     work.samples = FieldMap::sharing(&work.mesh, model, &phi, &potentials, &work.node_fields)
-        .surface_samples();
+        .surface_samples_planned(&basis.surface_plan);
     work.peaks.clear();
     work.probes.clear();
     work.energy_j = 0.0;
