@@ -336,6 +336,9 @@ pub fn replay(
     let basis_seconds = t_basis.elapsed().as_secs_f64();
     let t_scenarios = std::time::Instant::now();
     progress(0);
+    // One copy of the mesh shared by every work analysis of the scenarios (its insulator
+    // sites and fits then formed once for all of them).
+    let work_mesh = std::sync::Arc::new(mesh.clone());
 
     let set = scenarios::cases(model, &networks, options, &mut notes)?;
     let done = std::sync::atomic::AtomicUsize::new(0);
@@ -345,7 +348,7 @@ pub fn replay(
     };
     let (raw, shared_evaluations) = scenarios::evaluate(
         model,
-        mesh,
+        &work_mesh,
         &basis,
         stage_v,
         &set.cases,
@@ -382,7 +385,7 @@ pub fn replay(
         &basis,
         &networks,
         &before,
-        &mut scenarios::work_analysis(mesh, &basis),
+        &mut scenarios::work_analysis(&work_mesh, &basis),
         (&nominal_gaps, nominal_worst),
     )?;
     // A spark's energy, when anything can spark.
