@@ -12,7 +12,7 @@
 //! Both sides of every ratio run on the same thread count, in the same process.
 
 use holdoff::faults::{FaultReplay, ReplayOptions, replay};
-use holdoff::mesh::Mesh;
+use holdoff::review::Mesh;
 use holdoff::solve::SolverParams;
 
 /// The fastest (basis, scenarios) wall seconds of `repeats` replays on `threads` threads, and

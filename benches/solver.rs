@@ -4,7 +4,7 @@
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use holdoff::benchmark;
-use holdoff::solve::operator::Scheme;
+use holdoff::solve::Scheme;
 use std::time::Duration;
 
 fn solver(c: &mut Criterion) {

@@ -43,8 +43,8 @@ pub struct Analysis {
     /// Electrostatic energy of the solved field, J.
     pub energy_j: f64,
     /// The field at every node of `solution.phi`, formed on first use and kept for every
-    /// later [`Analysis::field_map`] (the margins, the plots). Whoever changes `solution.phi`
-    /// or `potentials` in place empties it (`OnceLock::new()`).
+    /// later field map of the crate (`Analysis::field_map`: the margins, the plots). Whoever
+    /// changes `solution.phi` or `potentials` in place empties it (`OnceLock::new()`).
     pub node_fields: OnceLock<Vec<[f64; 2]>>,
 }
 
@@ -120,7 +120,7 @@ fn field_products(fm: &FieldMap, model: &Model) -> Result<FieldProducts, Analysi
 impl Analysis {
     /// The field map of this solution, for `model` (the model it was solved for). The
     /// node-field table is formed once per analysis, however many maps are taken.
-    pub fn field_map<'a>(&'a self, model: &'a Model) -> FieldMap<'a> {
+    pub(crate) fn field_map<'a>(&'a self, model: &'a Model) -> FieldMap<'a> {
         FieldMap::sharing(
             &self.mesh,
             model,

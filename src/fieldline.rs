@@ -86,11 +86,6 @@ impl FieldLine {
         }
         out
     }
-
-    /// Field magnitude at the start (the surface value of the hotspot), V/m.
-    pub fn start_field(&self) -> f64 {
-        self.samples.first().map_or(0.0, |s| s.e_v_per_m)
-    }
 }
 
 /// Controls of the tracer, as fractions of the local grid spacing.

@@ -4,7 +4,7 @@
 //! Output: consumed by `grading` (electrode potentials), `mesh` (geometry), `solve`, `field` and
 //! the criteria. Nothing here knows about TOML or about the grid.
 
-use crate::geometry::{BBox, Point, Shape};
+pub use crate::geometry::{BBox, DrawingSource, Outline, Piece, Point, Shape};
 use serde::Serialize;
 
 /// How a conductor's potential is set, before the grading network resolves it to volts.
@@ -47,6 +47,19 @@ pub struct Conductor {
     pub shape: Shape,
     pub potential: PotentialSpec,
     pub origin: Origin,
+}
+
+impl Conductor {
+    /// A conductor at a fixed potential in volts, built by a program rather than read from a
+    /// design file.
+    pub fn fixed(name: &str, shape: Shape, volts: f64) -> Self {
+        Conductor {
+            name: name.into(),
+            shape,
+            potential: PotentialSpec::Absolute { volts },
+            origin: Origin::Program,
+        }
+    }
 }
 
 /// A region of piecewise-constant permittivity.

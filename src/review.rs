@@ -4,16 +4,27 @@
 //! Input: a validated model. Output: a `Review` holding each stage's plain result, used by
 //! `check`, `compare` and `sweep` alike so that all three see the same numbers.
 
-use crate::analysis::{Analysis, AnalysisError, analyze, analyze_on};
-use crate::field::Medium;
-use crate::grading::GradingError;
-use crate::grading::summary::{ColumnSummary, summarize};
-use crate::margin::{MarginError, MarginRow, Margins, RowMedium, evaluate};
+// The result types a review holds, named here for the library's users.
+pub use crate::analysis::{Analysis, AnalysisError, ProbeResult};
+pub use crate::field::{
+    ConductorPeak, InsulatorPeak, InsulatorSample, JunctionSample, Medium, PointField,
+    SurfaceSample,
+};
+pub use crate::grading::summary::{ColumnSummary, ProtectiveSummary};
+pub use crate::grading::{GradingError, Network, NetworkError, NetworkSolution, ProtectiveGap};
+pub use crate::margin::{
+    Holdoff, LineSummary, MarginError, MarginRow, Margins, RowMedium, Scaling, Status,
+};
+pub use crate::mesh::{FixedId, Holder, Mesh, MeshError, builds as meshes_built};
+
+use crate::analysis::{analyze, analyze_on};
+use crate::grading::summary::summarize;
+use crate::margin::evaluate;
 use crate::model::Model;
 use crate::solve::SolverParams;
 use crate::stack::{StackAnalysis, StackError, analyze_stack_keeping_mesh};
-use crate::study::Accuracy;
-use crate::study::{GridStudy, grid_study};
+use crate::study::grid_study;
+pub use crate::study::{Accuracy, GridStudy, InsulatorStudy, JunctionStudy, PeakStudy};
 use thiserror::Error;
 
 #[derive(Debug, Error)]

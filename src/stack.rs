@@ -8,7 +8,10 @@
 //! `"stage:N"` for every stage N. Their capacitance matrix comes from unit-potential solves
 //! on the design's own mesh (the one loop the architecture allows, passing plain numbers).
 
-use crate::capacitance::{CapacitanceMatrix, capacitance_matrix};
+// The capacitance types a stack analysis and a fault replay carry, named here for the
+// library's users.
+use crate::capacitance::capacitance_matrix;
+pub use crate::capacitance::{CapacitanceMatrix, Electrode};
 use crate::ladder::{
     ClosedForm, Column, LadderError, LadderParams, LadderResult, SimControls, closed_form, simulate,
 };

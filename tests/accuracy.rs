@@ -13,9 +13,9 @@
 mod common;
 
 use common::conductor;
-use holdoff::field::Medium;
-use holdoff::geometry::Shape;
+use holdoff::model::Shape;
 use holdoff::model::{Dielectric, Gas, MeshSpec, Model, Origin, Tank, VacuumRegion, Wall};
+use holdoff::review::Medium;
 use holdoff::review::review;
 use holdoff::solve::SolverParams;
 

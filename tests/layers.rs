@@ -34,6 +34,8 @@ const STAGES: &[(&str, u32)] = &[
     ("compare", 14),
     ("benchmark", 14),
     ("report", 15),
+    // In-crate tests (`#[cfg(test)]`): they may check every stage.
+    ("verification", 16),
 ];
 
 fn stage(name: &str) -> Option<u32> {

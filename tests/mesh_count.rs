@@ -1,6 +1,6 @@
 //! A review meshes each design once per round: the fine mesh of a round is solved once and
 //! carried to the margins, and the grid study adds its two coarser meshes. Counted through
-//! `holdoff::mesh::builds`, alone in this test binary so that no other test meshes meanwhile.
+//! `holdoff::review::meshes_built`, alone in this test binary so that no other test meshes meanwhile.
 
 use holdoff::solve::SolverParams;
 
@@ -15,9 +15,9 @@ fn a_review_meshes_the_design_once_per_round() {
     // Without the grid study: one round, one mesh, one solve.
     for name in ["demo_750kv.toml", "stack_300kv.toml"] {
         let model = design(name);
-        let before = holdoff::mesh::builds();
+        let before = holdoff::review::meshes_built();
         let run = holdoff::review::review(&model, &SolverParams::default(), false).expect(name);
-        assert_eq!(holdoff::mesh::builds() - before, 1, "{name}");
+        assert_eq!(holdoff::review::meshes_built() - before, 1, "{name}");
         assert!(run.fine.solution.info.iterations > 0);
     }
     // The stack's automatic strays are taken from that same mesh: its unit solves and the
@@ -32,7 +32,7 @@ fn a_review_meshes_the_design_once_per_round() {
     // With the grid study (as `check` runs it): per round the fine mesh and the study's two
     // coarser ones; the rounds are the accuracy target's refinements plus one.
     let model = design("demo_750kv.toml");
-    let before = holdoff::mesh::builds();
+    let before = holdoff::review::meshes_built();
     let run = holdoff::review::review(&model, &SolverParams::default(), true).expect("demo");
     let rounds = run
         .study
@@ -40,5 +40,5 @@ fn a_review_meshes_the_design_once_per_round() {
         .and_then(|s| s.accuracy.as_ref())
         .map_or(0, |a| a.refinements)
         + 1;
-    assert_eq!(holdoff::mesh::builds() - before, 3 * rounds);
+    assert_eq!(holdoff::review::meshes_built() - before, 3 * rounds);
 }

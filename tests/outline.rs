@@ -10,7 +10,7 @@ use dxf::entities::{Arc, Circle, Entity, EntityType, Line, LwPolyline, Spline};
 use dxf::enums::{AcadVersion, Units};
 use dxf::{Drawing, LwPolylineVertex, Point as DxfPoint};
 use holdoff::drawing::{Axis, DrawingError, Frame, Pick, read_outline};
-use holdoff::geometry::{Point, Shape};
+use holdoff::model::{Point, Shape};
 
 fn on(layer: &str, specific: EntityType) -> Entity {
     let mut e = Entity::new(specific);

@@ -4,7 +4,7 @@
 mod common;
 
 use common::holdoff;
-use holdoff::geometry::{Point, Shape};
+use holdoff::model::{Point, Shape};
 
 /// A solid dome on the axis as a filleted polygon and as a `rounded_cylinder`: the same body
 /// (the corners on the axis are not corners of the solid of revolution, so the polygon must not

@@ -7,7 +7,7 @@
 //! inside test (circle equations, ray casting for polygons), and the bounding box holds every
 //! inside point and touches the surface on each side.
 
-use holdoff::geometry::{Point, Shape};
+use holdoff::model::{Point, Shape};
 use holdoff::units::{Dimension, format_si, lookup_unit, parse, parse_quantity};
 use proptest::prelude::*;
 

@@ -4,7 +4,7 @@
 use anyhow::{Context, Result};
 use clap::Args;
 use holdoff::benchmark;
-use holdoff::solve::operator::Scheme;
+use holdoff::solve::Scheme;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -261,7 +261,7 @@ fn scenario_speedup(file: &Path) -> Result<()> {
     let params = holdoff::solve::SolverParams::default();
     let stack = holdoff::stack::analyze_stack(&d.model, &params, &Default::default())?;
     let stage_v = stack.as_ref().map(|s| s.stage_voltages());
-    let mesh = holdoff::mesh::Mesh::build(&d.model)?;
+    let mesh = holdoff::review::Mesh::build(&d.model)?;
     let options = holdoff::faults::ReplayOptions::default();
     let mut times = Vec::new();
     for threads in [1usize, 2] {

@@ -118,12 +118,12 @@ fn render(cmp: &Comparison, rows: usize) -> String {
         "status before → after",
     ]);
     let right = |s: String| Cell::new(s).set_alignment(CellAlignment::Right);
-    let status = |s: Option<holdoff::margin::Status>, missing: &str| {
+    let status = |s: Option<holdoff::review::Status>, missing: &str| {
         s.map_or(missing.to_string(), |s| s.label().to_string())
     };
     // The first `rows` rows, and every later row that fails after the change.
     let fails =
-        |r: &&holdoff::compare::CompareRow| r.status_after == Some(holdoff::margin::Status::Fail);
+        |r: &&holdoff::compare::CompareRow| r.status_after == Some(holdoff::review::Status::Fail);
     let shown: Vec<_> = cmp
         .rows
         .iter()

@@ -4,8 +4,8 @@
 use anyhow::Result;
 use clap::Args;
 use holdoff::faults::{ReplayOptions, Section, replay, scenario_count};
-use holdoff::mesh::Mesh;
 use holdoff::report::faults::{FaultSection, render};
+use holdoff::review::Mesh;
 use holdoff::solve::SolverParams;
 use std::io::IsTerminal;
 use std::path::PathBuf;

@@ -33,7 +33,6 @@ mod validate;
 pub use gas::GASES;
 pub use listing::{ListingKind, ListingRow, expansion_listing, potential_words};
 pub use problem::{DesignError, Problem};
-pub use schema::{RawDesign, RawValue};
 pub use sections::{OVERRIDES, OverrideKind};
 pub use shapes::describe as describe_shape;
 

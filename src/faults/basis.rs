@@ -43,7 +43,7 @@ impl Basis {
     }
 
     /// As [`Basis::build`], refusing a basis that would not fit `budget`.
-    pub fn build_within(
+    pub(crate) fn build_within(
         model: &Model,
         mesh: &Mesh,
         params: &SolverParams,

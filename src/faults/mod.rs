@@ -38,14 +38,19 @@ mod results;
 mod scenarios;
 mod screen;
 mod transient;
-pub use basis::Basis;
+pub(crate) use basis::Basis;
 use basis::*;
-pub use clamp::{ClampedStep, GapLink, clamped_step, gap_links};
-pub use firing::{RepetitiveFiring, transfer_capacitance};
+#[cfg(test)]
+pub(crate) use clamp::{GapLink, clamped_step};
+pub use firing::RepetitiveFiring;
+#[cfg(test)]
+pub(crate) use firing::transfer_capacitance;
 pub use notes::ReplayNote;
 use notes::network_notes;
 pub use results::*;
-pub use transient::{fast_step, node_electrode, spark_energy_with};
+#[cfg(test)]
+pub(crate) use transient::fast_step;
+pub(crate) use transient::node_electrode;
 
 /// Why the fast transient after a spark cannot be formed.
 #[derive(Debug, Error)]
@@ -471,7 +476,7 @@ fn rank(results: &mut [ScenarioResult]) {
 
 /// Node potentials of every column from conductor potentials: node 0 the `from` end, the
 /// electrodes in order, the last node the `to` end (the tank when an end is missing).
-pub fn column_nodes(model: &Model, conductor_v: &[f64]) -> Vec<Vec<f64>> {
+pub(crate) fn column_nodes(model: &Model, conductor_v: &[f64]) -> Vec<Vec<f64>> {
     let at = |c: Option<usize>| c.and_then(|c| conductor_v.get(c)).copied().unwrap_or(0.0);
     model
         .columns

@@ -253,7 +253,7 @@ pub fn ladder_end_gap(v: f64, alpha: f64, gaps: f64) -> f64 {
 }
 
 /// The ladder equivalents of every column whose electrodes are in the basis.
-pub fn ladder_equivalents(
+pub(crate) fn ladder_equivalents(
     model: &Model,
     basis: &Basis,
     stage_v: Option<&[f64]>,

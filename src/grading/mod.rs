@@ -9,7 +9,7 @@ pub mod leakage;
 mod network;
 pub mod summary;
 
-pub use network::{Network, NetworkError, NetworkSolution, ProtectiveGap, SHORT_FRACTION};
+pub use network::{Network, NetworkError, NetworkSolution, ProtectiveGap};
 
 use crate::model::{Model, PotentialSpec};
 use thiserror::Error;

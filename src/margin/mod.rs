@@ -42,14 +42,13 @@ mod in_vacuum;
 mod on_insulator;
 mod row;
 
-pub use in_gas::STREAMER_MAX_LINES;
 use in_gas::*;
 use in_vacuum::*;
 use on_insulator::*;
 use row::*;
 pub use row::{
-    Holdoff, LineSummary, MarginRow, Margins, RowMedium, Scaling, SharpCorner, Status, holdoff,
-    rank, sharp_corners,
+    Holdoff, LineSummary, MarginRow, Margins, RowMedium, Scaling, Status, holdoff, rank,
+    sharp_corners,
 };
 
 use serde::Serialize;

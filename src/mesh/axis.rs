@@ -210,10 +210,6 @@ impl Axis {
         self.x.len()
     }
 
-    pub fn is_empty(&self) -> bool {
-        self.x.is_empty()
-    }
-
     /// Index of the last node at or below `v` (clamped to the axis).
     pub fn locate(&self, v: f64) -> usize {
         let n = self.x.len();

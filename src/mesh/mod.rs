@@ -22,11 +22,10 @@ mod sites;
 
 pub use axis::Axis;
 use axis::*;
+#[cfg(test)]
+pub use budget::mem_available;
 use budget::*;
-pub use budget::{
-    Budget, GRID_STUDY_SHARE, MAX_NODES, MEMORY_HEADROOM, MESH_BYTES_PER_NODE, MeshEstimate,
-    SOLVER_BYTES_PER_NODE, estimate, mem_available,
-};
+pub use budget::{Budget, MESH_BYTES_PER_NODE, MeshEstimate, SOLVER_BYTES_PER_NODE, estimate};
 use classify::*;
 
 use crate::geometry::{Point, Shape, crossing};
@@ -105,8 +104,6 @@ impl FixedId {
     }
 }
 
-/// The tank (always at 0 V); the same as [`FixedId::TANK`].
-pub const TANK: FixedId = FixedId::TANK;
 /// A free node; the same as [`FixedId::FREE`].
 pub const FREE: FixedId = FixedId::FREE;
 
@@ -192,16 +189,6 @@ impl CutTable {
         }
         self.rows[self.slot[k] as usize][d as usize] = Some(cut);
     }
-
-    /// Nodes with at least one cut link.
-    pub fn cut_nodes(&self) -> usize {
-        self.rows.len()
-    }
-
-    /// Bytes held.
-    pub fn bytes(&self) -> usize {
-        self.slot.len() * 4 + self.rows.len() * std::mem::size_of::<[Option<Cut>; 4]>()
-    }
 }
 
 impl std::ops::Index<usize> for CutTable {
@@ -233,25 +220,25 @@ pub const DIRS: [Dir; 4] = [Dir::E, Dir::W, Dir::N, Dir::S];
 /// The grid with its node classes, surface cuts and link permittivities.
 #[derive(Debug, Clone)]
 pub struct Mesh {
-    pub r: Axis,
-    pub z: Axis,
+    pub(crate) r: Axis,
+    pub(crate) z: Axis,
     /// Per node (index `j * nr + i`): free, a conductor, or the tank.
-    pub fixed: Vec<FixedId>,
+    pub(crate) fixed: Vec<FixedId>,
     /// Per node and direction: the cut, where the link from this free node ends on a surface.
-    pub cuts: CutTable,
+    pub(crate) cuts: CutTable,
     /// Effective relative permittivity of the r-link from node (i, j) to (i + 1, j), per node
     /// index (the last column is unused); for a cut link, over the free part only.
-    pub eps_r_link: Vec<f32>,
+    pub(crate) eps_r_link: Vec<f32>,
     /// As `eps_r_link` for the z-link from (i, j) to (i, j + 1).
-    pub eps_z_link: Vec<f32>,
+    pub(crate) eps_z_link: Vec<f32>,
     /// Relative permittivity at each node (for field evaluation and plots).
-    pub eps_node: Vec<f32>,
+    pub(crate) eps_node: Vec<f32>,
     /// ln(r[i+1]/r[i]) for every radial link off the axis (0 for the link from the axis).
-    pub r_log: Vec<f64>,
+    pub(crate) r_log: Vec<f64>,
     /// Number of conductors in the model.
-    pub n_conductors: usize,
+    pub(crate) n_conductors: usize,
     /// Spacing controls used.
-    pub cell: f64,
+    pub(crate) cell: f64,
     /// Where grid links cross the free surface of each dielectric, found on first use (they
     /// depend on the geometry only, so every field on this mesh shares them).
     insulator_sites: OnceLock<Vec<Vec<InsulatorSite>>>,
@@ -323,7 +310,11 @@ impl Mesh {
     /// As [`Mesh::build_with`], refusing the mesh when the run (mesh, solve and grid study)
     /// is estimated to need more than `budget`; the estimate is made before anything the size
     /// of the mesh is allocated.
-    pub fn build_within(model: &Model, snap: bool, budget: Budget) -> Result<Mesh, MeshError> {
+    pub(crate) fn build_within(
+        model: &Model,
+        snap: bool,
+        budget: Budget,
+    ) -> Result<Mesh, MeshError> {
         MESH_BUILDS.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
         let spec = model.mesh.clone();
         check_controls(&spec)?;

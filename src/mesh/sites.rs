@@ -5,7 +5,7 @@ use super::*;
 impl Mesh {
     /// The free-surface sites of dielectric `index` of `model` (the model this mesh was built
     /// from), computed for every dielectric on first use.
-    pub fn insulator_sites(&self, model: &Model, index: usize) -> &[InsulatorSite] {
+    pub(crate) fn insulator_sites(&self, model: &Model, index: usize) -> &[InsulatorSite] {
         let all = self.insulator_sites.get_or_init(|| {
             (0..model.dielectrics.len())
                 .map(|d| self.find_insulator_sites(model, d))

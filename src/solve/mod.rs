@@ -6,14 +6,17 @@
 //! into every report. A solve that does not reach its tolerance is an `Err` carrying the
 //! residual reached, never a quiet warning.
 
-pub mod krylov;
-pub mod multigrid;
-pub mod operator;
+pub(crate) mod krylov;
+pub(crate) mod multigrid;
+pub(crate) mod operator;
 
 use crate::mesh::Mesh;
-use krylov::{KrylovParams, bicgstab, pcg};
-use multigrid::{MgParams, Multigrid};
-use operator::{Operator, Scheme};
+pub use krylov::KrylovParams;
+use krylov::{bicgstab, pcg};
+pub use multigrid::MgParams;
+use multigrid::Multigrid;
+use operator::Operator;
+pub use operator::Scheme;
 use serde::Serialize;
 use std::time::Instant;
 use thiserror::Error;
@@ -96,7 +99,7 @@ pub struct Solution {
 /// shares nothing but costs no new setup: it copies the hierarchy with its own work vectors,
 /// so that right-hand sides can be solved side by side.
 #[derive(Clone)]
-pub struct Solver {
+pub(crate) struct Solver {
     pub op: Operator,
     mg: Multigrid,
     params: SolverParams,

@@ -1,15 +1,13 @@
 //! Capacitance from Gauss's law on unit-potential solves, against closed forms
 //! (docs/references.md §10).
 
-mod common;
-
-use common::conductor;
-use holdoff::capacitance::{capacitance_matrix, electrodes};
-use holdoff::field::EPSILON_0;
-use holdoff::geometry::Shape;
-use holdoff::mesh::Mesh;
-use holdoff::model::{MeshSpec, Model, Tank, Wall};
-use holdoff::solve::SolverParams;
+use super::common::conductor;
+use crate::capacitance::{capacitance_matrix, electrodes};
+use crate::field::EPSILON_0;
+use crate::geometry::Shape;
+use crate::mesh::Mesh;
+use crate::model::{MeshSpec, Model, Tank, Wall};
+use crate::solve::SolverParams;
 use std::f64::consts::PI;
 
 /// Concentric spheres: C = 4πε₀ab/(b − a) (check row 24: a = 0.1 m, b = 0.2 m → 22.25 pF),

@@ -1,31 +1,25 @@
-//! `holdoff bench --export` writes the benchmark operator and its right-hand side in the
+//! The benchmark export (`holdoff bench --export`) writes the benchmark operator and its right-hand side in the
 //! Matrix Market exchange format (docs/references.md §18); read back, they are the same
 //! matrix and vector, bit for bit, and the matrix read back acts on a vector as the operator.
 
-mod common;
-
-use holdoff::benchmark::{EXPORT_MATRIX, EXPORT_RHS, problem};
-use holdoff::mesh::Mesh;
-use holdoff::solve::operator::{Operator, Scheme};
+use crate::benchmark::{EXPORT_MATRIX, EXPORT_RHS, export_operator, problem};
+use crate::mesh::Mesh;
+use crate::solve::operator::{Operator, Scheme};
 
 #[test]
 fn exported_operator_reads_back_as_the_same_matrix() {
     let dir = tempfile::tempdir().expect("temporary folder");
     let nodes = 3_000;
-    let out = common::holdoff()
-        .args(["bench", "--sizes", "3000", "--repeat", "1", "--export"])
-        .arg(dir.path())
-        .output()
-        .expect("holdoff runs");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    // The files as `holdoff bench --export` writes them.
+    let (exported_rows, files) = export_operator(nodes).expect("the operator exports");
+    for (name, bytes) in &files {
+        crate::report::write_atomic(&dir.path().join(name), bytes).expect("written");
+    }
     let model = problem(nodes);
     let mesh = Mesh::build_with(&model, false).expect("benchmark mesh");
     let op = Operator::assemble(&mesh, Scheme::Symmetric);
     let rows = op.rows();
+    assert_eq!(exported_rows, rows);
 
     // The matrix, through sprs's own reader of the format.
     let tri = sprs::io::read_matrix_market::<f64, usize, _>(dir.path().join(EXPORT_MATRIX))

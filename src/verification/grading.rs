@@ -1,9 +1,8 @@
 //! The DC grading network against hand-solved dividers (Ohm's and Kirchhoff's laws for series
 //! and parallel resistors, any circuits text) and the fault figures of docs/practice.md §2.4 (derived).
 
-mod common;
-
-use holdoff::grading::{self, Network, ProtectiveGap};
+use super::common;
+use crate::grading::{self, Network, ProtectiveGap};
 
 fn rel(a: f64, b: f64) -> f64 {
     (a - b).abs() / b.abs()
@@ -165,7 +164,7 @@ fn bad_values_are_errors_naming_what_is_accepted() {
 /// A small invented column: ground shield, five tori, terminal, with an alumina tube from the
 /// shield's top face (z = 150 mm) to the terminal's bottom face (z = 450 mm): six gaps of
 /// 50 mm. `extra` is appended to the `[[column]]` table.
-fn column_design(extra: &str) -> holdoff::model::Model {
+fn column_design(extra: &str) -> crate::model::Model {
     let tube = r#"[[dielectric]]
 name = "support tube"
 material = "alumina"
@@ -174,7 +173,7 @@ r = ["40 mm", "50 mm"]
 z = ["150 mm", "450 mm"]"#;
     let column = format!("electrodes = 5\nz_first = \"200 mm\"\npitch = \"50 mm\"\n{extra}");
     let text = common::small_column("300 kV", tube, &column);
-    match holdoff::design::from_str(&text, "grading_test.toml") {
+    match crate::design::from_str(&text, "grading_test.toml") {
         Ok(m) => m,
         Err(e) => panic!("{e}"),
     }

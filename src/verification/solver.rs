@@ -1,9 +1,9 @@
 //! Solver behaviour: multigrid iterations under refinement, residuals, both schemes.
 
-use holdoff::benchmark;
-use holdoff::mesh::Mesh;
-use holdoff::solve::operator::{Operator, Scheme};
-use holdoff::solve::{Solver, SolverParams};
+use crate::benchmark;
+use crate::mesh::Mesh;
+use crate::solve::operator::{Operator, Scheme};
+use crate::solve::{Solver, SolverParams};
 
 /// Iterations to 1e-10 relative residual grow by at most 2 from the coarsest to the finest of
 /// four refinements (each halving the spacing), for both boundary schemes.
@@ -34,7 +34,7 @@ fn a_warm_start_of_the_wrong_length_is_an_error() {
     let sol = solver.solve(&[1e6], None).expect("solve");
     let short = &sol.phi[..sol.phi.len() - 1];
     match solver.solve(&[1e6], Some(short)) {
-        Err(holdoff::solve::SolveError::GuessLength { expected, got }) => {
+        Err(crate::solve::SolveError::GuessLength { expected, got }) => {
             assert_eq!(expected, sol.phi.len());
             assert_eq!(got, sol.phi.len() - 1);
         }
@@ -99,9 +99,9 @@ fn symmetric_scheme_matrix_is_symmetric() {
 #[test]
 fn thin_gas_strip_next_to_the_tank_floor_solves() {
     let text = std::fs::read_to_string("examples/demo_750kv.toml").expect("demo file");
-    let model = holdoff::design::from_str(&text, "demo_750kv.toml").expect("valid demo");
+    let model = crate::design::from_str(&text, "demo_750kv.toml").expect("valid demo");
     let mesh = Mesh::build(&model).expect("mesh");
-    let pots = holdoff::grading::potentials(&model, None).expect("potentials");
+    let pots = crate::grading::potentials(&model, None).expect("potentials");
     for scheme in [Scheme::ShortleyWeller, Scheme::Symmetric] {
         let mut solver = Solver::new(
             &mesh,

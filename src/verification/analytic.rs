@@ -1,16 +1,14 @@
 //! Field-solver checks against closed-form electrostatics and an independent image-charge
 //! series. Sources are named beside each check (see docs/references.md §10).
 
-mod common;
-
-use common::{conductor, sphere_above_plane};
-use holdoff::analysis::{Analysis, analyze};
-use holdoff::field::{EPSILON_0, FieldMap};
-use holdoff::geometry::{Point, Shape};
-use holdoff::mesh::Mesh;
-use holdoff::model::{Dielectric, MeshSpec, Model, Origin, PotentialSpec, Probe, Tank, Wall};
-use holdoff::solve::{Solver, SolverParams};
-use holdoff::study::grid_study;
+use super::common::{conductor, sphere_above_plane};
+use crate::analysis::{Analysis, analyze};
+use crate::field::{EPSILON_0, FieldMap};
+use crate::geometry::{Point, Shape};
+use crate::mesh::Mesh;
+use crate::model::{Dielectric, MeshSpec, Model, Origin, PotentialSpec, Probe, Tank, Wall};
+use crate::solve::{Solver, SolverParams};
+use crate::study::grid_study;
 
 fn uniform(cell: f64) -> MeshSpec {
     MeshSpec::graded(cell, cell, 1.0)

@@ -3,11 +3,11 @@
 //! second construction, the Span–Wagner vapour-pressure equation), the real-gas density at
 //! 1 atm, condensation refused at parse time, and a mixture without a rule of its own.
 
-use holdoff::breakdown::gas::{GasKind, GasState, mixture_rule};
-use holdoff::design;
-use holdoff::margin;
-use holdoff::solve::SolverParams;
-use holdoff::thermo::{self, species};
+use crate::breakdown::gas::{GasKind, GasState, mixture_rule};
+use crate::design;
+use crate::margin;
+use crate::solve::SolverParams;
+use crate::thermo::{self, species};
 
 fn rel(a: f64, b: f64) -> f64 {
     ((a - b) / b).abs()
@@ -103,7 +103,7 @@ fn criteria_take_the_real_gas_through_the_twenty_degree_pressure() {
     // pressure of the hot fill is still the 20 °C filling pressure, and the hot pressure lies
     // more than 1 % above the ideal-gas scaling (SF6 at 5 bar: Z about 0.92 at 20 °C, the range
     // asserted above, rising by 2 % or more by 60 °C).
-    let gas = |p: f64, t: f64| holdoff::breakdown::gas::pure("SF6", p, t);
+    let gas = |p: f64, t: f64| crate::breakdown::gas::pure("SF6", p, t);
     let s20 = GasState::resolve(&gas(5e5, c(20.0))).unwrap();
     assert!(rel(s20.reduced_pressure_pa, 5e5) < 1e-9);
     assert!(s20.compressibility < 0.95 && s20.compressibility > 0.90);
@@ -175,7 +175,7 @@ fn nitrogen_carbon_dioxide_mixture_runs_with_its_stated_rule() {
     let gas = model.gas.as_ref().unwrap();
     assert_eq!(GasState::resolve(gas).unwrap().kind, GasKind::Co2);
     assert!(mixture_rule(gas).is_some());
-    let fine = holdoff::analysis::analyze(&model, &SolverParams::default(), None).unwrap();
+    let fine = crate::analysis::analyze(&model, &SolverParams::default(), None).unwrap();
     let m = margin::evaluate(&model, &fine, None).expect("margins");
     assert!(!m.rows.is_empty());
     assert!(m.notes.iter().any(|n| n.contains("weakest")));
@@ -183,7 +183,7 @@ fn nitrogen_carbon_dioxide_mixture_runs_with_its_stated_rule() {
     let co2 =
         design_with_gas("species = \"CO2\"\npressure = \"1.5 bar\"\ntemperature = \"20 degC\"");
     let co2 = design::from_str(&co2, "t.toml").unwrap();
-    let fine2 = holdoff::analysis::analyze(&co2, &SolverParams::default(), None).unwrap();
+    let fine2 = crate::analysis::analyze(&co2, &SolverParams::default(), None).unwrap();
     let m2 = margin::evaluate(&co2, &fine2, None).unwrap();
     let limits = |m: &margin::Margins| m.rows.iter().map(|r| r.limit).collect::<Vec<_>>();
     assert_eq!(limits(&m), limits(&m2));
