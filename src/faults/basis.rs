@@ -85,13 +85,16 @@ impl Basis {
             .chunks(per)
             .map(|c| c.to_vec())
             .collect();
+        // One solver per run: the set-up one and copies of it (no idle original kept).
         let setup = Solver::new(mesh, *params);
+        let mut solvers: Vec<Solver> = (1..runs.len()).map(|_| setup.clone()).collect();
+        solvers.push(setup);
         let free_ref = &free;
         type Unit = (usize, Vec<f32>, Vec<f64>, SolveInfo);
         let solved: Vec<Vec<Unit>> = runs
             .par_iter()
-            .map(|run| -> Result<Vec<Unit>, FaultError> {
-                let mut solver = setup.clone();
+            .zip(solvers)
+            .map(|(run, mut solver)| -> Result<Vec<Unit>, FaultError> {
                 let mut out: Vec<Unit> = Vec::with_capacity(run.len());
                 let mut last: Option<Vec<f64>> = None;
                 for &(j, g) in run {
@@ -111,7 +114,6 @@ impl Basis {
                 Ok(out)
             })
             .collect::<Result<_, _>>()?;
-        drop(setup);
         let mut c_f = vec![vec![0.0; n]; n];
         let mut phi: Vec<Vec<f32>> = Vec::with_capacity(n);
         let mut iterations = 0;

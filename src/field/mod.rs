@@ -86,15 +86,6 @@ impl SurfacePlan {
     pub fn of(mesh: &Mesh, model: &Model) -> SurfacePlan {
         FieldMap::new(mesh, model, &[], &[]).surface_plan()
     }
-
-    /// How many samples the plan holds.
-    pub fn len(&self) -> usize {
-        self.samples.len()
-    }
-
-    pub fn is_empty(&self) -> bool {
-        self.samples.is_empty()
-    }
 }
 
 /// One surface sample without its field, and how the field follows from the potentials: the
