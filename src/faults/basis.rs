@@ -16,7 +16,7 @@ pub(super) const SUM_BLOCK: usize = 2048;
 ///
 /// Each unit solution is held on the free nodes only (a fixed node's potential is its
 /// conductor's) and in single precision: its rounding, 6e-8 of the unit potential, lies far
-/// below the solver's own error and the discretisation error (tests/faults.rs
+/// below the solver's own error and the discretisation error (src/verification/faults.rs
 /// `basis_field_equals_a_direct_solve` measures the whole difference against direct solves).
 /// The sums are formed in double precision.
 pub struct Basis {

@@ -13,8 +13,8 @@
 //! worst margin found so far (from the insulator rows and the conductors that must be
 //! evaluated); the rows it leaves out are above the worst one, so the scenario's worst row —
 //! its item, criterion and margin — is the one a full evaluation gives, bit for bit.
-//! [`super::ReplayOptions::exhaustive`] evaluates every row instead (tests/faults.rs compares
-//! the two).
+//! [`super::ReplayOptions::exhaustive`] evaluates every row instead
+//! (src/verification/faults.rs compares the two).
 
 use crate::analysis::Analysis;
 use crate::breakdown::LimitKind;
@@ -27,8 +27,8 @@ use crate::model::Model;
 /// from the surface samples in a scenario (holdoff's choice). Measured with every row formed,
 /// on every conductor of every scenario of the demo and tandem fault sets, the bound held
 /// without it (the smallest ratio of a conductor's margin to its bound was 1.0, reached where
-/// the field did not change); `benches/faults.rs` and tests/faults.rs check that the screened
-/// replay equals the exhaustive one.
+/// the field did not change); `benches/faults.rs` and src/verification/faults.rs check that
+/// the screened replay equals the exhaustive one.
 pub const SAFETY: f64 = 1.1;
 
 /// A field below this fraction of a conductor's nominal peak surface field counts as this

@@ -403,42 +403,20 @@ impl FieldMap<'_> {
 mod tests {
     use super::*;
 
-    /// A small invented column in SF6 with an alumina tube between a grounded shield and the
-    /// terminal, on a 4 mm mesh.
-    const TUBE_DESIGN: &str = r#"
-title = "tube between two electrodes"
-[tank]
-inner_radius = "250 mm"
-length = "700 mm"
-[gas]
-species = "SF6"
-pressure = "2 bar"
-temperature = "20 degC"
-[terminal]
-voltage = "300 kV"
-[[conductor]]
-name = "ground shield"
-shape = "rounded_cylinder"
-r = ["0 mm", "120 mm"]
-z = ["0 mm", "150 mm"]
-corner_radius = "20 mm"
-potential = "ground"
-[[conductor]]
-name = "terminal"
-shape = "rounded_cylinder"
-r = ["0 mm", "120 mm"]
-z = ["450 mm", "600 mm"]
-corner_radius = "30 mm"
-potential = "terminal"
-[[dielectric]]
+    /// The verification's small invented column in SF6 with an alumina tube between the
+    /// grounded shield and the terminal, on a 4 mm mesh.
+    fn tube_design() -> String {
+        crate::verification::common::small_column(
+            "300 kV",
+            r#"[[dielectric]]
 name = "support tube"
 material = "alumina"
 shape = "tube"
 r = ["40 mm", "50 mm"]
-z = ["150 mm", "450 mm"]
-[mesh]
-cell = "4 mm"
-"#;
+z = ["150 mm", "450 mm"]"#,
+            "electrodes = 5\nz_first = \"200 mm\"\npitch = \"50 mm\"\ngrading = { resistor = \"1 GOhm\" }",
+        )
+    }
 
     /// A least-squares quadratic through exact values of a quadratic is that quadratic, so
     /// the weights of every site, applied to the nodal values of
@@ -447,7 +425,7 @@ cell = "4 mm"
     /// against the closed-form derivative).
     #[test]
     fn site_weights_reproduce_the_gradient_of_a_quadratic() {
-        let model = match crate::design::from_str(TUBE_DESIGN, "tube.toml") {
+        let model = match crate::design::from_str(&tube_design(), "tube.toml") {
             Ok(m) => m,
             Err(e) => panic!("{e}"),
         };
