@@ -34,7 +34,7 @@ pub struct ProbeResult {
 
 /// The result of one solve of a model.
 pub struct Analysis {
-    pub mesh: Mesh,
+    pub mesh: std::sync::Arc<Mesh>,
     pub potentials: Vec<f64>,
     pub solution: Solution,
     pub samples: Vec<SurfaceSample>,
@@ -74,7 +74,7 @@ pub fn analyze_on(
     let energy_j = fm.energy(&solver.op);
     let (samples, peaks, probes) = field_products(&fm, model)?;
     Ok(Analysis {
-        mesh,
+        mesh: mesh.into(),
         potentials,
         solution,
         samples,

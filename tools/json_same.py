@@ -1,14 +1,17 @@
 #!/usr/bin/env python3
 """Compare two holdoff JSON outputs, ignoring timings.
 
-Usage: tools/json_same.py A.json B.json
+Usage: tools/json_same.py [--rel X] A.json B.json
 
 A key is a timing when its name is "seconds" or ends in "_seconds" or "_s" (the
 glossary's suffix for seconds); its value
 (a number or an object of numbers) is skipped on both sides. Everything else
 must be equal: same keys in the same order, same numbers to the bit (compared
 as the texts the JSON holds), same strings. Prints the first differences and
-exits 1, or prints "identical apart from timings" and exits 0.
+exits 1, or prints "identical apart from timings" and exits 0. With --rel X, two
+numbers also count as equal when they differ by at most X of the larger magnitude (for a
+change that only reorders sums, such as a precomputed weighting); the largest relative
+difference seen is printed.
 """
 import json
 import sys
@@ -16,6 +19,25 @@ import sys
 
 def is_timing(key):
     return key == "seconds" or key.endswith("_seconds") or key.endswith("_s")
+
+
+REL = None
+WORST = [0.0, ""]
+
+
+def close(a, b, path):
+    """Numbers (as their JSON texts) within REL of each other; records the largest gap."""
+    if REL is None or not (isinstance(a, str) and isinstance(b, str)):
+        return False
+    try:
+        x, y = float(a), float(b)
+    except ValueError:
+        return False
+    scale = max(abs(x), abs(y))
+    d = abs(x - y) / scale if scale > 0 else 0.0
+    if d > WORST[0]:
+        WORST[0], WORST[1] = d, path
+    return d <= REL
 
 
 def walk(a, b, path, out):
@@ -34,7 +56,7 @@ def walk(a, b, path, out):
             out.append(f"{path}: length {len(a)} vs {len(b)}")
         for i, (x, y) in enumerate(zip(a, b)):
             walk(x, y, f"{path}[{i}]", out)
-    elif type(a) is not type(b) or a != b:
+    elif (type(a) is not type(b) or a != b) and not close(a, b, path):
         out.append(f"{path}: {a!r} vs {b!r}")
 
 
@@ -45,14 +67,21 @@ def load(path):
 
 
 def main():
-    if len(sys.argv) != 3:
+    global REL
+    args = sys.argv[1:]
+    if len(args) == 4 and args[0] == "--rel":
+        REL = float(args[1])
+        args = args[2:]
+    if len(args) != 2:
         sys.exit(__doc__)
     out = []
-    walk(load(sys.argv[1]), load(sys.argv[2]), "$", out)
+    walk(load(args[0]), load(args[1]), "$", out)
+    if REL is not None:
+        print(f"largest relative difference {WORST[0]:.3e} at {WORST[1] or '-'}")
     if out:
         print("\n".join(out))
         sys.exit(1)
-    print("identical apart from timings")
+    print("identical apart from timings" if REL is None else f"equal within {REL:g} apart from timings")
 
 
 if __name__ == "__main__":

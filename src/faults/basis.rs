@@ -16,7 +16,7 @@ pub(super) const SUM_BLOCK: usize = 2048;
 ///
 /// Each unit solution is held on the free nodes only (a fixed node's potential is its
 /// conductor's) and in single precision: its rounding, 6e-8 of the unit potential, lies far
-/// below the solver's own error and the discretisation error (tests/faults.rs
+/// below the solver's own error and the discretisation error (src/verification/faults.rs
 /// `basis_field_equals_a_direct_solve` measures the whole difference against direct solves).
 /// The sums are formed in double precision.
 pub struct Basis {
@@ -30,6 +30,8 @@ pub struct Basis {
     /// Unit solution of each electrode on the free nodes.
     phi: Vec<Vec<f32>>,
     pub capacitance: CapacitanceMatrix,
+    /// The surface samples of the mesh, placed once for every field formed from the basis.
+    pub surface_plan: crate::field::SurfacePlan,
     /// Figures of the last unit solve (for the analyses formed from the basis).
     pub info: SolveInfo,
 }
@@ -83,13 +85,16 @@ impl Basis {
             .chunks(per)
             .map(|c| c.to_vec())
             .collect();
+        // One solver per run: the set-up one and copies of it (no idle original kept).
         let setup = Solver::new(mesh, *params);
+        let mut solvers: Vec<Solver> = (1..runs.len()).map(|_| setup.clone()).collect();
+        solvers.push(setup);
         let free_ref = &free;
         type Unit = (usize, Vec<f32>, Vec<f64>, SolveInfo);
         let solved: Vec<Vec<Unit>> = runs
             .par_iter()
-            .map(|run| -> Result<Vec<Unit>, FaultError> {
-                let mut solver = setup.clone();
+            .zip(solvers)
+            .map(|(run, mut solver)| -> Result<Vec<Unit>, FaultError> {
                 let mut out: Vec<Unit> = Vec::with_capacity(run.len());
                 let mut last: Option<Vec<f64>> = None;
                 for &(j, g) in run {
@@ -109,7 +114,6 @@ impl Basis {
                 Ok(out)
             })
             .collect::<Result<_, _>>()?;
-        drop(setup);
         let mut c_f = vec![vec![0.0; n]; n];
         let mut phi: Vec<Vec<f32>> = Vec::with_capacity(n);
         let mut iterations = 0;
@@ -144,6 +148,7 @@ impl Basis {
                 asymmetry: if scale > 0.0 { asymmetry / scale } else { 0.0 },
                 iterations,
             },
+            surface_plan: crate::field::SurfacePlan::of(mesh, model),
             info,
         })
     }

@@ -252,7 +252,7 @@ fn load_field(
     // and the samples and the margins then share one table formed from this field.
     work.node_fields = std::sync::OnceLock::new();
     work.samples = FieldMap::sharing(&work.mesh, model, &phi, &potentials, &work.node_fields)
-        .surface_samples();
+        .surface_samples_planned(&basis.surface_plan);
     work.peaks.clear();
     work.probes.clear();
     work.energy_j = 0.0;
@@ -341,6 +341,9 @@ pub fn replay(
     let basis_seconds = t_basis.elapsed().as_secs_f64();
     let t_scenarios = std::time::Instant::now();
     progress(0);
+    // One copy of the mesh shared by every work analysis of the scenarios (its insulator
+    // sites and fits then formed once for all of them).
+    let work_mesh = std::sync::Arc::new(mesh.clone());
 
     let set = scenarios::cases(model, &networks, options, &mut notes)?;
     let done = std::sync::atomic::AtomicUsize::new(0);
@@ -350,7 +353,7 @@ pub fn replay(
     };
     let (raw, shared_evaluations) = scenarios::evaluate(
         model,
-        mesh,
+        &work_mesh,
         &basis,
         stage_v,
         &set.cases,
@@ -387,7 +390,7 @@ pub fn replay(
         &basis,
         &networks,
         &before,
-        &mut scenarios::work_analysis(mesh, &basis),
+        &mut scenarios::work_analysis(&work_mesh, &basis),
         (&nominal_gaps, nominal_worst),
     )?;
     // A spark's energy, when anything can spark.
@@ -454,10 +457,14 @@ pub fn scenario_count(model: &Model, samples: usize) -> usize {
     n + 1
 }
 
-/// Sorts worst margin first (no number last, in their order) and numbers the ranks.
+/// Sorts worst margin first (no number last, in their order) and numbers the ranks. Margins
+/// are compared to 24 significant bits (a part in 1.7e7): scenarios whose margins differ by
+/// rounding only (every one that leaves the worst row's field unchanged) keep the order of
+/// the scenarios, instead of an order that a change in the last bits of a sum would shuffle.
 fn rank(results: &mut [ScenarioResult]) {
+    let key = |x: f64| f64::from_bits(x.to_bits() & !((1u64 << 29) - 1));
     results.sort_by(|a, b| match (a.worst_margin, b.worst_margin) {
-        (Some(x), Some(y)) => x.total_cmp(&y),
+        (Some(x), Some(y)) => key(x).total_cmp(&key(y)),
         (Some(_), None) => std::cmp::Ordering::Less,
         (None, Some(_)) => std::cmp::Ordering::Greater,
         (None, None) => std::cmp::Ordering::Equal,

@@ -16,6 +16,7 @@ use crate::mesh::Mesh;
 use crate::model::Model;
 use crate::solve::Solution;
 use rayon::prelude::*;
+use std::sync::Arc;
 
 /// SplitMix64 (Steele, Lea and Flood 2014): a small, seedable, portable generator, so that a
 /// seed gives the same draws on every platform.
@@ -154,10 +155,11 @@ pub(super) fn cases(
 /// sums stay in cache and the margins of one block keep every thread busy).
 const FIELD_BLOCK: usize = 4;
 
-/// A work analysis on `mesh` for one worker thread, its fields formed from the basis.
-pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
+/// A work analysis on `mesh` (shared, not copied) for one worker thread, its fields formed
+/// from the basis.
+pub(super) fn work_analysis(mesh: &Arc<Mesh>, basis: &Basis) -> Analysis {
     Analysis {
-        mesh: mesh.clone(),
+        mesh: Arc::clone(mesh),
         potentials: Vec::new(),
         solution: Solution {
             phi: Vec::new(),
@@ -177,7 +179,7 @@ pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
 /// many cases shared an identical one's evaluation.
 pub(super) fn evaluate(
     model: &Model,
-    mesh: &Mesh,
+    mesh: &Arc<Mesh>,
     basis: &Basis,
     stage_v: Option<&[f64]>,
     cases: &[Case],

@@ -13,8 +13,8 @@
 //! worst margin found so far (from the insulator rows and the conductors that must be
 //! evaluated); the rows it leaves out are above the worst one, so the scenario's worst row —
 //! its item, criterion and margin — is the one a full evaluation gives, bit for bit.
-//! [`super::ReplayOptions::exhaustive`] evaluates every row instead (tests/faults.rs compares
-//! the two).
+//! [`super::ReplayOptions::exhaustive`] evaluates every row instead
+//! (src/verification/faults.rs compares the two).
 
 use crate::analysis::Analysis;
 use crate::breakdown::LimitKind;
@@ -27,8 +27,8 @@ use crate::model::Model;
 /// from the surface samples in a scenario (holdoff's choice). Measured with every row formed,
 /// on every conductor of every scenario of the demo and tandem fault sets, the bound held
 /// without it (the smallest ratio of a conductor's margin to its bound was 1.0, reached where
-/// the field did not change); `benches/faults.rs` and tests/faults.rs check that the screened
-/// replay equals the exhaustive one.
+/// the field did not change); `benches/faults.rs` and src/verification/faults.rs check that
+/// the screened replay equals the exhaustive one.
 pub const SAFETY: f64 = 1.1;
 
 /// A field below this fraction of a conductor's nominal peak surface field counts as this
@@ -282,16 +282,22 @@ impl Screen {
     }
 }
 
-/// |E| at the marked free nodes of the field loaded in `work` (0 elsewhere).
+/// |E| at the marked free nodes of the field loaded in `work` (0 elsewhere), read from its
+/// node-field table (formed here when the scenario's margins have not formed it yet, and kept
+/// for them).
 fn node_magnitudes(model: &Model, work: &Analysis, marked: &[bool]) -> Vec<f64> {
-    use rayon::prelude::*;
-    let fm = FieldMap::new(&work.mesh, model, &work.solution.phi, &work.potentials);
-    (0..work.mesh.nodes())
-        .into_par_iter()
-        .with_min_len(4096)
-        .map(|k| {
-            if marked[k] {
-                let e = fm.node_field(k);
+    let fm = FieldMap::sharing(
+        &work.mesh,
+        model,
+        &work.solution.phi,
+        &work.potentials,
+        &work.node_fields,
+    );
+    fm.node_fields()
+        .iter()
+        .zip(marked)
+        .map(|(e, &m)| {
+            if m {
                 crate::geometry::magnitude(e[0], e[1])
             } else {
                 0.0

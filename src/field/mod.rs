@@ -75,6 +75,37 @@ pub struct ConductorPeak {
     pub scatter_v_per_m: f64,
 }
 
+/// The surface samples of one mesh and model, placed once ([`FieldMap::surface_plan`]).
+#[derive(Debug, Clone)]
+pub struct SurfacePlan {
+    samples: Vec<PlannedSample>,
+}
+
+impl SurfacePlan {
+    /// The plan of `mesh` built from `model` (no field is needed to place the samples).
+    pub fn of(mesh: &Mesh, model: &Model) -> SurfacePlan {
+        FieldMap::new(mesh, model, &[], &[]).surface_plan()
+    }
+}
+
+/// One surface sample without its field, and how the field follows from the potentials: the
+/// derivative along the link Σ w·y over the surface and node values (divided by r at the
+/// surface where the fit was made in ln r), divided by the cosine to the normal.
+#[derive(Debug, Clone)]
+struct PlannedSample {
+    sample: SurfaceSample,
+    terms: Vec<(Term, f64)>,
+    radial_r: Option<f64>,
+    cosine: f64,
+}
+
+/// A value along a sample's link: a free node's potential or a conductor's.
+#[derive(Debug, Clone, Copy)]
+enum Term {
+    Node(u32),
+    Fixed(FixedId),
+}
+
 /// Potential and field at a point.
 #[derive(Debug, Clone, Copy, Serialize)]
 pub struct PointField {
@@ -132,8 +163,10 @@ impl<'a> FieldMap<'a> {
         }
     }
 
-    /// The field at every node (zero at fixed nodes), as [`FieldMap::node_field`].
-    fn node_fields(&self) -> &[[f64; 2]] {
+    /// The field at every node (zero at fixed nodes), as [`FieldMap::node_field`]: formed on
+    /// first use and kept (in the shared table when the map was made by
+    /// [`FieldMap::sharing`]).
+    pub fn node_fields(&self) -> &[[f64; 2]] {
         let cache = match &self.node_fields {
             NodeFields::Own(c) => c,
             NodeFields::Shared(c) => *c,
@@ -210,8 +243,20 @@ impl<'a> FieldMap<'a> {
 
     /// Every usable surface sample on conductors (and on a spherical tank wall).
     pub fn surface_samples(&self) -> Vec<SurfaceSample> {
+        self.surface_plan()
+            .samples
+            .iter()
+            .map(|s| self.apply(s))
+            .collect()
+    }
+
+    /// Every surface sample of this mesh and model, with the weights that give its field from
+    /// the potentials: the geometry of [`FieldMap::surface_samples`], formed once for many
+    /// fields on one mesh (the scenarios of a fault replay), each then read by
+    /// [`FieldMap::surface_samples_planned`] with the same numbers, bit for bit.
+    pub fn surface_plan(&self) -> SurfacePlan {
         let m = self.mesh;
-        let mut out = Vec::new();
+        let mut samples = Vec::new();
         for k in 0..m.nodes() {
             if !m.fixed[k].is_free() {
                 continue;
@@ -224,17 +269,44 @@ impl<'a> FieldMap<'a> {
                     // Flat tank walls are not checked here.
                     continue;
                 }
-                if let Some(s) = self.sample(k, d, cut.theta, cut.id) {
-                    out.push(s);
+                if let Some(s) = self.plan_sample(k, d, cut.theta, cut.id) {
+                    samples.push(s);
                 }
             }
         }
-        out
+        SurfacePlan { samples }
+    }
+
+    /// The surface samples of this field from a plan made on the same mesh and model.
+    pub fn surface_samples_planned(&self, plan: &SurfacePlan) -> Vec<SurfaceSample> {
+        plan.samples.iter().map(|s| self.apply(s)).collect()
+    }
+
+    /// One planned sample with this field's potentials.
+    fn apply(&self, s: &PlannedSample) -> SurfaceSample {
+        let mut d = 0.0;
+        for &(term, w) in &s.terms {
+            let y = match term {
+                Term::Node(q) => self.phi[q as usize],
+                Term::Fixed(id) => self.fixed_potential(id),
+            };
+            d += w * y;
+        }
+        let dphi_ds = match s.radial_r {
+            Some(r) => d / r,
+            None => d,
+        };
+        let e_normal = -(dphi_ds / s.cosine);
+        SurfaceSample {
+            e: e_normal.abs(),
+            e_normal,
+            ..s.sample
+        }
     }
 
     /// The surface sample where the link from free node `k` in direction `d` meets conductor
-    /// `id` at fraction `theta`.
-    fn sample(&self, k: usize, d: Dir, theta: f64, id: FixedId) -> Option<SurfaceSample> {
+    /// `id` at fraction `theta`, as its place and the weights of its normal derivative.
+    fn plan_sample(&self, k: usize, d: Dir, theta: f64, id: FixedId) -> Option<PlannedSample> {
         let m = self.mesh;
         let (_, h) = self.step(k, d)?;
         let p = m.point(k);
@@ -252,14 +324,13 @@ impl<'a> FieldMap<'a> {
         if cosine < MIN_COSINE {
             return None;
         }
-        let vb = self.fixed_potential(id);
         let (medium, eps_r) = self.medium_at(Point::new(0.5 * (b.r + p.r), 0.5 * (b.z + p.z)));
         // Points along the link away from the surface: the free node, then up to two more
         // free nodes of the same medium, or the next surface met on the way.
         let back = Self::opposite(d);
-        let mut xs: Vec<(f64, f64)> = vec![(0.0, vb)];
+        let mut xs: Vec<(f64, Term)> = vec![(0.0, Term::Fixed(id))];
         if theta >= 0.1 {
-            xs.push((s1, self.phi[k]));
+            xs.push((s1, Term::Node(k as u32)));
         }
         let mut node = k;
         let mut dist = s1;
@@ -271,42 +342,51 @@ impl<'a> FieldMap<'a> {
                     break;
                 };
                 if let Some(c2) = m.cuts[node][back as usize] {
-                    xs.push((dist + c2.theta * h2, self.fixed_potential(c2.id)));
+                    xs.push((dist + c2.theta * h2, Term::Fixed(c2.id)));
                     break;
                 }
                 if !m.fixed[q].is_free() || !same(q) {
                     break;
                 }
                 dist += h2;
-                xs.push((dist, self.phi[q]));
+                xs.push((dist, Term::Node(q as u32)));
                 node = q;
             }
         }
         if xs.len() < 2 {
-            xs.push((s1, self.phi[k]));
+            xs.push((s1, Term::Node(k as u32)));
         }
         // Along r the fit is made in ln r, in which the field of any surface coaxial with the
         // axis is linear; the derivative is taken back to r at the surface.
         let radial = matches!(d, Dir::E | Dir::W);
-        let dphi_ds = if radial && b.r > 0.0 && xs.iter().all(|&(x, _)| b.r - unit.r * x > 0.0) {
-            let us: Vec<(f64, f64)> = xs
-                .iter()
-                .map(|&(x, y)| (((b.r - unit.r * x) / b.r).ln() * -unit.r, y))
-                .collect();
-            lagrange_derivative_at_zero(&us) / b.r
-        } else {
-            lagrange_derivative_at_zero(&xs)
-        };
-        let dphi_dn = dphi_ds / cosine;
-        let e_normal = -dphi_dn;
-        Some(SurfaceSample {
-            at: b,
-            conductor: id,
-            e: e_normal.abs(),
-            e_normal,
-            normal: n,
-            medium,
-            eps_r,
+        let (at, radial_r) =
+            if radial && b.r > 0.0 && xs.iter().all(|&(x, _)| b.r - unit.r * x > 0.0) {
+                let us: Vec<f64> = xs
+                    .iter()
+                    .map(|&(x, _)| ((b.r - unit.r * x) / b.r).ln() * -unit.r)
+                    .collect();
+                (us, Some(b.r))
+            } else {
+                (xs.iter().map(|&(x, _)| x).collect(), None)
+            };
+        let terms = lagrange_weights_at_zero(&at)
+            .into_iter()
+            .zip(&xs)
+            .map(|(w, &(_, t))| (t, w))
+            .collect();
+        Some(PlannedSample {
+            sample: SurfaceSample {
+                at: b,
+                conductor: id,
+                e: 0.0,
+                e_normal: 0.0,
+                normal: n,
+                medium,
+                eps_r,
+            },
+            terms,
+            radial_r,
+            cosine,
         })
     }
 
@@ -435,28 +515,40 @@ impl<'a> FieldMap<'a> {
 }
 
 /// Derivative at x = 0 of the polynomial through the points `(x, y)` (the first at x = 0).
+#[cfg(test)]
 fn lagrange_derivative_at_zero(pts: &[(f64, f64)]) -> f64 {
+    let xs: Vec<f64> = pts.iter().map(|&(x, _)| x).collect();
     let mut d = 0.0;
-    for (j, &(xj, yj)) in pts.iter().enumerate() {
-        let w = if j == 0 {
-            -pts[1..].iter().map(|&(x, _)| 1.0 / x).sum::<f64>()
-        } else {
-            let mut num = 1.0;
-            let mut den = 1.0;
-            for (k, &(xk, _)) in pts.iter().enumerate() {
-                if k == j {
-                    continue;
-                }
-                den *= xj - xk;
-                if k != 0 {
-                    num *= -xk;
-                }
-            }
-            num / den
-        };
-        d += w * yj;
+    for (w, &(_, y)) in lagrange_weights_at_zero(&xs).iter().zip(pts) {
+        d += w * y;
     }
     d
+}
+
+/// The weights of the one-sided derivative along a link: the derivative at x = 0 of the polynomial
+/// through values at `xs` (xs[0] = 0) is Σ_j w_j y_j.
+fn lagrange_weights_at_zero(xs: &[f64]) -> Vec<f64> {
+    xs.iter()
+        .enumerate()
+        .map(|(j, &xj)| {
+            if j == 0 {
+                -xs[1..].iter().map(|&x| 1.0 / x).sum::<f64>()
+            } else {
+                let mut num = 1.0;
+                let mut den = 1.0;
+                for (k, &xk) in xs.iter().enumerate() {
+                    if k == j {
+                        continue;
+                    }
+                    den *= xj - xk;
+                    if k != 0 {
+                        num *= -xk;
+                    }
+                }
+                num / den
+            }
+        })
+        .collect()
 }
 
 #[cfg(test)]

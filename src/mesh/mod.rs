@@ -242,6 +242,16 @@ pub struct Mesh {
     /// Where grid links cross the free surface of each dielectric, found on first use (they
     /// depend on the geometry only, so every field on this mesh shares them).
     insulator_sites: OnceLock<Vec<Vec<InsulatorSite>>>,
+    /// The one-sided field fit at each of those sites as weights on node potentials (geometry
+    /// only, formed by `field` on first use and shared by every field on this mesh).
+    insulator_fits: OnceLock<Vec<Vec<Option<SiteFit>>>>,
+}
+
+/// The field at a point as a linear map of free-node potentials, E = Σ_k w_k φ_k, with each
+/// term (node index, (w_r, w_z)) in V/m per volt.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SiteFit {
+    pub terms: Vec<(u32, [f64; 2])>,
 }
 
 /// A point where a grid link crosses the outline of a dielectric on its free surface (not
@@ -335,6 +345,7 @@ impl Mesh {
             r,
             z,
             insulator_sites: OnceLock::new(),
+            insulator_fits: OnceLock::new(),
         };
         mesh.classify(model);
         mesh.check_every_conductor_has_nodes(model)?;

@@ -14,6 +14,15 @@ impl Mesh {
         all.get(index).map_or(&[], |v| v.as_slice())
     }
 
+    /// The field fits of every insulator site of `model` (indexed as `insulator_sites`),
+    /// formed by `form` on first use; `None` where a site has no fit.
+    pub fn insulator_fits(
+        &self,
+        form: impl FnOnce() -> Vec<Vec<Option<SiteFit>>>,
+    ) -> &[Vec<Option<SiteFit>>] {
+        self.insulator_fits.get_or_init(form)
+    }
+
     pub(super) fn find_insulator_sites(&self, model: &Model, index: usize) -> Vec<InsulatorSite> {
         let Some(diel) = model.dielectrics.get(index) else {
             return Vec::new();

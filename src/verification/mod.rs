@@ -6,7 +6,7 @@
 
 mod analytic;
 mod capacitance;
-mod common;
+pub(crate) mod common;
 mod diagnostics;
 mod export;
 mod faults;
