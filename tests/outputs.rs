@@ -110,3 +110,25 @@ fn write_atomic_replaces_an_existing_file() {
     assert_eq!(std::fs::read_to_string(&target).unwrap_or_default(), "new");
     assert_eq!(listing(&dir), ["notes.md"]);
 }
+
+/// `holdoff bench --export DIR` writes the two Matrix Market files the library forms for the
+/// benchmark operator, byte for byte, and nothing else (the library's files are read back
+/// and checked against the operator, docs/references.md §18, in src/verification/export.rs).
+#[test]
+fn bench_export_writes_the_library_files_whole() {
+    let dir = scratch();
+    let out = holdoff()
+        .args(["bench", "--sizes", "3000", "--export"])
+        .arg(dir.path())
+        .output()
+        .expect("runs");
+    common::assert_success(&out);
+    let (_, files) = holdoff::benchmark::export_operator(3000).expect("the operator exports");
+    let mut names: Vec<String> = files.iter().map(|(n, _)| n.to_string()).collect();
+    names.sort();
+    assert_eq!(listing(dir.path()), names);
+    for (name, bytes) in &files {
+        let written = std::fs::read(dir.path().join(name)).expect("written file reads");
+        assert!(written == *bytes, "{name} differs from the library's");
+    }
+}
