@@ -28,7 +28,7 @@ mod relax;
 mod transfer;
 
 use crate::solve::operator::Operator;
-use galerkin::{SLOTS, Slot, galerkin};
+use galerkin::{SLOTS, galerkin};
 use level::Level;
 use nalgebra::{DMatrix, DVector};
 use transfer::{axis_map, coarse_indices, prolong_add, restrict_residual};
@@ -65,23 +65,35 @@ pub struct Multigrid {
 }
 
 impl Multigrid {
-    /// The finest level, read from the operator's rows.
+    /// The finest level, read from the operator's rows a grid row at a time.
     fn fine_level(op: &Operator, nr: usize, nz: usize) -> Level {
-        let mut l = Level::new(nr, nz, false);
         use crate::solve::operator::{ST_C, ST_E, ST_N, ST_S, ST_W};
-        for (k, row) in op.stencil.iter().enumerate().take(nr * nz) {
-            let (i, j) = (k % nr, k / nr);
-            let p = l.p(i, j);
-            for (slot, at) in [
-                (Slot::C, ST_C),
-                (Slot::W, ST_W),
-                (Slot::E, ST_E),
-                (Slot::S, ST_S),
-                (Slot::N, ST_N),
-            ] {
-                l.st[slot as usize][p] = row[at] as f32;
+        let mut l = Level::new(nr, nz, false);
+        let pw = l.pw;
+        let [c, w, e, s, n, ..] = &mut l.st;
+        for (j, (rows, fixed)) in op
+            .stencil
+            .chunks_exact(nr)
+            .zip(op.fixed.chunks_exact(nr))
+            .take(nz)
+            .enumerate()
+        {
+            let row = (j + 1) * pw + 1..(j + 1) * pw + 1 + nr;
+            let slots = [
+                (&mut c[row.clone()], ST_C),
+                (&mut w[row.clone()], ST_W),
+                (&mut e[row.clone()], ST_E),
+                (&mut s[row.clone()], ST_S),
+                (&mut n[row.clone()], ST_N),
+            ];
+            for (out, at) in slots {
+                for (v, st) in out.iter_mut().zip(rows) {
+                    *v = st[at] as f32;
+                }
             }
-            l.mask[p] = u8::from(op.fixed[k] == crate::mesh::FREE);
+            for (m, &f) in l.mask[row].iter_mut().zip(fixed) {
+                *m = u8::from(f == crate::mesh::FREE);
+            }
         }
         l.factor();
         l
@@ -197,19 +209,17 @@ impl Multigrid {
     /// z = M⁻¹ r: one V-cycle from a zero guess.
     pub fn apply(&mut self, r: &[f64], z: &mut [f64]) {
         let l0 = &mut self.levels[0];
-        let nr = l0.nr;
-        for j in 0..l0.nz {
-            let base = (j + 1) * l0.pw + 1;
-            for i in 0..nr {
-                l0.b[base + i] = r[j * nr + i] as f32;
+        let (nr, pw) = (l0.nr, l0.pw);
+        for (rr, bb) in r.chunks_exact(nr).zip(l0.b[pw..].chunks_exact_mut(pw)) {
+            for (b, &v) in bb[1..nr + 1].iter_mut().zip(rr) {
+                *b = v as f32;
             }
         }
         self.cycle(0);
         let l0 = &self.levels[0];
-        for j in 0..l0.nz {
-            let base = (j + 1) * l0.pw + 1;
-            for i in 0..nr {
-                z[j * nr + i] = l0.x[base + i] as f64;
+        for (zr, xx) in z.chunks_exact_mut(nr).zip(l0.x[pw..].chunks_exact(pw)) {
+            for (v, &x) in zr.iter_mut().zip(&xx[1..nr + 1]) {
+                *v = x as f64;
             }
         }
     }
