@@ -1,7 +1,7 @@
 //! The capacitance matrix of the electrodes, from unit-potential solves on one mesh.
 //!
 //! Input: a model and its mesh. Output: the electrode groups (conductors held at the same
-//! potential node form one electrode; earthed conductors belong to the tank) and the Maxwell
+//! potential node form one electrode; grounded conductors belong to the tank) and the Maxwell
 //! capacitance matrix C, Q = C V, from Gauss's law on each electrode: the charge is the flux
 //! of ε∇φ through the links that end on its surface, ε₀·2π·Σ c·(V_surface − φ_node). The
 //! operator and the multigrid hierarchy are built once and reused for every unit solve, each
@@ -27,7 +27,7 @@ pub struct Electrode {
 pub struct CapacitanceMatrix {
     pub electrodes: Vec<Electrode>,
     /// Maxwell capacitance matrix, F: `c_f[i][j]` is the charge on electrode i per volt on
-    /// electrode j with every other electrode and the tank earthed.
+    /// electrode j with every other electrode and the tank grounded.
     pub c_f: Vec<Vec<f64>>,
     /// Largest |C_ij − C_ji| relative to the largest diagonal entry (reciprocity check).
     pub asymmetry: f64,
@@ -36,14 +36,14 @@ pub struct CapacitanceMatrix {
 }
 
 impl CapacitanceMatrix {
-    /// Capacitance of electrode i to the earthed tank and earthed conductors with every
+    /// Capacitance of electrode i to the grounded tank and grounded conductors with every
     /// electrode at the same potential (the row sum), F.
     pub fn to_ground(&self, i: usize) -> f64 {
         self.c_f[i].iter().sum()
     }
 }
 
-/// Groups conductors by potential node: earthed ones belong to the tank and are left out.
+/// Groups conductors by potential node: grounded ones belong to the tank and are left out.
 pub fn electrodes(model: &Model) -> Vec<Electrode> {
     let mut groups: Vec<(PotentialSpec, Electrode)> = Vec::new();
     for (k, c) in model.conductors.iter().enumerate() {

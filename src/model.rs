@@ -274,6 +274,9 @@ pub struct MeshSpec {
     /// Spacing factor of each conductor's neighbourhood (1 unless the accuracy loop refined
     /// it); empty means 1 everywhere.
     pub refine: Vec<f64>,
+    /// Spacing factor of each dielectric's neighbourhood (1 unless the accuracy loop refined
+    /// it for the tangential field along its surface); empty means 1 everywhere.
+    pub refine_dielectric: Vec<f64>,
 }
 
 /// Finest local spacing the geometry-derived start and the refinement may ask for, as a
@@ -315,6 +318,7 @@ impl MeshSpec {
             accuracy: DEFAULT_ACCURACY,
             cells_per_radius: 0.0,
             refine: Vec::new(),
+            refine_dielectric: Vec::new(),
         }
     }
 
@@ -337,6 +341,11 @@ impl MeshSpec {
     /// Spacing factor of conductor `index`'s neighbourhood.
     pub fn refinement(&self, index: usize) -> f64 {
         self.refine.get(index).copied().unwrap_or(1.0)
+    }
+
+    /// Spacing factor of dielectric `index`'s neighbourhood.
+    pub fn dielectric_refinement(&self, index: usize) -> f64 {
+        self.refine_dielectric.get(index).copied().unwrap_or(1.0)
     }
 
     /// Is the spacing derived from the geometry (and refined to the accuracy target)?

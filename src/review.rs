@@ -5,9 +5,10 @@
 //! `check`, `compare` and `sweep` alike so that all three see the same numbers.
 
 use crate::analysis::{Analysis, AnalysisError, analyze, analyze_on};
+use crate::field::Medium;
 use crate::grading::GradingError;
 use crate::grading::summary::{ColumnSummary, summarize};
-use crate::margin::{MarginError, Margins, evaluate};
+use crate::margin::{MarginError, MarginRow, Margins, RowMedium, evaluate};
 use crate::model::Model;
 use crate::solve::SolverParams;
 use crate::stack::{StackAnalysis, StackError, analyze_stack_keeping_mesh};
@@ -50,9 +51,10 @@ pub const COUNTED_WITHIN: f64 = 2.0;
 
 /// Runs the stack (its loaded stage voltages feed "stage:N" potentials), the field solve, the
 /// grid study when asked, and the margins. With the study and a geometry-derived mesh, the
-/// neighbourhoods of the conductors whose peaks enter a margin row within a factor 2 of the
-/// worst and miss the accuracy target are refined (spacing × 1/√2 or finer) and the review
-/// is run again, up to `MAX_REFINEMENTS` times and `MAX_GROWTH` times the first mesh's
+/// neighbourhoods of the conductors and dielectrics whose peaks (surface field; tangential
+/// field along an insulator surface) enter a margin row within a factor 2 of the worst and
+/// miss the accuracy target are refined (spacing × 1/√2 or finer) and the review is run
+/// again, up to `MAX_REFINEMENTS` times and `MAX_GROWTH` times the first mesh's
 /// unknowns; the study then says whether the target was reached.
 pub fn review(
     model: &Model,
@@ -134,66 +136,135 @@ pub fn review(
     }
 }
 
-/// Counted conductors' names, the misses (conductor index, relative error) and the worst
-/// counted error with its conductor's name.
-type Judgement = (Vec<String>, Vec<(usize, f64)>, Option<(String, f64)>);
+/// A surface whose peak is held to the accuracy target: a conductor, or one side of a
+/// dielectric's free surface (its peak tangential field).
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Item {
+    Conductor(usize),
+    Insulator(usize, Medium),
+}
 
-/// The conductors whose peaks count for the accuracy target (a margin row within
-/// `COUNTED_WITHIN` of the worst margin; every conductor when there are no margin rows), those that miss it (index, relative error) and the
-/// worst counted error with its conductor.
+impl Item {
+    fn name(self, model: &Model) -> String {
+        match self {
+            Item::Conductor(k) => model.conductors[k].name.clone(),
+            Item::Insulator(k, side) => format!(
+                "{} ({} side)",
+                model.dielectrics[k].name,
+                if side == Medium::Vacuum {
+                    "vacuum"
+                } else {
+                    "gas"
+                }
+            ),
+        }
+    }
+
+    /// The item a margin row's peak belongs to (triple-junction rows belong to none: they
+    /// are flags whose field depends on the contact geometry, see `margin::on_insulator`).
+    fn of_row(model: &Model, row: &MarginRow) -> Option<Item> {
+        let dielectric = || model.dielectrics.iter().position(|d| d.name == row.item);
+        match row.medium {
+            RowMedium::Gas | RowMedium::Vacuum => model
+                .conductors
+                .iter()
+                .position(|c| c.name == row.item)
+                .map(Item::Conductor),
+            RowMedium::InsulatorGasSide => dielectric().map(|k| Item::Insulator(k, Medium::Gas)),
+            RowMedium::InsulatorVacuumSide => {
+                dielectric().map(|k| Item::Insulator(k, Medium::Vacuum))
+            }
+            RowMedium::TripleJunctionGas | RowMedium::TripleJunctionVacuum => None,
+        }
+    }
+
+    /// The estimated relative error of the item's peak in the study, when it has one.
+    fn error(self, study: &GridStudy) -> Option<f64> {
+        match self {
+            Item::Conductor(k) => study
+                .peaks
+                .iter()
+                .find(|p| p.conductor == k)
+                .map(|p| p.relative_error),
+            Item::Insulator(k, side) => study
+                .insulator_peaks
+                .iter()
+                .find(|p| p.dielectric == k && p.side == side)
+                .map(|p| p.relative_error),
+        }
+    }
+}
+
+/// Counted items' names, the misses (item, relative error) and the worst counted error with
+/// its item's name.
+type Judgement = (Vec<String>, Vec<(Item, f64)>, Option<(String, f64)>);
+
+/// The peaks that count for the accuracy target (conductor and insulator-surface rows within
+/// `COUNTED_WITHIN` of the worst margin of the rows that enter the hold-off voltage; every
+/// conductor when there are no such rows), those that miss it (item, relative error) and the
+/// worst counted error with its item.
 fn judge(model: &Model, margins: &Margins, study: &GridStudy) -> Judgement {
     let worst_margin = margins
         .rows
         .iter()
+        .filter(|r| r.in_holdoff)
         .filter_map(|r| r.margin)
         .fold(f64::INFINITY, f64::min);
-    let mut counted: Vec<usize> = margins
-        .rows
-        .iter()
-        .filter(|r| r.margin.is_some_and(|x| x <= COUNTED_WITHIN * worst_margin))
-        .filter_map(|r| model.conductors.iter().position(|c| c.name == r.item))
-        .collect();
+    let mut counted: Vec<Item> = Vec::new();
     if worst_margin.is_infinite() {
         // No margin row (no gas, no criteria): every conductor's peak is held to the target.
-        counted = (0..model.conductors.len()).collect();
+        counted = (0..model.conductors.len()).map(Item::Conductor).collect();
+    } else {
+        let rows = margins
+            .rows
+            .iter()
+            .filter(|r| r.margin.is_some_and(|x| x <= COUNTED_WITHIN * worst_margin));
+        for item in rows.filter_map(|r| Item::of_row(model, r)) {
+            if !counted.contains(&item) {
+                counted.push(item);
+            }
+        }
     }
-    counted.sort_unstable();
-    counted.dedup();
     let mut misses = Vec::new();
     let mut worst: Option<(String, f64)> = None;
-    for &k in &counted {
-        let Some(p) = study.peaks.iter().find(|p| p.conductor == k) else {
+    for &item in &counted {
+        let Some(e) = item.error(study) else {
             continue;
         };
-        let e = p.relative_error;
         if worst.as_ref().is_none_or(|w| e > w.1) {
-            worst = Some((p.name.clone(), e));
+            worst = Some((item.name(model), e));
         }
         if e > model.mesh.accuracy {
-            misses.push((k, e));
+            misses.push((item, e));
         }
     }
-    let names = counted
-        .iter()
-        .map(|&k| model.conductors[k].name.clone())
-        .collect();
+    let names = counted.iter().map(|i| i.name(model)).collect();
     (names, misses, worst)
 }
 
-/// The mesh controls with each missing conductor's neighbourhood refined by the factor a
-/// second-order error asks for, at least 1/√2 and at most 1/2.9 in one round.
-fn refined(model: &Model, misses: &[(usize, f64)]) -> crate::model::MeshSpec {
+/// The mesh controls with each missing item's neighbourhood (a conductor's, or a
+/// dielectric's for its surface) refined by the factor a second-order error asks for, at
+/// least 1/√2 and at most 1/2.9 in one round.
+fn refined(model: &Model, misses: &[(Item, f64)]) -> crate::model::MeshSpec {
     let mut spec = model.mesh.clone();
     spec.refine
         .resize(model.conductors.len().max(spec.refine.len()), 1.0);
-    for &(k, err) in misses {
-        spec.refine[k] *= (spec.accuracy / err).sqrt().clamp(0.35, 0.707);
+    spec.refine_dielectric.resize(
+        model.dielectrics.len().max(spec.refine_dielectric.len()),
+        1.0,
+    );
+    for &(item, err) in misses {
+        let factor = (spec.accuracy / err).sqrt().clamp(0.35, 0.707);
+        match item {
+            Item::Conductor(k) => spec.refine[k] *= factor,
+            Item::Insulator(k, _) => spec.refine_dielectric[k] *= factor,
+        }
     }
     spec
 }
 
 /// Would the refined mesh (with its solve and grid study) fit this machine's memory budget?
-fn fits_after_refining(model: &Model, misses: &[(usize, f64)]) -> bool {
+fn fits_after_refining(model: &Model, misses: &[(Item, f64)]) -> bool {
     let mut trial = model.clone();
     trial.mesh = refined(model, misses);
     crate::mesh::estimate(&trial, crate::mesh::Budget::of_machine())

@@ -14,6 +14,7 @@
 //! showed below what three grids can see).
 
 use crate::analysis::{Analysis, AnalysisError, analyze};
+use crate::field::{FieldMap, InsulatorPeak, JunctionSample, Medium};
 use crate::model::Model;
 use crate::solve::SolverParams;
 use serde::Serialize;
@@ -43,6 +44,49 @@ pub struct PeakStudy {
     pub convergence: &'static str,
 }
 
+/// The study of the peak tangential field along one side of one insulator's free surface.
+#[derive(Debug, Clone, Serialize)]
+pub struct InsulatorStudy {
+    pub dielectric: usize,
+    pub name: String,
+    /// `gas` or `vacuum`: the side of the surface.
+    pub side: Medium,
+    /// Peaks on the fine, medium and coarse grids, V/m (NaN where a grid has no sample on
+    /// that side).
+    pub peaks_v_per_m: [f64; 3],
+    pub observed_order: Option<f64>,
+    pub extrapolated_v_per_m: f64,
+    /// Estimated numerical error of the fine peak, V/m.
+    pub error_v_per_m: f64,
+    pub relative_error: f64,
+    /// As [`PeakStudy::convergence`].
+    pub convergence: &'static str,
+}
+
+/// The field at one triple junction on the three grids. The value on each grid is the highest
+/// conductor-surface field within 1.5 cells of the insulator, which lies nearer the junction
+/// on each finer grid: it converges where the field at the contact is finite (a flat face
+/// meeting the insulator at a right angle) and grows without bound where the contact is a
+/// field singularity (an acute wedge of gas between a rounded electrode and the insulator, a
+/// dielectric corner against the metal), so it is a number with an error bar only when the
+/// three grids converge.
+#[derive(Debug, Clone, Serialize)]
+pub struct JunctionStudy {
+    pub conductor: usize,
+    pub dielectric: usize,
+    /// `gas` or `vacuum`.
+    pub side: Medium,
+    /// Fields on the fine, medium and coarse grids, V/m (NaN where a grid has no sample).
+    pub fields_v_per_m: [f64; 3],
+    /// "grows with refinement" (the field rises on every finer grid, by at least as much as
+    /// on the last and by more than [`JUNCTION_GROWTH`]: a singularity at the contact or a
+    /// junction the grids do not resolve), "converges" otherwise (Richardson and the grid
+    /// convergence index apply), or "not on every grid".
+    pub convergence: &'static str,
+    /// Estimated relative error of the fine value, only when the grids converge.
+    pub relative_error: Option<f64>,
+}
+
 /// The whole study.
 #[derive(Debug, Clone, Serialize)]
 pub struct GridStudy {
@@ -53,6 +97,10 @@ pub struct GridStudy {
     /// Why the coarsest grid is missing, when it is.
     pub coarse_unavailable: Option<String>,
     pub peaks: Vec<PeakStudy>,
+    /// The insulator surfaces' peak tangential fields, per dielectric and side.
+    pub insulator_peaks: Vec<InsulatorStudy>,
+    /// The triple junctions' fields, per conductor, dielectric and side.
+    pub junctions: Vec<JunctionStudy>,
     /// The accuracy target and whether the mesh met it (set by the review).
     pub accuracy: Option<Accuracy>,
 }
@@ -67,10 +115,11 @@ pub struct Accuracy {
     /// The largest estimated relative error among the counted peaks (the best the mesh
     /// achieved when the target is not reached).
     pub worst_relative_error: f64,
-    /// The conductor with that error.
+    /// The conductor or insulator surface with that error.
     pub worst_item: Option<String>,
-    /// The conductors whose peaks count: those of a margin row within a factor 2 of the
-    /// worst margin.
+    /// The conductors and insulator surfaces ("name (gas side)", "name (vacuum side)") whose
+    /// peaks count: those of a conductor or insulator-surface margin row within a factor 2
+    /// of the worst margin of the rows that enter the hold-off voltage.
     pub counted: Vec<String>,
     /// Refinement rounds made after the first mesh.
     pub refinements: usize,
@@ -95,6 +144,14 @@ pub const ASYMPTOTIC_TOLERANCE: f64 = 0.25;
 /// offset the grid differences (0.0015 %) cannot show. Every bar is therefore at least
 /// ±0.02 %, the measured offset rounded up; it is far below the default target of 0.5 %.
 pub const VALIDATION_FLOOR: f64 = 2e-4;
+
+/// A triple junction whose field rises by more than this fraction from the medium to the fine
+/// grid (and by at least as much as from the coarse to the medium one) is reported as growing
+/// with refinement. A contact singularity E ~ s^(−a), sampled at a distance proportional to
+/// the cell, rises by √2^a − 1 per grid: 1 % for a = 0.03. A weaker rise cannot be told from
+/// the scatter of three grids and gets the conservative bar of an oscillating value instead
+/// (holdoff's choice).
+pub const JUNCTION_GROWTH: f64 = 0.01;
 
 /// Ratio between successive grid spacings of the study.
 pub const RATIO: f64 = std::f64::consts::SQRT_2;
@@ -150,8 +207,10 @@ impl Accuracy {
         if self.reached {
             format!(
                 "accuracy target ±{} reached{growth}: worst estimated error {worst} \
-                 (peaks of the margin rows within a factor 2 of the worst)",
-                pct(self.target)
+                 ({} peaks of the conductor and insulator rows within a factor 2 of the worst \
+                 margin)",
+                pct(self.target),
+                self.counted.len()
             )
         } else if !self.adaptive {
             format!(
@@ -182,8 +241,19 @@ pub fn grid_study(
     medium_model.mesh = model.mesh.scaled(RATIO);
     let mut coarse_model = model.clone();
     coarse_model.mesh = model.mesh.scaled(RATIO * RATIO);
-    let medium = analyze(&medium_model, params, stage_v)?;
-    let (coarse, coarse_unavailable) = match analyze(&coarse_model, params, stage_v) {
+    // The two coarser solves are independent: side by side when both fit in memory beside
+    // the fine one (each solve's numbers are the same either way).
+    let (medium, coarse) = if side_by_side(fine, &medium_model, &coarse_model) {
+        rayon::join(
+            || analyze(&medium_model, params, stage_v),
+            || analyze(&coarse_model, params, stage_v),
+        )
+    } else {
+        let medium = analyze(&medium_model, params, stage_v);
+        (medium, analyze(&coarse_model, params, stage_v))
+    };
+    let medium = medium?;
+    let (coarse, coarse_unavailable) = match coarse {
         Ok(c) => (Some(c), None),
         Err(AnalysisError::Mesh(e)) => (None, Some(e.to_string())),
         Err(e) => return Err(e),
@@ -197,22 +267,21 @@ pub fn grid_study(
                 .as_ref()
                 .map_or(f64::NAN, |c| c.peaks[k].peak_surface_field_v_per_m),
         ];
-        let (order, ext, gci, conv) = richardson(f, RATIO);
-        // The sampling scatter of the fine grid adds to the trend the three grids show; the
-        // bar is never narrower than what the independent references showed the grid
-        // sequence cannot see.
-        let err = (gci + p.scatter_v_per_m).max(VALIDATION_FLOOR * f[0].abs());
+        let e = Estimate::of(f, p.scatter_v_per_m);
         peaks.push(PeakStudy {
             conductor: k,
             name: p.name.clone(),
             peaks_v_per_m: f,
-            observed_order: order,
-            extrapolated_v_per_m: ext,
-            error_v_per_m: err,
-            relative_error: if f[0] > 0.0 { err / f[0] } else { 0.0 },
-            convergence: conv,
+            observed_order: e.order,
+            extrapolated_v_per_m: e.extrapolated,
+            error_v_per_m: e.error,
+            relative_error: e.relative,
+            convergence: e.convergence,
         });
     }
+    let grids = [Some(fine), Some(&medium), coarse.as_ref()];
+    let insulator_peaks = insulator_study(model, grids);
+    let junctions = junction_study(model, grids);
     Ok(GridStudy {
         cells_m: [
             model.mesh.cell,
@@ -226,8 +295,148 @@ pub fn grid_study(
         ],
         coarse_unavailable,
         peaks,
+        insulator_peaks,
+        junctions,
         accuracy: None,
     })
+}
+
+/// The error estimate of one peak from its values on the three grids.
+struct Estimate {
+    order: Option<f64>,
+    extrapolated: f64,
+    error: f64,
+    relative: f64,
+    convergence: &'static str,
+}
+
+impl Estimate {
+    /// Richardson and the grid convergence index on `f` (fine, medium, coarse), plus the
+    /// sampling scatter `scatter` of the fine grid, which adds to the trend the three grids
+    /// show; the bar is never narrower than what the independent references showed the grid
+    /// sequence cannot see ([`VALIDATION_FLOOR`]).
+    fn of(f: [f64; 3], scatter: f64) -> Estimate {
+        let (order, extrapolated, gci, convergence) = richardson(f, RATIO);
+        let error = (gci + scatter).max(VALIDATION_FLOOR * f[0].abs());
+        Estimate {
+            order,
+            extrapolated,
+            error,
+            relative: if f[0] > 0.0 { error / f[0] } else { 0.0 },
+            convergence,
+        }
+    }
+}
+
+/// The study of every insulator surface's peak tangential field (per dielectric and side) on
+/// the grids given (fine, medium, coarse; the coarse one may be missing).
+fn insulator_study(model: &Model, grids: [Option<&Analysis>; 3]) -> Vec<InsulatorStudy> {
+    let peaks_of = |a: Option<&Analysis>| -> Vec<InsulatorPeak> {
+        let Some(a) = a else {
+            return Vec::new();
+        };
+        let fm = FieldMap::new(&a.mesh, model, &a.solution.phi, &a.potentials);
+        (0..model.dielectrics.len())
+            .flat_map(|d| fm.insulator_peaks(d))
+            .collect()
+    };
+    let [fine, medium, coarse] = grids.map(peaks_of);
+    let value = |list: &[InsulatorPeak], p: &InsulatorPeak| {
+        list.iter()
+            .find(|q| q.dielectric == p.dielectric && q.side == p.side)
+            .map_or(f64::NAN, |q| q.e_tangential)
+    };
+    fine.iter()
+        .map(|p| {
+            let f = [p.e_tangential, value(&medium, p), value(&coarse, p)];
+            let e = if f[1].is_finite() {
+                Estimate::of(f, p.scatter_v_per_m)
+            } else {
+                // No sample on this side on the medium grid: no study, the whole value is
+                // the error.
+                Estimate {
+                    order: None,
+                    extrapolated: f[0],
+                    error: f[0].abs(),
+                    relative: 1.0,
+                    convergence: "not resolved",
+                }
+            };
+            InsulatorStudy {
+                dielectric: p.dielectric,
+                name: model.dielectrics[p.dielectric].name.clone(),
+                side: p.side,
+                peaks_v_per_m: f,
+                observed_order: e.order,
+                extrapolated_v_per_m: e.extrapolated,
+                error_v_per_m: e.error,
+                relative_error: e.relative,
+                convergence: e.convergence,
+            }
+        })
+        .collect()
+}
+
+/// The study of every triple junction's field on the grids given (fine, medium, coarse).
+fn junction_study(model: &Model, grids: [Option<&Analysis>; 3]) -> Vec<JunctionStudy> {
+    let junctions_of = |a: Option<&Analysis>| -> Vec<JunctionSample> {
+        let Some(a) = a else {
+            return Vec::new();
+        };
+        let fm = FieldMap::new(&a.mesh, model, &a.solution.phi, &a.potentials);
+        (0..model.dielectrics.len())
+            .flat_map(|d| fm.junction_samples(&a.samples, d))
+            .collect()
+    };
+    let [fine, medium, coarse] = grids.map(junctions_of);
+    let value = |list: &[JunctionSample], j: &JunctionSample| {
+        list.iter()
+            .find(|q| {
+                q.conductor == j.conductor && q.dielectric == j.dielectric && q.side == j.side
+            })
+            .map_or(f64::NAN, |q| q.sample.e)
+    };
+    fine.iter()
+        .filter_map(|j| {
+            let f = [j.sample.e, value(&medium, j), value(&coarse, j)];
+            let (d12, d23) = (f[1] - f[0], f[2] - f[1]);
+            let (convergence, relative_error) = if !f.iter().all(|v| v.is_finite()) {
+                ("not on every grid", None)
+            } else if d12 < -JUNCTION_GROWTH * f[0] && d23 < 0.0 && d12.abs() >= d23.abs() {
+                ("grows with refinement", None)
+            } else {
+                ("converges", Some(Estimate::of(f, 0.0).relative))
+            };
+            Some(JunctionStudy {
+                conductor: j.conductor.conductor_index()?,
+                dielectric: j.dielectric,
+                side: j.side,
+                fields_v_per_m: f,
+                convergence,
+                relative_error,
+            })
+        })
+        .collect()
+}
+
+/// Are the medium and coarse grids meshed and solved at the same time? Only with more than
+/// two worker threads, and when both fit this machine's memory budget beside the fine grid's
+/// mesh and solution. Each solve is already parallel inside, so on two cores the pair gains
+/// nothing and holds both solvers' memory at once: `holdoff demo`, 2 threads, alternating
+/// runs, min of 5 at load 5: 1.66 s and 97 MB side by side, 1.62 s and 55 MB one after the
+/// other (on one thread 3.59 s against 3.30 s, 82 MB against 53 MB).
+fn side_by_side(fine: &Analysis, medium: &Model, coarse: &Model) -> bool {
+    if rayon::current_num_threads() < 3 {
+        return false;
+    }
+    let budget = crate::mesh::Budget::of_machine();
+    let fine_bytes = fine.mesh.nodes() as f64
+        * (crate::mesh::MESH_BYTES_PER_NODE + crate::mesh::SOLVER_BYTES_PER_NODE) as f64;
+    let both = [medium, coarse].iter().try_fold(fine_bytes, |sum, m| {
+        let e = crate::mesh::estimate(m, budget).ok()?;
+        e.exact.then_some(sum + e.mesh_and_solve_bytes)
+    });
+    both.is_some_and(|b| b <= budget.bytes())
 }
 
 #[cfg(test)]

@@ -3,7 +3,8 @@
 
 Usage: tools/json_same.py A.json B.json
 
-A key is a timing when its name is "seconds" or ends in "_seconds"; its value
+A key is a timing when its name is "seconds" or ends in "_seconds" or "_s" (the
+glossary's suffix for seconds); its value
 (a number or an object of numbers) is skipped on both sides. Everything else
 must be equal: same keys in the same order, same numbers to the bit (compared
 as the texts the JSON holds), same strings. Prints the first differences and
@@ -14,7 +15,7 @@ import sys
 
 
 def is_timing(key):
-    return key == "seconds" or key.endswith("_seconds")
+    return key == "seconds" or key.endswith("_seconds") or key.endswith("_s")
 
 
 def walk(a, b, path, out):

@@ -27,6 +27,10 @@ pub struct FaultsArgs {
     /// spark energy, as COLUMN:FIRST-LAST; repeatable.
     #[arg(long = "short-section", value_name = "COLUMN:FIRST-LAST", value_parser = parse_section)]
     pub short_sections: Vec<Section>,
+    /// Evaluate every margin row of every scenario instead of screening out the conductors
+    /// whose rows cannot set a scenario's worst margin (the same results, slower).
+    #[arg(long)]
+    pub exhaustive: bool,
     /// How many of the worst scenarios to show in detail.
     #[arg(long, value_name = "N", default_value_t = 3)]
     pub details: usize,
@@ -48,6 +52,7 @@ pub fn run(args: &FaultsArgs) -> Result<ExitCode> {
         samples: args.samples,
         seed: args.seed,
         shorted_sections: args.short_sections.clone(),
+        exhaustive: args.exhaustive,
     };
     let total = scenario_count(&model, args.samples);
     let show = std::io::stderr().is_terminal();

@@ -21,7 +21,7 @@ pub(super) const SUM_BLOCK: usize = 2048;
 /// The sums are formed in double precision.
 pub struct Basis {
     pub electrodes: Vec<Electrode>,
-    /// Electrode of each conductor (None for earthed conductors).
+    /// Electrode of each conductor (None for grounded conductors).
     pub conductor_electrode: Vec<Option<usize>>,
     /// Mesh nodes that are free, in order; the unit solutions are stored on these.
     free: Vec<u32>,
@@ -162,7 +162,7 @@ impl Basis {
             .collect()
     }
 
-    /// Conductor potentials from electrode potentials (earthed conductors at 0).
+    /// Conductor potentials from electrode potentials (grounded conductors at 0).
     pub fn conductor_potentials(&self, electrode_v: &[f64]) -> Vec<f64> {
         self.conductor_electrode
             .iter()

@@ -38,7 +38,7 @@ pub struct RepetitiveFiring {
     pub power_w: f64,
 }
 
-/// Capacitance across electrodes `a` and `b` (None = earth) just after a fast charge
+/// Capacitance across electrodes `a` and `b` (None = ground) just after a fast charge
 /// transfer between them, the electrodes marked `floating` keeping their charges and the rest
 /// holding: C = q/(ΔV_b − ΔV_a) with ΔV_F = C_FF⁻¹·Δq. None when neither end floats.
 pub fn transfer_capacitance(
@@ -74,7 +74,7 @@ pub fn gap_capacitances(
     networks: &[Network],
 ) -> Vec<Vec<Option<f64>>> {
     let floating = super::transient::floating_electrodes(model, basis);
-    let (f, row) = super::transient::floating_rows(&floating);
+    let (f, row) = super::clamp::floating_rows(&floating);
     let c = &basis.capacitance.c_f;
     // A singular matrix leaves every gap without a capacitance (and no repetition figures).
     let lu = nalgebra::DMatrix::from_fn(f.len(), f.len(), |i, j| c[f[i]][f[j]]).lu();

@@ -14,8 +14,9 @@
 //! are conserved: C_FF ΔV_F + C_FH ΔV_H = 0.
 //!
 //! Files: `basis` (unit solves, superposition), `results` (what a replay gives), `scenarios`
-//! (the DC cases), `transient` (the spark transient), `firing` (repetitive firing), `notes`
-//! (the replay's stated assumptions); this file runs the replay in stages.
+//! (the DC cases), `screen` (which conductor rows a scenario must form), `transient` (the
+//! spark transient), `clamp` (the protective gaps through it), `firing` (repetitive firing),
+//! `notes` (the replay's stated assumptions, as data); this file runs the replay in stages.
 
 use crate::analysis::Analysis;
 use crate::capacitance::{CapacitanceMatrix, Electrode, conductor_charges, electrodes};
@@ -30,24 +31,26 @@ use serde::Serialize;
 use thiserror::Error;
 
 mod basis;
+mod clamp;
 mod firing;
 mod notes;
 mod results;
 mod scenarios;
+mod screen;
 mod transient;
 pub use basis::Basis;
 use basis::*;
+pub use clamp::{ClampedStep, GapLink, clamped_step, gap_links};
 pub use firing::{RepetitiveFiring, transfer_capacitance};
-use notes::*;
+pub use notes::ReplayNote;
+use notes::network_notes;
 pub use results::*;
-pub use transient::{
-    ClampedStep, GapLink, clamped_step, fast_step, gap_links, node_electrode, spark_energy_with,
-};
+pub use transient::{fast_step, node_electrode, spark_energy_with};
 
 /// Why the fast transient after a spark cannot be formed.
 #[derive(Debug, Error)]
 pub enum TransientError {
-    #[error("the design has no conductor off earth potential")]
+    #[error("the design has no conductor off ground potential")]
     NothingOffEarth,
     #[error(
         "{electrodes} electrodes in the capacitance matrix, but {floating} / {before} / {after} entries given"
@@ -74,7 +77,7 @@ pub enum TransientError {
     GapsInconsistent { passes: usize },
     #[error("the capacitance matrix with the conducting protective gaps is singular")]
     SingularWithGaps,
-    #[error("no conductor apart from the grading electrodes is off earth potential")]
+    #[error("no conductor apart from the grading electrodes is off ground potential")]
     NoStrayConductor,
     /// Columns and gaps counted from 1, as the user names them.
     #[error("shorted section names column {column}, but the design has {columns} columns")]
@@ -228,8 +231,43 @@ fn resistor_check(
 /// Worst margin, its item and its criterion.
 type Worst = (Option<f64>, Option<String>, Option<String>);
 
-/// The field checks of one set of conductor potentials, their field formed from the basis
-/// unless `phi` gives it already (from [`Basis::fields_from`]).
+/// Loads one set of conductor potentials into the work analysis `work`: the field formed
+/// from the basis unless `phi` gives it already (from [`Basis::fields_from`]) and its surface
+/// samples, all that the margin rows read (the peaks, probes and energy of an analysis are
+/// left empty: a scenario reports its worst row only).
+fn load_field(
+    model: &Model,
+    basis: &Basis,
+    work: &mut Analysis,
+    potentials: Vec<f64>,
+    phi: Option<Vec<f64>>,
+) {
+    let phi = phi.unwrap_or_else(|| basis.field(&basis.electrode_potentials(&potentials)));
+    // The node-field table belongs to the field it was formed from: a new field empties it,
+    // and the samples and the margins then share one table formed from this field.
+    work.node_fields = std::sync::OnceLock::new();
+    work.samples = FieldMap::sharing(&work.mesh, model, &phi, &potentials, &work.node_fields)
+        .surface_samples();
+    work.peaks.clear();
+    work.probes.clear();
+    work.energy_j = 0.0;
+    work.potentials = potentials;
+    work.solution.phi = phi;
+}
+
+/// The worst row of a ranked set: its margin, item and criterion.
+fn worst_of(rows: &[margin::MarginRow]) -> Worst {
+    match screen::worst_row(rows) {
+        Some(r) => (
+            r.margin,
+            Some(r.item.clone()),
+            Some(r.criterion_name.clone()),
+        ),
+        None => (None, None, None),
+    }
+}
+
+/// The field checks of one set of conductor potentials, every row of them (the direct path).
 fn field_margins(
     model: &Model,
     basis: &Basis,
@@ -237,40 +275,27 @@ fn field_margins(
     potentials: Vec<f64>,
     phi: Option<Vec<f64>>,
 ) -> Result<Worst, FaultError> {
-    let ev = basis.electrode_potentials(&potentials);
-    let phi = phi.unwrap_or_else(|| basis.field(&ev));
-    {
-        let fm = FieldMap::new(&work.mesh, model, &phi, &potentials);
-        let samples = fm.surface_samples();
-        work.peaks = fm.conductor_peaks(&samples);
-        work.samples = samples;
-        work.probes = model
-            .probes
-            .iter()
-            .map(|p| crate::analysis::ProbeResult {
-                name: p.name.clone(),
-                field: fm.at(p.at),
-            })
-            .collect();
+    load_field(model, basis, work, potentials, phi);
+    Ok(worst_of(&evaluate_halves(model, work)?.rows))
+}
+
+/// Every row of the field loaded in `work`, as [`margin::evaluate`] gives them, formed in two
+/// halves side by side (alternate conductors; the insulators with the first), then ranked
+/// together. A tie for the smallest margin between rows of the two halves, whose order only
+/// one evaluation settles, is evaluated again in one piece.
+fn evaluate_halves(model: &Model, work: &Analysis) -> Result<margin::Margins, FaultError> {
+    let (a, b) = rayon::join(
+        || margin::evaluate_selected(model, work, None, &|c| c % 2 == 0, true),
+        || margin::evaluate_selected(model, work, None, &|c| c % 2 == 1, false),
+    );
+    let (mut a, b) = (a?, b?);
+    a.rows.extend(b.rows);
+    a.field_lines.extend(b.field_lines);
+    margin::rank(&mut a.rows);
+    if screen::tied(&a.rows) {
+        return Ok(margin::evaluate(model, work, None)?);
     }
-    work.energy_j = basis.energy_j(&ev);
-    work.potentials = potentials;
-    work.solution.phi = phi;
-    work.node_fields = std::sync::OnceLock::new();
-    let m = margin::evaluate(model, work, None)?;
-    let worst = m
-        .rows
-        .iter()
-        .filter_map(|r| r.margin.map(|x| (x, r)))
-        .min_by(|a, b| a.0.total_cmp(&b.0));
-    Ok(match worst {
-        Some((x, r)) => (
-            Some(x),
-            Some(r.item.clone()),
-            Some(r.criterion_name.clone()),
-        ),
-        None => (None, None, None),
-    })
+    Ok(a)
 }
 
 fn max_abs(v: &[Vec<f64>]) -> f64 {
@@ -318,14 +343,13 @@ pub fn replay(
         let k = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
         progress(k);
     };
-    let gap_capacitance = firing::gap_capacitances(model, &basis, &networks);
     let (raw, shared_evaluations) = scenarios::evaluate(
         model,
         mesh,
         &basis,
         stage_v,
         &set.cases,
-        &gap_capacitance,
+        options.exhaustive,
         &tick,
     )?;
     let nominal_gaps = raw[0].gap_v.clone();

@@ -1,109 +1,142 @@
-//! The notes a replay states about its own assumptions (leakage, ratings, node currents).
+//! What a replay states about its own assumptions (leakage, ratings, node currents, the
+//! transient), as data; `report::faults::notes` words them.
 
 use super::*;
 
+/// One stated assumption or limit of a replay. Columns are named as the design names them.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ReplayNote {
+    /// The column gives no resistor value: equal resistors stand in.
+    EqualResistors { column: String },
+    /// The column's protective gaps clamp; `band` is the first gap's relative firing band.
+    GapsClamp { column: String, band: f64 },
+    /// No insulator leakage (`leakage = "none"`).
+    NoLeakage { column: String },
+    /// Leakage across every gap as the design gives it, Ω.
+    LeakagePerGap { column: String, ohm: f64 },
+    /// Bulk leakage from the insulators' materials: (dielectric, material, resistivity Ω·m)
+    /// of each path, the least leakage resistance of a gap, Ω, and the chain's resistance per
+    /// gap over it.
+    LeakageFromMaterials {
+        column: String,
+        paths: Vec<(String, String, f64)>,
+        least_ohm: f64,
+        share: f64,
+    },
+    /// No insulator with a known material spans the column's gaps.
+    NoLeakagePath { column: String },
+    /// A remark of the leakage model about the column (`grading::leakage`).
+    LeakageRemark { column: String, remark: String },
+    /// Resistor voltages after a spark against the impulse rating, V.
+    ImpulseRating { column: String, volts: f64 },
+    /// No impulse rating: the DC rating, V, stands in after a spark.
+    DcRatingAfterSpark { column: String, volts: f64 },
+    /// No resistor rating: voltages reported, not checked.
+    NoRating { column: String },
+    /// Current drawn from the column's electrodes in every scenario, A.
+    NodeCurrent { column: String, amps: f64 },
+    /// Draws asked for, but no column gives a tolerance.
+    NoDraws,
+    /// No conductor tied to the terminal voltage: the spark is taken from the highest one.
+    SparkFromHighest,
+    /// The transient could not be formed, and why.
+    NoTransient { reason: String },
+    /// The bare transient was formed.
+    Transient,
+    /// The transient with `gaps` protective gaps conducting was formed.
+    GapsConducting { gaps: usize },
+    /// Gaps left over their clamp because the conducting ones around them fix their voltage.
+    OverInLoop { gaps: usize },
+    /// The transient with the protective gaps conducting could not be formed, and why.
+    NoGapsConducting { reason: String },
+}
+
 /// What the replay assumes about leakage, ratings and node currents, per column.
-pub(super) fn network_notes(model: &Model, networks: &[Network]) -> Vec<String> {
+pub(super) fn network_notes(model: &Model, networks: &[Network]) -> Vec<ReplayNote> {
     let mut notes = Vec::new();
     for n in networks {
         if n.relative {
-            notes.push(format!(
-                "column '{}' gives no resistor value: equal resistors stand in, so the division \
-                 is right but no currents are reported",
-                n.name
-            ));
+            notes.push(ReplayNote::EqualResistors {
+                column: n.name.clone(),
+            });
         }
-        if !n.protective.is_empty() {
-            notes.push(format!(
-                "column '{}': protective gaps clamp at their firing voltage; a gap counts as \
-                 fired from the bottom of its ±{:.0} % band (common practice, no source)",
-                n.name,
-                100.0 * n.protective[0].band
-            ));
+        if let Some(p) = n.protective.first() {
+            notes.push(ReplayNote::GapsClamp {
+                column: n.name.clone(),
+                band: p.band,
+            });
         }
     }
     for n in networks {
         let Some(col) = model.columns.get(n.column) else {
             continue;
         };
+        let column = n.name.clone();
         if !n.relative {
             match col.leakage {
-                crate::model::LeakageSpec::None => notes.push(format!(
-                    "column '{}': no insulator leakage (leakage = \"none\")",
-                    n.name
-                )),
-                crate::model::LeakageSpec::PerGap(r) => notes.push(format!(
-                    "column '{}': insulator leakage {} across every gap, as the design gives it",
-                    n.name,
-                    crate::units::format_si(r, crate::units::Dimension::Resistance)
-                )),
+                crate::model::LeakageSpec::None => notes.push(ReplayNote::NoLeakage {
+                    column: column.clone(),
+                }),
+                crate::model::LeakageSpec::PerGap(ohm) => notes.push(ReplayNote::LeakagePerGap {
+                    column: column.clone(),
+                    ohm,
+                }),
                 crate::model::LeakageSpec::FromMaterials => {
                     let l = grading::leakage::from_materials(model, n.column);
-                    let names: Vec<String> = l
-                        .paths
-                        .iter()
-                        .map(|p| {
-                            format!(
-                                "'{}' ({}, {:.0e} Ohm m)",
-                                p.dielectric, p.material, p.resistivity_ohm_m
-                            )
-                        })
-                        .collect();
                     let r_min = l.per_gap_ohm.iter().flatten().copied().reduce(f64::min);
                     let chain = n
                         .resistors_ohm
                         .first()
                         .map(|rs| 1.0 / rs.iter().map(|r| 1.0 / r).sum::<f64>());
-                    match (r_min, chain) {
-                        (Some(rl), Some(rc)) => notes.push(format!(
-                            "column '{}': bulk insulator leakage through {}: {} per gap at the \
-                             least, {:.2e} of the chain's gap current; {} (common practice)",
-                            n.name,
-                            names.join(", "),
-                            crate::units::format_si(rl, crate::units::Dimension::Resistance),
-                            rc / rl,
-                            crate::materials::RESISTIVITY_SOURCE
-                        )),
-                        _ => notes.push(format!(
-                            "column '{}': no insulator with a known material spans its gaps, so \
-                             no leakage is modelled",
-                            n.name
-                        )),
-                    }
-                    notes.extend(l.notes.iter().map(|x| format!("column '{}': {x}", n.name)));
+                    notes.push(match (r_min, chain) {
+                        (Some(rl), Some(rc)) => ReplayNote::LeakageFromMaterials {
+                            column: column.clone(),
+                            paths: l
+                                .paths
+                                .iter()
+                                .map(|p| {
+                                    (
+                                        p.dielectric.clone(),
+                                        p.material.clone(),
+                                        p.resistivity_ohm_m,
+                                    )
+                                })
+                                .collect(),
+                            least_ohm: rl,
+                            share: rc / rl,
+                        },
+                        _ => ReplayNote::NoLeakagePath {
+                            column: column.clone(),
+                        },
+                    });
+                    notes.extend(l.notes.iter().map(|x| ReplayNote::LeakageRemark {
+                        column: column.clone(),
+                        remark: x.clone(),
+                    }));
                 }
             }
         }
         match (col.resistor_impulse_v, col.resistor_rating_v) {
-            (Some(i), _) => notes.push(format!(
-                "column '{}': resistor voltages just after a spark are checked against the \
-                 impulse rating {:.1} kV",
-                n.name,
-                i / 1e3
-            )),
-            (None, Some(r)) => notes.push(format!(
-                "column '{}' gives no impulse rating: resistor voltages just after a spark are \
-                 checked against the DC rating {:.1} kV (conservative; add \
-                 grading.impulse_rating from the resistor's pulse data)",
-                n.name,
-                r / 1e3
-            )),
+            (Some(volts), _) => notes.push(ReplayNote::ImpulseRating {
+                column: column.clone(),
+                volts,
+            }),
+            (None, Some(volts)) => notes.push(ReplayNote::DcRatingAfterSpark {
+                column: column.clone(),
+                volts,
+            }),
             (None, None) => {}
         }
         if col.resistor_rating_v.is_none() && col.resistor_power_w.is_none() {
-            notes.push(format!(
-                "column '{}' gives no resistor rating: resistor voltages are reported but not \
-                 checked (add grading.rating and grading.power_rating)",
-                n.name
-            ));
+            notes.push(ReplayNote::NoRating {
+                column: column.clone(),
+            });
         }
         if n.node_current_a.iter().any(|i| *i != 0.0) {
-            let total: f64 = n.node_current_a.iter().sum();
-            notes.push(format!(
-                "column '{}': {} drawn from its electrodes to ground in every scenario",
-                n.name,
-                crate::units::format_si(total, crate::units::Dimension::Current)
-            ));
+            notes.push(ReplayNote::NodeCurrent {
+                column,
+                amps: n.node_current_a.iter().sum(),
+            });
         }
     }
     notes

@@ -203,7 +203,10 @@ pub struct FaultReplay {
     /// Scenarios whose field checks were shared with an identical one (the same resistor in
     /// another string).
     pub shared_evaluations: usize,
-    pub notes: Vec<String>,
+    /// What the replay assumes, as data (`report::faults::notes` words them; the JSON
+    /// carries the words).
+    #[serde(skip)]
+    pub notes: Vec<ReplayNote>,
 }
 
 impl FaultReplay {
@@ -218,7 +221,7 @@ impl FaultReplay {
 
 /// A column seen as the uniform capacitive ladder of the hand estimates, from the solved
 /// capacitance matrix: series capacitance between neighbouring electrodes, shunt capacitance
-/// of each electrode to earth, and α = √(C_p/C_s) per gap.
+/// of each electrode to ground, and α = √(C_p/C_s) per gap.
 #[derive(Debug, Clone, Serialize)]
 pub struct LadderEquivalent {
     #[serde(serialize_with = "crate::units::from_one")]
@@ -226,21 +229,21 @@ pub struct LadderEquivalent {
     pub name: String,
     /// Mean mutual capacitance between neighbouring electrodes, F.
     pub series_f: f64,
-    /// Mean capacitance of an electrode to earth (its row sum of the Maxwell matrix), F.
+    /// Mean capacitance of an electrode to ground (its row sum of the Maxwell matrix), F.
     pub shunt_f: f64,
     pub alpha_per_gap: f64,
     /// α times the gap count: the hand estimates' steepness of the transient distribution.
     pub alpha_n: f64,
     /// The ladder's voltage across the gap at the `to` end just after that end falls to
-    /// earth, V: −V(N−1)/N + V·sinh(α(N−1))/sinh(αN) for a uniform chain of N gaps at end-to-end
+    /// ground, V: −V(N−1)/N + V·sinh(α(N−1))/sinh(αN) for a uniform chain of N gaps at end-to-end
     /// voltage V (the node shift −V·sinh(αx)/sinh(αN), docs/practice.md §2.5, added to the linear
-    /// profile). It keeps only neighbour and earth capacitances; the transient scenario uses
+    /// profile). It keeps only neighbour and ground capacitances; the transient scenario uses
     /// the whole matrix.
     pub ladder_end_gap_v: f64,
 }
 
 /// The voltage across the end gap of a uniform capacitive ladder of `gaps` gaps at
-/// end-to-end voltage `v` just after that end falls to earth: −v(N−1)/N + v·sinh(α(N−1))/
+/// end-to-end voltage `v` just after that end falls to ground: −v(N−1)/N + v·sinh(α(N−1))/
 /// sinh(αN), with the ratio written as e^{−α}(1 − e^{−2α(N−1)})/(1 − e^{−2αN}) so that it stays
 /// finite for any αN.
 pub fn ladder_end_gap(v: f64, alpha: f64, gaps: f64) -> f64 {
@@ -316,6 +319,9 @@ pub struct ReplayOptions {
     pub seed: u64,
     /// Sections shorted for the conditioning spark energy (empty = none).
     pub shorted_sections: Vec<Section>,
+    /// Evaluate every row of every scenario, instead of screening the conductors whose rows
+    /// cannot set a scenario's worst margin (the same results, slower; for checking).
+    pub exhaustive: bool,
 }
 
 impl Default for ReplayOptions {
@@ -324,6 +330,7 @@ impl Default for ReplayOptions {
             samples: 200,
             seed: 1,
             shorted_sections: Vec::new(),
+            exhaustive: false,
         }
     }
 }

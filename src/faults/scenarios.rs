@@ -3,12 +3,15 @@
 //! checks formed from the basis in parallel (identical potentials once), and the spread of
 //! the draws.
 
+use super::screen::{Screen, tied, worst_row};
 use super::{
     Basis, Evaluated, FaultError, Kind, MonteCarlo, ReplayOptions, ResistorRef, ScenarioResult,
-    Worst, field_margins, fired_gaps, firing, resistor_check, solve_networks,
+    Worst, evaluate_halves, fired_gaps, firing, load_field, resistor_check, solve_networks,
+    worst_of,
 };
 use crate::analysis::Analysis;
 use crate::grading::{self, Network, NetworkSolution};
+use crate::margin;
 use crate::mesh::Mesh;
 use crate::model::Model;
 use crate::solve::Solution;
@@ -51,7 +54,7 @@ pub(super) fn cases(
     model: &Model,
     networks: &[Network],
     options: &ReplayOptions,
-    notes: &mut Vec<String>,
+    notes: &mut Vec<super::ReplayNote>,
 ) -> Result<Cases, FaultError> {
     let mut cases = vec![Case {
         name: "nominal".to_string(),
@@ -121,7 +124,7 @@ pub(super) fn cases(
         .any(|c| c.tolerance.unwrap_or(0.0) > 0.0);
     let draws = if any_tol { options.samples } else { 0 };
     if options.samples > 0 && !any_tol {
-        notes.push("no column gives a resistor tolerance: no Monte Carlo draws".to_string());
+        notes.push(super::ReplayNote::NoDraws);
     }
     for d in 0..draws {
         let mut t = networks.to_vec();
@@ -149,7 +152,7 @@ pub(super) fn cases(
 
 /// Scenario fields formed together from the basis (a few per worker thread, so that their
 /// sums stay in cache and the margins of one block keep every thread busy).
-const FIELD_BLOCK: usize = 16;
+const FIELD_BLOCK: usize = 4;
 
 /// A work analysis on `mesh` for one worker thread, its fields formed from the basis.
 pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
@@ -169,18 +172,19 @@ pub(super) fn work_analysis(mesh: &Mesh, basis: &Basis) -> Analysis {
 }
 
 /// The networks of every case (cheap), then the field checks once per distinct set of
-/// conductor potentials, in parallel; `tick` is called once per case. `gap_capacitance` is
-/// the capacitance across each protective gap (`firing::gap_capacitances`). Also gives how many
-/// cases shared an identical one's evaluation.
+/// conductor potentials, in parallel: the nominal (case 0) in full, the others screened
+/// against it (`screen`) unless `exhaustive`; `tick` is called once per case. Also gives how
+/// many cases shared an identical one's evaluation.
 pub(super) fn evaluate(
     model: &Model,
     mesh: &Mesh,
     basis: &Basis,
     stage_v: Option<&[f64]>,
     cases: &[Case],
-    gap_capacitance: &[Vec<Option<f64>>],
+    exhaustive: bool,
     tick: &(dyn Fn() + Sync),
 ) -> Result<(Vec<Evaluated>, usize), FaultError> {
+    let gap_capacitance = firing::gap_capacitances(model, basis, &cases[0].networks);
     // The insulator sites are geometry: found once here, shared by every worker's copy.
     let _ = mesh.insulator_sites(model, 0);
     // With parallel strings, the same resistor failing in either string gives the same
@@ -209,15 +213,40 @@ pub(super) fn evaluate(
         })
         .collect();
     // The nominal field (case 0), from which every scenario's sum starts; the scenarios' fields
-    // are then formed a block at a time, each unit solution read once per block.
+    // are then formed a block at a time, each unit solution read once per block. The nominal
+    // is evaluated in full, and its rows screen the others' (`screen`).
     let nominal_ev = basis.electrode_potentials(&prepared[0].2);
     let nominal_phi = basis.field(&nominal_ev);
-    // Work analyses for the worker threads, reused across the blocks.
-    let pool: Vec<std::sync::Mutex<Analysis>> = (0..rayon::current_num_threads())
-        .map(|_| std::sync::Mutex::new(work_analysis(mesh, basis)))
-        .collect();
-    let mut worst: Vec<Worst> = Vec::with_capacity(distinct.len());
-    for block in distinct.chunks(FIELD_BLOCK) {
+    let mut nominal_work = work_analysis(mesh, basis);
+    load_field(
+        model,
+        basis,
+        &mut nominal_work,
+        prepared[0].2.clone(),
+        Some(nominal_phi.clone()),
+    );
+    let nominal = evaluate_halves(model, &nominal_work)?;
+    let screen = (!exhaustive).then(|| Screen::new(model, &nominal_work, &nominal));
+    let mut worst: Vec<Worst> = vec![worst_of(&nominal.rows)];
+    tick();
+    // Work analyses for the worker threads, reused across the blocks: one is taken per
+    // scenario and given back after it, and a new one made only when none is free (a thread
+    // waiting inside a parallel part of a margin check may start another scenario).
+    let pool: std::sync::Mutex<Vec<Analysis>> = std::sync::Mutex::new(
+        std::iter::once(nominal_work)
+            .chain((1..rayon::current_num_threads()).map(|_| work_analysis(mesh, basis)))
+            .collect(),
+    );
+    let take = || {
+        let free = pool.lock().ok().and_then(|mut p| p.pop());
+        free.unwrap_or_else(|| work_analysis(mesh, basis))
+    };
+    let give = |w: Analysis| {
+        if let Ok(mut p) = pool.lock() {
+            p.push(w);
+        }
+    };
+    for block in distinct[1..].chunks(FIELD_BLOCK) {
         let sets: Vec<Vec<f64>> = block
             .iter()
             .map(|&ci| basis.electrode_potentials(&prepared[ci].2))
@@ -227,15 +256,14 @@ pub(super) fn evaluate(
             .par_iter()
             .zip(fields)
             .map(|(&ci, phi)| -> Result<Worst, FaultError> {
-                // A free work analysis of the pool (a thread waiting inside a parallel margin
-                // check may start another scenario, so a thread can need two).
-                let mut held = pool.iter().find_map(|m| m.try_lock().ok());
-                let mut fresh = None;
-                let work = match held.as_deref_mut() {
-                    Some(w) => w,
-                    None => fresh.insert(work_analysis(mesh, basis)),
+                let mut held = take();
+                let work = &mut held;
+                load_field(model, basis, work, prepared[ci].2.clone(), Some(phi));
+                let w = match &screen {
+                    Some(screen) => screened_margins(model, screen, work)?,
+                    None => worst_of(&margin::evaluate(model, work, None)?.rows),
                 };
-                let w = field_margins(model, basis, work, prepared[ci].2.clone(), Some(phi))?;
+                give(held);
                 tick();
                 Ok(w)
             })
@@ -265,7 +293,7 @@ pub(super) fn evaluate(
                     model,
                     &case.networks,
                     &sols,
-                    gap_capacitance,
+                    &gap_capacitance,
                 ),
             }
         })
@@ -327,3 +355,44 @@ pub(super) fn monte_carlo(
         None
     }
 }
+
+/// The worst row of the scenario loaded in `work`, screened against the nominal (`screen`):
+/// the insulator rows, the conductors that must be evaluated and those whose bound lies below
+/// [`LIKELY`] times a guess at the worst margin (`Screen::guess`) first, then any other
+/// conductor whose bound does not clear the worst margin found. The same worst row as a full
+/// evaluation; a tie for the smallest margin, whose order only a full evaluation settles, is
+/// evaluated in full.
+fn screened_margins(model: &Model, screen: &Screen, work: &Analysis) -> Result<Worst, FaultError> {
+    let rho = screen.rise(model, work);
+    let bounds = screen.bounds(&rho);
+    let guess = screen.guess(&rho);
+    let first: Vec<bool> = screen
+        .always(&rho)
+        .iter()
+        .zip(&bounds)
+        .map(|(a, b)| match (b, guess) {
+            (Some(b), Some(g)) => *a || *b <= g * LIKELY,
+            _ => true,
+        })
+        .collect();
+    let mut rows = margin::evaluate_selected(model, work, None, &|c| first[c], true)?.rows;
+    let found = worst_row(&rows).and_then(|r| r.margin);
+    let second: Vec<bool> = screen
+        .needed(&rho, found)
+        .iter()
+        .zip(&first)
+        .map(|(n, f)| *n && !f)
+        .collect();
+    if second.iter().any(|x| *x) {
+        rows.extend(margin::evaluate_selected(model, work, None, &|c| second[c], false)?.rows);
+    }
+    margin::rank(&mut rows);
+    if tied(&rows) {
+        return Ok(worst_of(&margin::evaluate(model, work, None)?.rows));
+    }
+    Ok(worst_of(&rows))
+}
+
+/// The first round of a screened scenario takes the conductors whose bound lies below this
+/// factor times the guess at the worst margin.
+const LIKELY: f64 = 1.0;

@@ -62,7 +62,7 @@ pub struct DoublerForms {
     pub mean_output_v: f64,
 }
 
-/// Efficiency of a ladder with strays to earth at no load, η = V_out/(2nV₀).
+/// Efficiency of a ladder with strays to ground at no load, η = V_out/(2nV₀).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct StrayForms {
     /// Discrete capacitive ladder of the oscillating column(s) (docs/references.md §8 "discrete

@@ -4,7 +4,7 @@
 //! stage k = 1..n contributes, in this order,
 //! half-wave: oscillating node `o{k}`, smoothing node `s{k}`;
 //! symmetric: oscillating node `oa{k}` (column fed +V), `ob{k}` (column fed −V), smoothing
-//! node `s{k}`. The drive node(s) `o0` (`oa0`, `ob0`) and the earthed foot `s0` of the smoothing
+//! node `s{k}`. The drive node(s) `o0` (`oa0`, `ob0`) and the grounded foot `s0` of the smoothing
 //! column are fixed and carry no unknown. Stage k's smoothing node `s{k}` is the stage's DC
 //! output; `s{n}` is the terminal.
 
@@ -152,7 +152,7 @@ pub enum Load {
         #[serde(rename = "current_a")]
         amps: f64,
     },
-    /// A resistor from the terminal to earth, Ω.
+    /// A resistor from the terminal to ground, Ω.
     Resistance {
         #[serde(rename = "resistance_ohm")]
         ohms: f64,
@@ -233,7 +233,7 @@ pub struct LadderParams {
     pub drive: Drive,
     pub diode: DiodeParams,
     pub load: Load,
-    /// Capacitance of every unknown node to earth, in the node order of the module docs, F.
+    /// Capacitance of every unknown node to ground, in the node order of the module docs, F.
     pub strays_f: Vec<f64>,
     /// Resistance of the voltage divider across the stack, Ω (for the discharge estimate).
     pub divider_ohm: Option<f64>,

@@ -274,13 +274,6 @@ pub(super) fn vacuum_gap_line(
     (first, *hot, None)
 }
 
-pub(super) fn is_conductor_peak(samples: &[SurfaceSample], s: &SurfaceSample) -> bool {
-    samples
-        .iter()
-        .filter(|o| o.conductor == s.conductor)
-        .all(|o| o.e <= s.e)
-}
-
 /// The highest-field sample of each conductor in `medium` (cathodic only, when asked), with
 /// the field and place of the smooth profile's maximum around it (`FieldMap::peak_near`).
 pub(super) fn hotspots(fm: &FieldMap, samples: &[SurfaceSample], gas: bool) -> Vec<SurfaceSample> {

@@ -273,6 +273,21 @@ pub fn evaluate(
     fine: &Analysis,
     study: Option<&GridStudy>,
 ) -> Result<Margins, MarginError> {
+    evaluate_selected(model, fine, study, &|_| true, true)
+}
+
+/// As [`evaluate`], with the rows of a conductor surface only for the conductors (by index)
+/// that `conductor` keeps, and the insulator rows only when `insulators` is set. A row depends
+/// only on the field and on the surface samples of its own conductor (or insulator), so every
+/// row made is the one [`evaluate`] makes.
+pub fn evaluate_selected(
+    model: &Model,
+    fine: &Analysis,
+    study: Option<&GridStudy>,
+    conductor: &dyn Fn(usize) -> bool,
+    insulators: bool,
+) -> Result<Margins, MarginError> {
+    let kept = |h: &SurfaceSample| h.conductor.conductor_index().is_none_or(conductor);
     let fm = fine.field_map(model);
     let gas = match &model.gas {
         Some(g) => Some((g.clone(), GasState::resolve(g)?)),
@@ -297,14 +312,17 @@ pub fn evaluate(
         );
     } else {
         notes.extend(gas_state_notes(&ctx));
-        for hot in &gas_hot {
+        for hot in gas_hot.iter().filter(|h| kept(h)) {
             gas_rows(&ctx, &fm, &fine.samples, hot, &mut lines, &mut rows)?;
         }
     }
-    for hot in hotspots(&fm, &fine.samples, false) {
-        vacuum_rows(&ctx, &fm, &hot, &fine.samples, &mut lines, &mut rows)?;
+    for hot in hotspots(&fm, &fine.samples, false)
+        .iter()
+        .filter(|h| kept(h))
+    {
+        vacuum_rows(&ctx, &fm, hot, &fine.samples, &mut lines, &mut rows)?;
     }
-    for index in 0..model.dielectrics.len() {
+    for index in (0..model.dielectrics.len()).filter(|_| insulators) {
         insulator_rows(&ctx, &fm, index, &fine.samples, &mut rows)?;
     }
     let singular = sharp_corners(model);

@@ -3,6 +3,33 @@
 
 use super::*;
 
+impl Ctx<'_> {
+    /// The grid study of the triple junction of `conductor` with dielectric `index` on
+    /// `side`, when the study was made.
+    fn junction_study(
+        &self,
+        conductor: FixedId,
+        index: usize,
+        side: Medium,
+    ) -> Option<&crate::study::JunctionStudy> {
+        self.study?.junctions.iter().find(|j| {
+            Some(j.conductor) == conductor.conductor_index()
+                && j.dielectric == index
+                && j.side == side
+        })
+    }
+
+    /// The grid study's relative error of the peak tangential field along one side of
+    /// dielectric `index`, when the study was made.
+    fn insulator_error(&self, index: usize, side: Medium) -> Option<f64> {
+        self.study?
+            .insulator_peaks
+            .iter()
+            .find(|p| p.dielectric == index && p.side == side)
+            .map(|p| p.relative_error)
+    }
+}
+
 /// The surface-flashover limit of an insulator side.
 pub(super) fn surface_limit(
     ctx: &Ctx,
@@ -59,11 +86,7 @@ pub(super) fn insulator_rows(
         .max(fm.mesh.cell);
     let surface: Vec<InsulatorSample> = fm.insulator_samples(index);
     for side in [Medium::Gas, Medium::Vacuum] {
-        let Some(peak) = surface
-            .iter()
-            .filter(|s| s.side == side)
-            .max_by(|a, b| a.e_tangential.total_cmp(&b.e_tangential))
-        else {
+        let Some(peak) = fm.insulator_peak(&surface, side) else {
             continue;
         };
         let Some((limit, user_set)) = surface_limit(ctx, side, length)? else {
@@ -81,7 +104,7 @@ pub(super) fn insulator_rows(
                 medium,
                 peak: peak.e_tangential,
                 at: peak.at,
-                numerical_error: None,
+                numerical_error: ctx.insulator_error(index, side),
                 user_set,
                 scaling: Scaling::Linear,
                 in_holdoff: true,
@@ -94,34 +117,26 @@ pub(super) fn insulator_rows(
         ));
     }
 
-    // Triple junctions: conductor surface samples in gas or vacuum within 1.5 cells of this
-    // insulator; per conductor and side the highest field.
-    let reach = 1.5 * fm.mesh.cell;
-    let mut best: Vec<(FixedId, Medium, SurfaceSample)> = Vec::new();
-    for s in samples {
-        if s.conductor.is_tank() || !matches!(s.medium, Medium::Gas | Medium::Vacuum) {
-            continue;
-        }
-        if diel.shape.sdf(s.at).abs() > reach {
-            continue;
-        }
-        match best
-            .iter_mut()
-            .find(|(c, m, _)| *c == s.conductor && *m == s.medium)
-        {
-            Some(entry) if entry.2.e < s.e => entry.2 = *s,
-            Some(_) => {}
-            None => best.push((s.conductor, s.medium, *s)),
-        }
-    }
-    for (conductor, side, s) in best {
+    // Triple junctions: per conductor and side the highest conductor-surface field within
+    // 1.5 cells of this insulator. Its number is the field at the metal next to the junction;
+    // it has an error bar only when the grid study shows it converging, and is reported as
+    // not resolved when it grows with every refinement (a singular contact).
+    for j in fm.junction_samples(samples, index) {
+        let (conductor, side, s) = (j.conductor, j.side, j.sample);
         let Some((limit, user_set)) = surface_limit(ctx, side, length)? else {
             continue;
         };
-        let err = ctx
-            .relative_error(conductor)
-            .filter(|_| is_conductor_peak(samples, &s));
-        let flag = insulator::classify_triple_junction(s.e, limit.value, err, s.e_normal < 0.0)?;
+        let study = ctx.junction_study(conductor, index, side);
+        let err = study.and_then(|js| js.relative_error);
+        let growing = study.filter(|js| {
+            js.relative_error.is_none() && js.fields_v_per_m.iter().all(|v| v.is_finite())
+        });
+        let flag = insulator::classify_triple_junction(
+            s.e,
+            limit.value,
+            err.or(growing.map(|_| f64::INFINITY)),
+            s.e_normal < 0.0,
+        )?;
         let mut limit = limit;
         if flag.class == JunctionClass::Unresolved {
             limit.validity = limit.validity.and(Validity::OutsideValidity {
@@ -132,6 +147,16 @@ pub(super) fn insulator_rows(
             RowMedium::TripleJunctionVacuum
         } else {
             RowMedium::TripleJunctionGas
+        };
+        let grids = match growing {
+            Some(js) => format!(
+                "; it grows with every refinement ({:.3}, {:.3}, {:.3} MV/m on the grids 2h, \
+                 √2h, h): no converged value",
+                js.fields_v_per_m[2] / 1e6,
+                js.fields_v_per_m[1] / 1e6,
+                js.fields_v_per_m[0] / 1e6
+            ),
+            None => String::new(),
         };
         rows.push(row(
             ctx,
@@ -145,8 +170,10 @@ pub(super) fn insulator_rows(
                 scaling: Scaling::Linear,
                 in_holdoff: false,
                 note: Some(format!(
-                    "field at the triple junction {:.3} MV/m: {} (a flag, not in the hold-off \
-                     voltage: the field there depends on the contact geometry and the grid)",
+                    "field on the conductor within {:.1} cells of the triple junction {:.3} \
+                     MV/m{grids}: {} (a flag, not in the hold-off voltage: the field there \
+                     depends on the contact geometry and the grid)",
+                    crate::field::JUNCTION_REACH_CELLS,
                     s.e / 1e6,
                     flag.note
                 )),

@@ -25,14 +25,19 @@ impl Features {
         let mut r_fix = vec![dom.r_min, dom.r_max];
         let mut z_fix = vec![dom.z_min, dom.z_max];
         let floor = 1.0 / crate::model::MAX_LOCAL_DIVISION;
-        let conductors = model.conductors.iter().map(|c| &c.shape).enumerate();
-        for (k, s) in conductors {
-            let refine = spec.refinement(k).clamp(floor, 1.0);
+        // Each conductor's and dielectric's neighbourhood at the cell (finer where the
+        // accuracy loop refined it), its curved parts at `cells_per_radius` cells per radius
+        // of curvature.
+        let conductors =
+            (model.conductors.iter().enumerate()).map(|(k, c)| (&c.shape, spec.refinement(k)));
+        let dielectrics = (model.dielectrics.iter().enumerate())
+            .map(|(k, d)| (&d.shape, spec.dielectric_refinement(k)));
+        for (s, refine) in conductors.chain(dielectrics) {
+            let refine = refine.clamp(floor, 1.0);
             let b = s.bbox();
             r_feat.push((b.r_min, b.r_max, refine));
             z_feat.push((b.z_min, b.z_max, refine));
             if spec.adaptive() {
-                // Curved parts: `cells_per_radius` cells per radius of curvature.
                 let start = 1.0 / crate::model::START_DIVISION;
                 for (part, radius) in s.curved_parts() {
                     let frac = (radius / (spec.cells_per_radius * spec.cell)).clamp(start, 1.0);
@@ -42,13 +47,8 @@ impl Features {
                 }
             }
         }
-        let others = model
-            .dielectrics
-            .iter()
-            .map(|d| &d.shape)
-            .chain(model.vacuum.iter().map(|v| &v.shape));
-        for s in others {
-            let b = s.bbox();
+        for v in &model.vacuum {
+            let b = v.shape.bbox();
             r_feat.push((b.r_min, b.r_max, 1.0));
             z_feat.push((b.z_min, b.z_max, 1.0));
         }

@@ -2,6 +2,9 @@
 //! worst few, the Monte Carlo spread, the transient and the spark energies.
 
 use crate::faults::{FaultReplay, Kind, ScenarioResult};
+pub use notes::{note_text, notes};
+
+mod notes;
 use comfy_table::{Cell, CellAlignment, ContentArrangement, Table};
 use serde::Serialize;
 use std::fmt::Write;
@@ -13,6 +16,8 @@ pub struct FaultSection {
     pub design: crate::report::DesignInfo,
     #[serde(flatten)]
     pub replay: FaultReplay,
+    /// The replay's stated assumptions, in words.
+    pub notes: Vec<String>,
     /// Wall-clock seconds of the replay (basis and every scenario).
     #[serde(rename = "total_s")]
     pub seconds: f64,
@@ -58,6 +63,7 @@ impl FaultSection {
                 stored,
             )),
             stack_spark: stack.map(crate::stack::stack_spark),
+            notes: notes(&replay),
             replay,
             seconds,
         }
@@ -242,8 +248,8 @@ pub fn repetition_line(r: &crate::faults::FaultReplay) -> Option<String> {
 pub fn ladder_line(l: &crate::faults::LadderEquivalent) -> String {
     format!(
         "Column '{}' as a capacitive ladder: series {:.2} pF between neighbouring electrodes, \
-         {:.2} pF from each to earth, α = √(C_p/C_s) = {:.3} per gap, αN = {:.2}; the ladder puts \
-         {:.1} kV on the terminal-end gap just after a spark (it keeps only neighbour and earth \
+         {:.2} pF from each to ground, α = √(C_p/C_s) = {:.3} per gap, αN = {:.2}; the ladder puts \
+         {:.1} kV on the terminal-end gap just after a spark (it keeps only neighbour and ground \
          capacitances; the transient scenario uses the whole matrix)",
         l.name,
         l.series_f * 1e12,
@@ -291,6 +297,51 @@ pub fn render(s: &FaultSection, details: usize, rows: Option<usize>) -> String {
         r.terminal_voltage_v / 1e3,
         opt(r.nominal_worst_margin, 3)
     );
+    ranked_table(&mut out, r, rows);
+    summary_lines(&mut out, s);
+    let _ = writeln!(
+        out,
+        "\nWorst {} scenarios in detail",
+        details.min(r.scenarios.len())
+    );
+    for sc in r.scenarios.iter().take(details) {
+        detail(&mut out, sc);
+    }
+    if !s.notes.is_empty() {
+        let _ = writeln!(out, "\nNotes");
+        for n in &s.notes {
+            let _ = writeln!(out, "- {n}");
+        }
+    }
+    let _ = writeln!(out, "\n{}", s.verdict.line());
+    let _ = writeln!(
+        out,
+        "\n{} scenarios{} in {:.1} s ({:.1} s for {} unit solves, {:.1} s for the scenarios, {} \
+         shared with an identical one); capacitance matrix of {} electrodes (asymmetry {:.1e})",
+        r.scenarios.len(),
+        r.monte_carlo
+            .as_ref()
+            .map_or_else(String::new, |mc| format!(
+                " and {} Monte Carlo draws (the worst kept as a scenario)",
+                mc.draws
+            )),
+        s.seconds,
+        s.basis_seconds,
+        r.electrodes.len(),
+        s.scenario_seconds,
+        r.shared_evaluations,
+        r.electrodes.len(),
+        r.capacitance_asymmetry
+    );
+    let _ = writeln!(out, "\nCautions");
+    for c in &s.cautions {
+        let _ = writeln!(out, "- {}: {}", c.topic, c.text);
+    }
+    out
+}
+
+/// The ranked table of the worst `rows` scenarios (None: every one), and a line on the rest.
+fn ranked_table(out: &mut String, r: &FaultReplay, rows: Option<usize>) {
     let mut t = Table::new();
     t.load_style(crate::report::table::STYLE)
         .set_content_arrangement(ContentArrangement::Dynamic);
@@ -340,7 +391,12 @@ pub fn render(s: &FaultSection, details: usize, rows: Option<usize>) -> String {
             rest.len()
         );
     }
+}
 
+/// The lines under the table: the Monte Carlo spread, the ladder equivalents, the spark
+/// energies, the transient and the repetitive firing.
+fn summary_lines(out: &mut String, s: &FaultSection) {
+    let r = &s.replay;
     if let Some(mc) = &r.monte_carlo {
         let _ = writeln!(
             out,
@@ -403,45 +459,6 @@ pub fn render(s: &FaultSection, details: usize, rows: Option<usize>) -> String {
             e.released_fast_j
         );
     }
-    let _ = writeln!(
-        out,
-        "\nWorst {} scenarios in detail",
-        details.min(r.scenarios.len())
-    );
-    for sc in r.scenarios.iter().take(details) {
-        detail(&mut out, sc);
-    }
-    if !r.notes.is_empty() {
-        let _ = writeln!(out, "\nNotes");
-        for n in &r.notes {
-            let _ = writeln!(out, "- {n}");
-        }
-    }
-    let _ = writeln!(out, "\n{}", s.verdict.line());
-    let _ = writeln!(
-        out,
-        "\n{} scenarios{} in {:.1} s ({:.1} s for {} unit solves, {:.1} s for the scenarios, {} \
-         shared with an identical one); capacitance matrix of {} electrodes (asymmetry {:.1e})",
-        r.scenarios.len(),
-        r.monte_carlo
-            .as_ref()
-            .map_or_else(String::new, |mc| format!(
-                " and {} Monte Carlo draws (the worst kept as a scenario)",
-                mc.draws
-            )),
-        s.seconds,
-        s.basis_seconds,
-        r.electrodes.len(),
-        s.scenario_seconds,
-        r.shared_evaluations,
-        r.electrodes.len(),
-        r.capacitance_asymmetry
-    );
-    let _ = writeln!(out, "\nCautions");
-    for c in &s.cautions {
-        let _ = writeln!(out, "- {}: {}", c.topic, c.text);
-    }
-    out
 }
 
 fn detail(out: &mut String, sc: &ScenarioResult) {

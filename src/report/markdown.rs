@@ -378,7 +378,7 @@ fn fault_section(o: &mut String, report: &Report, f: &crate::faults::FaultReplay
         "\n**{}**\n",
         cell(&crate::report::faults::FaultVerdict::of(f, report.design_factor).line())
     );
-    for n in &f.notes {
+    for n in &crate::report::faults::notes(f) {
         let _ = writeln!(o, "- {}", cell(n));
     }
     let _ = writeln!(o);

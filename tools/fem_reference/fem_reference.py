@@ -10,10 +10,17 @@ relative difference between the two finest levels.
 
 Flow: design file -> bodies -> gmsh mesh -> P2 solve -> boundary flux -> peaks -> JSON.
 
+Dielectrics (eps_r given by hand) are meshed as their own subdomains; the peak tangential
+field along each dielectric's surface is the largest derivative of the solution along the
+surface (the trace of the continuous P2 solution on an interface edge is one function, so the
+tangential field is the same from either side).
+
 Supported input (what the reference designs under tests/data/fem use): a cylindrical or
-spherical grounded tank, conductors of shape sphere, torus, rounded_cylinder and disc, and
-potentials "ground", "terminal", "0.4 terminal" or an absolute voltage ("350 kV"). Anything
-else is refused with a message naming the key, the value, its line and what is accepted.
+spherical grounded tank, conductors of shape sphere, torus, rounded_cylinder and disc,
+potentials "ground", "terminal", "0.4 terminal" or an absolute voltage ("350 kV"), and
+dielectrics of shape sphere, torus or rounded_cylinder with `eps_r`, lying free in the gas
+(touching neither a conductor nor the tank; not checked). Anything else is refused with a message naming
+the key, the value, its line and what is accepted.
 
 Usage:
     python fem_reference.py DESIGN.toml [--out FILE.json] [--levels 40,80,160]
@@ -120,6 +127,7 @@ class Body:
     z0: float = 0.0
     z1: float = 0.0
     corner: float = 0.0
+    eps_r: float = 1.0  # dielectrics only
 
     def curvature_radius(self) -> float:
         """Smallest radius of curvature of the surface, metres."""
@@ -127,8 +135,12 @@ class Body:
 
     def distance(self, r: np.ndarray, z: np.ndarray) -> np.ndarray:
         """Unsigned distance from points to the surface, metres."""
+        return np.abs(self.signed(r, z))
+
+    def signed(self, r: np.ndarray, z: np.ndarray) -> np.ndarray:
+        """Signed distance from points to the surface (negative inside), metres."""
         if self.shape == "disk":
-            return np.abs(np.hypot(r - self.rc, z - self.zc) - self.radius)
+            return np.hypot(r - self.rc, z - self.zc) - self.radius
         # A solid body on the axis is mirrored to negative r (its axis side is no corner).
         lo = -self.r1 if self.r0 <= 0.0 else self.r0
         c = self.corner
@@ -136,7 +148,7 @@ class Body:
         hr, hz = 0.5 * (self.r1 - lo) - c, 0.5 * (self.z1 - self.z0) - c
         qr, qz = np.abs(r - cr) - hr, np.abs(z - cz) - hz
         outside = np.hypot(np.maximum(qr, 0.0), np.maximum(qz, 0.0))
-        return np.abs(outside + np.minimum(np.maximum(qr, qz), 0.0) - c)
+        return outside + np.minimum(np.maximum(qr, qz), 0.0) - c
 
 
 @dataclass
@@ -147,6 +159,7 @@ class Design:
     radius: float
     length: float
     bodies: list[Body] = field(default_factory=list)
+    dielectrics: list[Body] = field(default_factory=list)
 
 
 SHAPES = {
@@ -155,7 +168,18 @@ SHAPES = {
     "rounded_cylinder": ("r", "z", "corner_radius"),
     "disc": ("r", "center_z", "thickness", "corner_radius"),
 }
-TOP_LEVEL = {"title", "tank", "gas", "terminal", "conductor", "checks", "mesh", "probe"}
+DIELECTRIC_SHAPES = ("sphere", "torus", "rounded_cylinder")
+TOP_LEVEL = {
+    "title",
+    "tank",
+    "gas",
+    "terminal",
+    "conductor",
+    "dielectric",
+    "checks",
+    "mesh",
+    "probe",
+}
 
 
 def read_potential(rd: Reader, text: object, terminal: float | None, path: str) -> float:
@@ -175,6 +199,45 @@ def read_potential(rd: Reader, text: object, terminal: float | None, path: str) 
             raise rd.fail(f"{path}.potential", text, accepted) from None
         return f * terminal
     return rd.quantity({"potential": t}, "potential", VOLTAGE_UNITS, accepted, path)
+
+
+def read_shape(rd: Reader, c: dict, shape: str, name: str, v: float, at: str) -> Body:
+    """The cross-section of one body (conductor at `v`, or dielectric) from its shape keys."""
+    if shape == "sphere":
+        b = Body(name, "disk", v, 0.0, rd.length(c, "center_z", at), rd.length(c, "radius", at))
+    elif shape == "torus":
+        b = Body(
+            name,
+            "disk",
+            v,
+            rd.length(c, "major_radius", at),
+            rd.length(c, "center_z", at),
+            rd.length(c, "minor_radius", at),
+        )
+        if b.radius >= b.rc:
+            raise rd.fail(f"{at}.minor_radius", c["minor_radius"], "less than major_radius")
+    else:
+        r0, r1 = rd.interval(c, "r", at)
+        if shape == "disc":
+            zc, t = rd.length(c, "center_z", at), rd.length(c, "thickness", at)
+            z0, z1 = zc - 0.5 * t, zc + 0.5 * t
+        else:
+            z0, z1 = rd.interval(c, "z", at)
+        limit = min(r1 if r0 <= 0.0 else 0.5 * (r1 - r0), 0.5 * (z1 - z0))
+        if "corner_radius" in c:
+            corner = rd.length(c, "corner_radius", at)
+        elif shape == "disc":
+            corner = limit  # a disc's edge is fully rounded unless told otherwise
+        else:
+            raise DesignError(f"{rd.path}: `{at}.corner_radius` is missing")
+        if not 0.0 < corner <= limit * (1 + 1e-9):
+            raise rd.fail(
+                f"{at}.corner_radius",
+                c["corner_radius"],
+                f"a radius > 0 and <= {limit * 1e3:g} mm (a sharp corner has no finite peak)",
+            )
+        b = Body(name, "rect", v, r0=r0, r1=r1, z0=z0, z1=z1, corner=corner)
+    return b
 
 
 def read_design(path: Path) -> Design:
@@ -217,41 +280,25 @@ def read_design(path: Path) -> Design:
         if "potential" not in c:
             raise DesignError(f"{path}: `{at}.potential` is missing (conductor \"{name}\")")
         v = read_potential(rd, c["potential"], terminal, at)
-        if shape == "sphere":
-            b = Body(name, "disk", v, 0.0, rd.length(c, "center_z", at), rd.length(c, "radius", at))
-        elif shape == "torus":
-            b = Body(
-                name,
-                "disk",
-                v,
-                rd.length(c, "major_radius", at),
-                rd.length(c, "center_z", at),
-                rd.length(c, "minor_radius", at),
-            )
-            if b.radius >= b.rc:
-                raise rd.fail(f"{at}.minor_radius", c["minor_radius"], "less than major_radius")
-        else:
-            r0, r1 = rd.interval(c, "r", at)
-            if shape == "disc":
-                zc, t = rd.length(c, "center_z", at), rd.length(c, "thickness", at)
-                z0, z1 = zc - 0.5 * t, zc + 0.5 * t
-            else:
-                z0, z1 = rd.interval(c, "z", at)
-            limit = min(r1 if r0 <= 0.0 else 0.5 * (r1 - r0), 0.5 * (z1 - z0))
-            if "corner_radius" in c:
-                corner = rd.length(c, "corner_radius", at)
-            elif shape == "disc":
-                corner = limit  # a disc's edge is fully rounded unless told otherwise
-            else:
-                raise DesignError(f"{path}: `{at}.corner_radius` is missing")
-            if not 0.0 < corner <= limit * (1 + 1e-9):
-                raise rd.fail(
-                    f"{at}.corner_radius",
-                    c["corner_radius"],
-                    f"a radius > 0 and <= {limit * 1e3:g} mm (a sharp corner has no finite peak)",
-                )
-            b = Body(name, "rect", v, r0=r0, r1=r1, z0=z0, z1=z1, corner=corner)
+        b = read_shape(rd, c, shape, name, v, at)
         design.bodies.append(b)
+    for k, c in enumerate(doc.get("dielectric", [])):
+        at = f"dielectric[{k}]"
+        name = c.get("name", at)
+        shape = c.get("shape")
+        if shape not in DIELECTRIC_SHAPES:
+            raise rd.fail(f"{at}.shape", shape, ", ".join(f'"{s}"' for s in DIELECTRIC_SHAPES))
+        for key in c:
+            if key not in (*SHAPES[shape], "name", "shape", "eps_r"):
+                raise rd.fail(
+                    f"{at}.{key}", c[key], f"keys of a {shape} dielectric: {SHAPES[shape]}, eps_r"
+                )
+        eps = c.get("eps_r")
+        if not (isinstance(eps, (int, float)) and eps >= 1.0):
+            raise rd.fail(f"{at}.eps_r", eps, "a number >= 1 (materials by name are not read)")
+        b = read_shape(rd, c, shape, name, 0.0, at)
+        b.eps_r = float(eps)
+        design.dielectrics.append(b)
     if not design.bodies:
         raise DesignError(f"{path}: no [[conductor]] found")
     return design
@@ -326,8 +373,32 @@ def build_mesh(d: Design, n: float, growth: float = GROWTH):
                 lo = -b.r1 if b.r0 <= 0.0 else b.r0
                 tools.append((2, rounded_rectangle(occ, lo, b.r1, b.z0, b.z1, b.corner)))
         field_region, _ = occ.cut(region, tools)
+        insulators = []
+        for b in d.dielectrics:
+            if b.shape == "disk":
+                insulators.append((2, occ.addDisk(b.rc, b.zc, 0, b.radius, b.radius)))
+            else:
+                lo = -b.r1 if b.r0 <= 0.0 else b.r0
+                insulators.append((2, rounded_rectangle(occ, lo, b.r1, b.z0, b.z1, b.corner)))
+        if insulators:
+            # The half-plane r >= 0 of each dielectric (one on the axis is drawn mirrored)
+            # becomes a subdomain of its own, sharing its outline with the gas around it (a
+            # conforming mesh across each interface).
+            big = 4.0 * max(d.radius, d.length)
+            half = occ.addRectangle(0, -big, 0, big, 3 * big)
+            insulators, _ = occ.intersect(insulators, [(2, half)])
+            field_region, _ = occ.fragment(field_region, insulators)
         occ.synchronize()
         curves = [c[1] for c in gmsh.model.getBoundary(field_region, oriented=False)]
+        interfaces: dict[int, list[int]] = {k: [] for k in range(len(d.dielectrics))}
+        for dim, tag in field_region:
+            cx, cy, _ = occ.getCenterOfMass(dim, tag)
+            inside = [float(b.signed(np.array(cx), np.array(cy))) for b in d.dielectrics]
+            for k, sd in enumerate(inside):
+                if sd < 0.0:
+                    interfaces[k].extend(
+                        c[1] for c in gmsh.model.getBoundary([(dim, tag)], oriented=False)
+                    )
         owner: dict[int, list[int]] = {k: [] for k in range(len(d.bodies))}
         for c in curves:
             lo, hi = gmsh.model.getParametrizationBounds(1, c)
@@ -344,6 +415,10 @@ def build_mesh(d: Design, n: float, growth: float = GROWTH):
             if not owner[k]:
                 raise DesignError(f"{d.path}: conductor \"{b.name}\" has no surface in the field region")
             by_rho.setdefault(b.curvature_radius(), []).extend(owner[k])
+        for k, b in enumerate(d.dielectrics):
+            if not interfaces[k]:
+                raise DesignError(f"{d.path}: dielectric \"{b.name}\" has no surface in the field region")
+            by_rho.setdefault(b.curvature_radius(), []).extend(interfaces[k])
         fields = []
         for rho, owned in by_rho.items():
             dist = f.add("Distance")
@@ -390,8 +465,50 @@ def build_mesh(d: Design, n: float, growth: float = GROWTH):
 
 @BilinearForm
 def stiffness(u, v, w):
-    """Axisymmetric Laplacian: integral of r grad u . grad v over the (r, z) half-plane."""
-    return w.x[0] * dot(grad(u), grad(v))
+    """Axisymmetric Laplacian: integral of eps_r r grad u . grad v over the (r, z) half-plane."""
+    return w.eps * w.x[0] * dot(grad(u), grad(v))
+
+
+def element_permittivity(d: Design, mesh) -> np.ndarray:
+    """Relative permittivity of each triangle, from the dielectric its vertices' centroid lies
+    in (1 in the gas)."""
+    cr, cz = mesh.p[:, mesh.t[:3]].mean(axis=1)
+    eps = np.ones(mesh.t.shape[1])
+    for b in d.dielectrics:
+        eps[b.signed(cr, cz) < 0.0] = b.eps_r
+    return eps
+
+
+def insulator_peaks(d: Design, mesh, element, u: np.ndarray, eps: np.ndarray) -> list[dict]:
+    """Peak tangential field along each dielectric's surface: on every interface edge (an
+    interior edge between triangles of different permittivity) the derivative of the solution
+    along the curved edge at 10 Gauss points; the largest is the peak."""
+    f2t = mesh.f2t
+    interior = f2t[1] >= 0
+    other = np.where(interior, f2t[1], f2t[0])
+    interface = np.nonzero(interior & (eps[f2t[0]] != eps[other]))[0]
+    mid = mesh.p[:, mesh.facets[:, interface]].mean(axis=1)
+    out = []
+    for b in d.dielectrics:
+        fk = interface[b.distance(mid[0], mid[1]) < 1e-3 * b.curvature_radius()]
+        if len(fk) == 0:
+            raise RuntimeError(f"dielectric {b.name}: no interface edges found")
+        fb = FacetBasis(mesh, element, facets=fk, intorder=19)
+        g = fb.interpolate(u).grad
+        n = fb.normals
+        e_t = np.abs(-g[0] * n[1] + g[1] * n[0])
+        x = fb.global_coordinates().value
+        i, j = np.unravel_index(np.argmax(e_t), e_t.shape)
+        out.append(
+            {
+                "dielectric": b.name,
+                "side": "gas",
+                "peak_tangential_v_per_m": float(e_t[i, j]),
+                "r_m": float(x[0][i, j]),
+                "z_m": float(x[1][i, j]),
+            }
+        )
+    return out
 
 
 @BilinearForm
@@ -405,7 +522,8 @@ def solve_level(d: Design, n: float, growth: float) -> dict:
     mesh = build_mesh(d, n, growth)
     element = ElementTriP2()
     basis = Basis(mesh, element)
-    a = stiffness.assemble(basis)
+    eps = element_permittivity(d, mesh)
+    a = stiffness.assemble(basis, eps=np.repeat(eps[:, None], basis.X.shape[1], axis=1))
 
     # Tag boundary facets by the surface their curved midside node lies on.
     facets = mesh.boundary_facets()
@@ -457,24 +575,26 @@ def solve_level(d: Design, n: float, growth: float) -> dict:
                 "raw_gradient_peak_v_per_m": float(e_grad.max()),
             }
         )
+    tangential = insulator_peaks(d, mesh, element, u, eps) if d.dielectrics else []
     return {
         "cells_per_radius": n,
         "unknowns": int(basis.N),
         "triangles": int(mesh.t.shape[1]),
-        "smallest_surface_cell_m": min(b.curvature_radius() for b in d.bodies) / n,
+        "smallest_surface_cell_m": min(b.curvature_radius() for b in d.bodies + d.dielectrics) / n,
         "seconds": round(time.time() - t0, 2),
         "peaks": peaks,
+        "insulator_peaks": tangential,
     }
 
 
-def estimate(levels: list[dict]) -> list[dict]:
+def estimate(levels: list[dict], key: str = "peaks", value: str = "peak_v_per_m") -> list[dict]:
     """Peaks of the finest level with their error: the relative difference between the two
     finest levels (conservative; with three levels the observed order and the Richardson
     extrapolation are given beside it)."""
     out = []
     ratio = levels[-1]["cells_per_radius"] / levels[-2]["cells_per_radius"]
-    for k, p in enumerate(levels[-1]["peaks"]):
-        f = [lv["peaks"][k]["peak_v_per_m"] for lv in levels]
+    for k, p in enumerate(levels[-1][key]):
+        f = [lv[key][k][value] for lv in levels]
         row = dict(p)
         row["reference_rel_error"] = abs(f[-1] - f[-2]) / abs(f[-1])
         if len(f) >= 3 and (f[-2] - f[-3]) != 0.0 and (f[-1] - f[-2]) != 0.0:
@@ -505,7 +625,10 @@ def reference(d: Design, ns: list[float], growth: float = GROWTH) -> dict:
         "reference_rel_error": "relative difference between the two finest levels",
         "growth": growth,
         "peaks": estimate(levels),
-        "levels": [{k: v for k, v in lv.items() if k != "peaks"} for lv in levels],
+        "insulator_peaks": estimate(levels, "insulator_peaks", "peak_tangential_v_per_m"),
+        "levels": [
+            {k: v for k, v in lv.items() if k not in ("peaks", "insulator_peaks")} for lv in levels
+        ],
     }
 
 
@@ -566,6 +689,12 @@ def main(argv: list[str]) -> int:
         print(
             f"{p['conductor']:>16}: {p['peak_v_per_m'] / 1e6:10.5f} MV/m at "
             f"r = {p['r_m'] * 1e3:8.3f} mm, z = {p['z_m'] * 1e3:8.3f} mm, "
+            f"error {p['reference_rel_error']:.1e}"
+        )
+    for p in result["insulator_peaks"]:
+        print(
+            f"{p['dielectric']:>16}: {p['peak_tangential_v_per_m'] / 1e6:10.5f} MV/m tangential "
+            f"at r = {p['r_m'] * 1e3:8.3f} mm, z = {p['z_m'] * 1e3:8.3f} mm, "
             f"error {p['reference_rel_error']:.1e}"
         )
     print(f"wrote {out} in {time.time() - t0:.1f} s")

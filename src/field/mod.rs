@@ -11,6 +11,11 @@
 //! within about 53° of the normal are used, so that the division never amplifies error by more
 //! than 1.7.
 
+mod insulator;
+mod peak;
+
+pub use insulator::{InsulatorPeak, InsulatorSample, JUNCTION_REACH_CELLS, JunctionSample};
+
 use crate::geometry::Point;
 use crate::mesh::{DIRS, Dir, FixedId, Holder, Mesh};
 use crate::model::{Model, Tank};
@@ -141,6 +146,13 @@ impl<'a> FieldMap<'a> {
                 (0..n).map(|k| self.node_field(k)).collect()
             }
         })
+    }
+
+    /// The larger spacing of the grid cell that holds `p`.
+    fn spacing_at(&self, p: Point) -> f64 {
+        let m = self.mesh;
+        let (i, j) = (m.r.locate(p.r), m.z.locate(p.z));
+        (m.r.x[i + 1] - m.r.x[i]).max(m.z.x[j + 1] - m.z.x[j])
     }
 
     fn fixed_potential(&self, id: FixedId) -> f64 {
@@ -298,149 +310,6 @@ impl<'a> FieldMap<'a> {
         })
     }
 
-    /// Peak surface field of every conductor, in conductor order.
-    pub fn conductor_peaks(&self, samples: &[SurfaceSample]) -> Vec<ConductorPeak> {
-        let mut peaks: Vec<ConductorPeak> = self
-            .model
-            .conductors
-            .iter()
-            .enumerate()
-            .map(|(index, c)| ConductorPeak {
-                index,
-                name: c.name.clone(),
-                potential_v: self.potentials[index],
-                peak_surface_field_v_per_m: 0.0,
-                at: Point::new(f64::NAN, f64::NAN),
-                medium: Medium::Gas,
-                samples: 0,
-                scatter_v_per_m: 0.0,
-            })
-            .collect();
-        let mut best: Vec<Option<&SurfaceSample>> = vec![None; peaks.len()];
-        for s in samples {
-            let Some(c) = s.conductor.conductor_index() else {
-                continue;
-            };
-            peaks[c].samples += 1;
-            if best[c].is_none_or(|b| s.e > b.e) {
-                best[c] = Some(s);
-            }
-        }
-        for (p, b) in peaks.iter_mut().zip(best) {
-            if let Some(b) = b {
-                let (top, scatter) = self.smooth_peak(samples, b);
-                p.peak_surface_field_v_per_m = top.e;
-                p.at = top.at;
-                p.medium = top.medium;
-                p.scatter_v_per_m = scatter;
-            }
-        }
-        peaks
-    }
-
-    /// The maximum of the surface field near the largest sample `best`, taken from the smooth
-    /// profile through the samples around it rather than from the one sample: a least-squares
-    /// quadratic in arc length over the samples of the same conductor, medium and side within
-    /// a window of 0.15 radius of curvature (at least 2.5 cells), maximised continuously. The
-    /// individual samples scatter by a few 0.1 % with where the grid happens to cut the
-    /// surface; the fitted maximum does not jump with the sampling. On the axis the profile is
-    /// mirrored (it is even in r there). Where the surface is not resolved (a cell above half
-    /// the radius of curvature), too few samples lie in the window, or the fit is not a
-    /// maximum, the largest sample is kept.
-    pub fn peak_near(&self, samples: &[SurfaceSample], best: &SurfaceSample) -> SurfaceSample {
-        self.smooth_peak(samples, best).0
-    }
-
-    /// As [`FieldMap::peak_near`], with the RMS scatter of the samples about the fitted
-    /// profile (0 when the largest sample is kept).
-    pub fn smooth_peak(
-        &self,
-        samples: &[SurfaceSample],
-        best: &SurfaceSample,
-    ) -> (SurfaceSample, f64) {
-        let Some(c) = best.conductor.conductor_index() else {
-            return (*best, 0.0);
-        };
-        let shape = &self.model.conductors[c].shape;
-        let rho = shape.min_radius_of_curvature();
-        let m = self.mesh;
-        let (i, j) = (m.r.locate(best.at.r), m.z.locate(best.at.z));
-        let h = (m.r.x[i + 1] - m.r.x[i]).max(m.z.x[j + 1] - m.z.x[j]);
-        if !(rho > 0.0 && h <= 0.5 * rho) {
-            return (*best, 0.0);
-        }
-        let w = (0.15 * rho).max(2.5 * h);
-        let n0 = best.normal;
-        let t = Point::new(-n0.z, n0.r);
-        // On the axis with the normal along it the profile is even in r: mirror the samples.
-        let mirror = best.at.r < w && n0.r.abs() < 0.2;
-        let mut pts: Vec<(f64, f64)> = Vec::new();
-        for s in samples {
-            if s.conductor != best.conductor || s.medium != best.medium {
-                continue;
-            }
-            if s.normal.r * n0.r + s.normal.z * n0.z < 0.7 {
-                continue;
-            }
-            let mut add = |at: Point| {
-                let (dr, dz) = (at.r - best.at.r, at.z - best.at.z);
-                if dr * dr + dz * dz <= w * w {
-                    pts.push(((dr * t.r + dz * t.z) / w, s.e));
-                }
-            };
-            add(s.at);
-            if mirror && s.at.r > 0.0 {
-                add(Point::new(-s.at.r, s.at.z));
-            }
-        }
-        let (lo, hi) = pts
-            .iter()
-            .fold((0.0f64, 0.0f64), |(lo, hi), &(x, _)| (lo.min(x), hi.max(x)));
-        if pts.len() < 5 || lo > -0.2 || hi < 0.2 {
-            return (*best, 0.0);
-        }
-        // Normal equations of y = a + b x + c x² (x scaled by the window: well conditioned).
-        let mut ata = nalgebra::Matrix3::<f64>::zeros();
-        let mut aty = nalgebra::Vector3::<f64>::zeros();
-        for &(x, y) in &pts {
-            let row = nalgebra::Vector3::new(1.0, x, x * x);
-            ata += row * row.transpose();
-            aty += row * y;
-        }
-        let Some(coef) = ata.lu().solve(&aty) else {
-            return (*best, 0.0);
-        };
-        let (a, b, c) = (coef[0], coef[1], coef[2]);
-        let scatter = (pts
-            .iter()
-            .map(|&(x, y)| (y - (a + b * x + c * x * x)).powi(2))
-            .sum::<f64>()
-            / (pts.len() - 3) as f64)
-            .sqrt();
-        let (x_top, e_top) = if c < 0.0 && (-b / (2.0 * c)) >= lo && (-b / (2.0 * c)) <= hi {
-            let x = -b / (2.0 * c);
-            (x, a + b * x + c * x * x)
-        } else {
-            (0.0, a)
-        };
-        if !(e_top.is_finite() && e_top > 0.0) {
-            return (*best, 0.0);
-        }
-        // The point on the tangent, brought back onto the surface along the normal.
-        let guess = Point::new(best.at.r + t.r * x_top * w, best.at.z + t.z * x_top * w);
-        let d = shape.sdf(guess);
-        let n = shape.normal(guess);
-        let at = Point::new((guess.r - d * n.r).max(0.0), guess.z - d * n.z);
-        let top = SurfaceSample {
-            at,
-            e: e_top,
-            e_normal: e_top.copysign(best.e_normal),
-            normal: shape.normal(at),
-            ..*best
-        };
-        (top, scatter)
-    }
-
     /// Field (E_r, E_z) at a free node, from quadratic differences that use the true distance
     /// to any neighbouring surface; zero inside conductors.
     pub fn node_field(&self, k: usize) -> [f64; 2] {
@@ -562,54 +431,6 @@ impl<'a> FieldMap<'a> {
             }
         }
         0.5 * w * EPSILON_0 * std::f64::consts::TAU
-    }
-}
-
-/// One point on an insulator surface with the tangential field there.
-#[derive(Debug, Clone, Copy, Serialize)]
-pub struct InsulatorSample {
-    /// Dielectric index.
-    pub dielectric: usize,
-    /// The point on the dielectric surface.
-    pub at: Point,
-    /// Outward unit normal of the dielectric (towards the gas or vacuum side).
-    pub normal: Point,
-    /// The medium on the outer side: `Gas` or `Vacuum`.
-    pub side: Medium,
-    /// Magnitude of the field component along the surface (in the (r, z) plane), V/m.
-    pub e_tangential: f64,
-    /// Magnitude of the whole field just outside the surface, V/m.
-    pub e: f64,
-}
-
-impl FieldMap<'_> {
-    /// The tangential field along the free surface of dielectric `index`: one sample where each
-    /// grid link crosses its outline, on the outer (gas or vacuum) side. Points inside a
-    /// conductor (an electrode clamping the insulator) or against another dielectric (a bulk
-    /// interface, not a surface) are left out. The tangential component is continuous across
-    /// the interface, so the interpolated field just outside gives it on both sides.
-    pub fn insulator_samples(&self, index: usize) -> Vec<InsulatorSample> {
-        self.mesh
-            .insulator_sites(self.model, index)
-            .iter()
-            .map(|site| {
-                let n = site.normal;
-                let f = self.at(site.outside);
-                let tangent = [-n.z, n.r];
-                InsulatorSample {
-                    dielectric: index,
-                    at: site.at,
-                    normal: n,
-                    side: if site.vacuum_side {
-                        Medium::Vacuum
-                    } else {
-                        Medium::Gas
-                    },
-                    e_tangential: (f.field[0] * tangent[0] + f.field[1] * tangent[1]).abs(),
-                    e: crate::geometry::magnitude(f.field[0], f.field[1]),
-                }
-            })
-            .collect()
     }
 }
 
