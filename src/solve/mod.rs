@@ -182,10 +182,10 @@ impl Solver {
         }
         let n = b.len();
         // Right-hand side, solution and the Krylov work vectors (BiCGStab's shadow residual
-        // in single precision).
+        // and the preconditioned vectors in single precision).
         let vector_bytes = match self.params.scheme {
-            Scheme::Symmetric => 6 * 8,
-            Scheme::ShortleyWeller => 7 * 8 + 4,
+            Scheme::Symmetric => 5 * 8 + 4,
+            Scheme::ShortleyWeller => 6 * 8 + 2 * 4,
         };
         let memory_bytes = self.op.bytes() + self.mg.bytes() + vector_bytes * n;
         let unknowns = self

@@ -167,13 +167,14 @@ impl Multigrid {
     /// An estimate of the bytes one V-cycle ([`Multigrid::apply`]) must move between memory
     /// and the processor, from the stencil width and the sweeps of every level: each pass
     /// streams the arrays it reads and writes once (single precision, 4 bytes; a mask byte),
-    /// and what one pass leaves in cache is not counted again. Per node and pass: a line
-    /// relaxation reads the stencil slots, b, x and its pivots and writes x and its scratch
-    /// (the first pass of a cycle reads no x); the residual formed inside the restriction
-    /// reads the stencil, b, x and the mask on the rows it forms (half of them after the
-    /// non-symmetric pre-smoother); the prolongation reads and writes x and reads the mask.
-    /// The finest level also converts the double-precision residual in (8 + 4) and the
-    /// correction out (4 + 8).
+    /// and what one pass leaves in cache is not counted again. Per node and pass: an r-line
+    /// relaxation reads the stencil slots, b, x and its pivots and writes x; a z-line one
+    /// reads the slots but the centre and north (its pivots stand for them), b, x and its two
+    /// pivot arrays and writes x (the first pass of a cycle reads no x); the residual formed
+    /// inside the restriction reads the stencil, b, x and the mask on the rows it forms (half
+    /// of them after the non-symmetric pre-smoother); the prolongation reads and writes x and
+    /// reads the mask. The finest level also converts the double-precision residual in
+    /// (8 + 4) and copies the single-precision correction out (4 + 4).
     pub fn bytes_per_cycle(&self) -> f64 {
         let last = self.levels.len() - 1;
         let mut total = 0.0;
@@ -185,8 +186,8 @@ impl Multigrid {
                 continue;
             }
             let slots = if l.nine { 9.0 } else { 5.0 };
-            let r_pass = 4.0 * (slots + 5.0);
-            let z_pass = 4.0 * (slots + 5.0);
+            let r_pass = 4.0 * (slots + 4.0);
+            let z_pass = 4.0 * (slots + 3.0);
             let per_sweep = if self.params.symmetric {
                 2.0 * (r_pass + z_pass)
             } else {
@@ -200,7 +201,7 @@ impl Multigrid {
             let prolong = 8.0 + 1.0;
             total += n * (self.params.sweeps as f64 * per_sweep + zero_start + residual + prolong);
             if li == 0 {
-                total += n * 24.0;
+                total += n * 20.0;
             }
         }
         total
@@ -208,6 +209,17 @@ impl Multigrid {
 
     /// z = M⁻¹ r: one V-cycle from a zero guess.
     pub fn apply(&mut self, r: &[f64], z: &mut [f64]) {
+        self.apply_to(r, z);
+    }
+
+    /// z = M⁻¹ r in single precision, as the hierarchy forms it (the Krylov iterations keep
+    /// their preconditioned directions so: widening them to double precision would add
+    /// nothing but bytes to stream).
+    pub fn apply_f32(&mut self, r: &[f64], z: &mut [f32]) {
+        self.apply_to(r, z);
+    }
+
+    fn apply_to<T: From<f32>>(&mut self, r: &[f64], z: &mut [T]) {
         let l0 = &mut self.levels[0];
         let (nr, pw) = (l0.nr, l0.pw);
         for (rr, bb) in r.chunks_exact(nr).zip(l0.b[pw..].chunks_exact_mut(pw)) {
@@ -219,7 +231,7 @@ impl Multigrid {
         let l0 = &self.levels[0];
         for (zr, xx) in z.chunks_exact_mut(nr).zip(l0.x[pw..].chunks_exact(pw)) {
             for (v, &x) in zr.iter_mut().zip(&xx[1..nr + 1]) {
-                *v = x as f64;
+                *v = T::from(x);
             }
         }
     }
