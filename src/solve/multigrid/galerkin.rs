@@ -106,13 +106,16 @@ impl Product<'_> {
                 counts[dj] += 1;
             }
         }
-        for (trow, out) in t.chunks_exact(9).zip(acc_row.iter_mut()) {
-            for dj in 0..3 {
-                let v = &trow[3 * dj..3 * dj + 3];
-                for &(slots, w) in &targets[dj][..counts[dj]] {
-                    for dci in 0..3 {
-                        out[slots[dci]] += w * v[dci];
-                    }
+        // One pass over the row per fine row and z-parent, its three slots fixed in the
+        // loop; each coarse slot still receives its terms in the order (dj, parent, dci).
+        for dj in 0..3 {
+            for &([s0, s1, s2], w) in &targets[dj][..counts[dj]] {
+                assert!(s0 < 9 && s1 < 9 && s2 < 9);
+                for (trow, out) in t.chunks_exact(9).zip(acc_row.iter_mut()) {
+                    let v = &trow[3 * dj..3 * dj + 3];
+                    out[s0] += w * v[0];
+                    out[s1] += w * v[1];
+                    out[s2] += w * v[2];
                 }
             }
         }

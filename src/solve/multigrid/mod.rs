@@ -11,7 +11,7 @@
 //! even lines first), which stays effective on the stretched cells of a graded grid; the
 //! post-smoother runs the same steps in reverse, so for a symmetric operator the V-cycle is a
 //! symmetric positive-definite preconditioner, as conjugate gradients need. The coarsest level
-//! is solved by dense LU.
+//! is solved by band LU factors.
 //!
 //! The hierarchy works in single precision on padded arrays (a ring of ghost nodes with zero
 //! coefficients, so the kernels need no bounds tests): a preconditioner needs no more, and it
@@ -20,17 +20,18 @@
 //!
 //! Files: level.rs (one level's arrays, line factors, residual), relax.rs (zebra line
 //! relaxation), transfer.rs (interpolation weights, restriction, prolongation), galerkin.rs
-//! (the coarse operators).
+//! (the coarse operators), band.rs (the coarsest level's direct solve).
 
+mod band;
 mod galerkin;
 mod level;
 mod relax;
 mod transfer;
 
 use crate::solve::operator::Operator;
+use band::BandLu;
 use galerkin::{SLOTS, galerkin};
 use level::Level;
-use nalgebra::{DMatrix, DVector};
 use transfer::{axis_map, coarse_indices, prolong_add, restrict_residual};
 
 /// Settings of the V-cycle.
@@ -60,7 +61,7 @@ impl Default for MgParams {
 #[derive(Debug, Clone)]
 pub struct Multigrid {
     levels: Vec<Level>,
-    coarse_lu: Option<nalgebra::LU<f64, nalgebra::Dyn, nalgebra::Dyn>>,
+    coarse_lu: Option<BandLu>,
     params: MgParams,
 }
 
@@ -128,24 +129,23 @@ impl Multigrid {
             levels[last].map = Some((mr, mz));
             levels.push(coarse);
         }
+        // The coarsest level in natural order (node j·nr + i): its nine-point couplings lie
+        // within nr + 1 of the diagonal.
         let coarse_lu = levels.last().map(|cl| {
-            let n = cl.nr * cl.nz;
-            let mut m = DMatrix::<f64>::zeros(n, n);
-            for j in 0..cl.nz {
-                for i in 0..cl.nr {
-                    let k = j * cl.nr + i;
+            let entries = (0..cl.nz).flat_map(move |j| {
+                (0..cl.nr).flat_map(move |i| {
                     let p = cl.p(i, j);
-                    for (slot, di, dj) in SLOTS {
+                    SLOTS.iter().filter_map(move |&(slot, di, dj)| {
                         let (ii, jj) = (i as i64 + di as i64, j as i64 + dj as i64);
                         if ii < 0 || jj < 0 || ii >= cl.nr as i64 || jj >= cl.nz as i64 {
-                            continue;
+                            return None;
                         }
                         let q = jj as usize * cl.nr + ii as usize;
-                        m[(k, q)] += cl.entry(p, slot as usize);
-                    }
-                }
-            }
-            m.lu()
+                        Some((j * cl.nr + i, q, cl.entry(p, slot as usize)))
+                    })
+                })
+            });
+            BandLu::new(cl.nr * cl.nz, cl.nr + 1, cl.nr + 1, entries)
         });
         Multigrid {
             levels,
@@ -159,9 +159,11 @@ impl Multigrid {
         self.levels.len()
     }
 
-    /// Bytes held by the hierarchy (stencils, masks and work vectors).
+    /// Bytes held by the hierarchy (stencils, masks, work vectors and the coarsest
+    /// level's factors).
     pub fn bytes(&self) -> usize {
-        self.levels.iter().map(Level::bytes).sum()
+        self.levels.iter().map(Level::bytes).sum::<usize>()
+            + self.coarse_lu.as_ref().map_or(0, BandLu::bytes)
     }
 
     /// An estimate of the bytes one V-cycle ([`Multigrid::apply`]) must move between memory
@@ -181,7 +183,7 @@ impl Multigrid {
         for (li, l) in self.levels.iter().enumerate() {
             let n = (l.nr * l.nz) as f64;
             if li == last {
-                // Dense LU of a few hundred nodes: held in cache, its b and x streamed.
+                // The band LU of a few hundred nodes: held in cache, its b and x streamed.
                 total += 8.0 * n;
                 continue;
             }
@@ -288,23 +290,23 @@ impl Multigrid {
         }
     }
 
-    /// The coarsest level solved by the dense LU factors.
+    /// The coarsest level solved by the band LU factors.
     fn coarsest(&mut self) {
         let Some(l) = self.levels.last_mut() else {
             return;
         };
         if let Some(lu) = &self.coarse_lu {
-            let mut b = DVector::<f64>::zeros(l.nr * l.nz);
+            let mut b = vec![0.0f64; l.nr * l.nz];
             for j in 0..l.nz {
                 for i in 0..l.nr {
                     b[j * l.nr + i] = l.b[l.p(i, j)] as f64;
                 }
             }
-            if let Some(x) = lu.solve(&b) {
+            if lu.solve(&mut b) {
                 for j in 0..l.nz {
                     for i in 0..l.nr {
                         let p = l.p(i, j);
-                        l.x[p] = x[j * l.nr + i] as f32;
+                        l.x[p] = b[j * l.nr + i] as f32;
                     }
                 }
             }
