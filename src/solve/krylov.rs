@@ -6,6 +6,7 @@
 
 use crate::solve::multigrid::Multigrid;
 use crate::solve::operator::Operator;
+use crate::solve::zeroed;
 use rayon::prelude::*;
 
 /// Settings of the iteration.
@@ -181,7 +182,7 @@ fn start(
     params: &KrylovParams,
 ) -> Result<(f64, Vec<f64>, f64), KrylovInfo> {
     let bnorm = norm(b).max(f64::MIN_POSITIVE);
-    let mut r = vec![0.0; b.len()];
+    let mut r = zeroed(b.len());
     let rn = residual(op, x, b, &mut r);
     match converged_at(rn, bnorm, 0, params) {
         Some(info) => Err(info),
@@ -203,10 +204,13 @@ pub fn pcg(
         Err(done) => return done,
     };
     // The preconditioned residual as the hierarchy forms it, in single precision.
-    let mut z = vec![0.0f32; n];
+    let mut z = zeroed::<f32>(n);
     mg.apply_f32(&r, &mut z);
-    let mut p: Vec<f64> = z.iter().map(|&v| v as f64).collect();
-    let mut q = vec![0.0; n];
+    let mut p: Vec<f64> = zeroed(n);
+    for (pk, &zk) in p.iter_mut().zip(&z) {
+        *pk = zk as f64;
+    }
+    let mut q = zeroed(n);
     let mut rz = dot_single(&z, &r);
     for it in 1..=params.max_iterations {
         let [pq] = apply_reduce(op, &p, &mut q, |first, qs| {
@@ -266,12 +270,16 @@ pub fn bicgstab(
         Err(done) => return done,
     };
     // The shadow residual only has to stay fixed; single precision halves its memory.
-    let r0: Vec<f32> = r.iter().map(|&v| v as f32).collect();
-    let mut p = vec![0.0; n];
-    let mut v = vec![0.0; n];
+    let mut r0: Vec<f32> = zeroed(n);
+    for (a, &v) in r0.iter_mut().zip(&r) {
+        *a = v as f32;
+    }
+    let r0 = r0;
+    let mut p = zeroed(n);
+    let mut v = zeroed(n);
     // The preconditioned directions, in single precision as the hierarchy forms them.
-    let mut hat = vec![0.0f32; n];
-    let mut t = vec![0.0; n];
+    let mut hat = zeroed::<f32>(n);
+    let mut t = zeroed(n);
     let (mut rho, mut alpha, mut omega) = (1.0f64, 1.0f64, 1.0f64);
     let done = |op: &Operator, x: &[f64], r: &mut [f64], it: usize| -> Option<KrylovInfo> {
         let tn = residual(op, x, b, r);

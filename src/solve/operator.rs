@@ -165,7 +165,7 @@ impl Operator {
     pub fn assemble(mesh: &Mesh, scheme: Scheme) -> Operator {
         let n = mesh.nodes();
         let nr = mesh.nr();
-        let mut stencil: Vec<[f64; 5]> = Vec::with_capacity(n);
+        let mut stencil: Vec<[f64; 5]> = crate::solve::with_capacity(n);
         let mut boundary = Vec::new();
         for k in 0..n {
             let mut row = [0.0f64; 5];
@@ -199,7 +199,11 @@ impl Operator {
             nr,
             scheme,
             boundary,
-            fixed: mesh.fixed.clone(),
+            fixed: {
+                let mut fixed = crate::solve::with_capacity(n);
+                fixed.extend_from_slice(&mesh.fixed);
+                fixed
+            },
         }
     }
 
@@ -236,7 +240,7 @@ impl Operator {
     /// tank is at 0 V.
     pub fn rhs(&self, potentials: &[f64]) -> Vec<f64> {
         let n = self.fixed.len();
-        let mut b = vec![0.0; n];
+        let mut b = crate::solve::zeroed(n);
         let pot = |id: FixedId| -> f64 { id.conductor_index().map_or(0.0, |c| potentials[c]) };
         for (bk, &id) in b.iter_mut().zip(&self.fixed) {
             if id != FREE {

@@ -134,7 +134,7 @@ pub(super) fn galerkin(f: &Level, mr: &AxisMap, mz: &AxisMap, ci: &[usize], cj: 
     let (cnr, cnz) = (ci.len(), cj.len());
     let cn = cnr * cnz;
     let mut live = live_nodes(f, ci, cj);
-    let mut acc = vec![[0.0f64; 9]; cn];
+    let mut acc: Vec<[f64; 9]> = crate::solve::zeroed(cn);
     let slot_of = |oi: i64, oj: i64| -> usize {
         SLOTS
             .iter()

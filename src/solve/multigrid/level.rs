@@ -38,7 +38,7 @@ impl Level {
     pub(super) fn new(nr: usize, nz: usize, nine: bool) -> Level {
         let pw = nr + 2;
         let np = pw * (nz + 2);
-        let full = || vec![0.0f32; np];
+        let full = || crate::solve::zeroed::<f32>(np);
         let st = std::array::from_fn(|s| if s < 5 || nine { full() } else { Vec::new() });
         Level {
             nr,
@@ -46,7 +46,7 @@ impl Level {
             pw,
             nine,
             st,
-            mask: vec![0u8; np],
+            mask: crate::solve::zeroed(np),
             map: None,
             x: full(),
             b: full(),
