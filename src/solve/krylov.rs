@@ -6,6 +6,7 @@
 
 use crate::solve::multigrid::Multigrid;
 use crate::solve::operator::Operator;
+use crate::solve::zeroed;
 use rayon::prelude::*;
 
 /// Settings of the iteration.
@@ -53,8 +54,9 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
     }
 }
 
-/// (r̂₀, v) with the shadow vector held in single precision.
-fn dot_shadow(a: &[f32], b: &[f64]) -> f64 {
+/// (a, b) with a held in single precision (BiCGStab's shadow residual, a preconditioned
+/// residual).
+fn dot_single(a: &[f32], b: &[f64]) -> f64 {
     if a.len() >= PARALLEL_LEN {
         let partial: Vec<f64> = a
             .par_chunks(REDUCE_CHUNK)
@@ -82,9 +84,9 @@ fn add_partials<const K: usize>(partial: &[[f64; K]]) -> [f64; K] {
 /// y = A x fused with sums over the same rows: `f(first, ys)` returns the sums of one chunk
 /// of rows (from row `first`) once its products are in `ys`; the sums of the fixed chunks
 /// are added in order, so the result does not depend on the thread count.
-fn apply_reduce<const K: usize>(
+fn apply_reduce<const K: usize, T: Copy + Into<f64> + Sync>(
     op: &Operator,
-    x: &[f64],
+    x: &[T],
     y: &mut [f64],
     f: impl Fn(usize, &[f64]) -> [f64; K] + Sync,
 ) -> [f64; K] {
@@ -106,10 +108,10 @@ fn apply_reduce<const K: usize>(
 /// y += a·x and z += b·w in one pass, fused with sums over the updated z as in
 /// [`apply_reduce`].
 #[allow(clippy::too_many_arguments)]
-fn axpy2_reduce<const K: usize>(
+fn axpy2_reduce<const K: usize, T: Copy + Into<f64> + Sync>(
     y: &mut [f64],
     a: f64,
-    x: &[f64],
+    x: &[T],
     z: &mut [f64],
     b: f64,
     w: &[f64],
@@ -119,7 +121,7 @@ fn axpy2_reduce<const K: usize>(
         let first = c * REDUCE_CHUNK;
         let (xs, ws) = (&x[first..first + ys.len()], &w[first..first + zs.len()]);
         for k in 0..ys.len() {
-            ys[k] += a * xs[k];
+            ys[k] += a * xs[k].into();
             zs[k] += b * ws[k];
         }
         f(first, zs)
@@ -180,7 +182,7 @@ fn start(
     params: &KrylovParams,
 ) -> Result<(f64, Vec<f64>, f64), KrylovInfo> {
     let bnorm = norm(b).max(f64::MIN_POSITIVE);
-    let mut r = vec![0.0; b.len()];
+    let mut r = zeroed(b.len());
     let rn = residual(op, x, b, &mut r);
     match converged_at(rn, bnorm, 0, params) {
         Some(info) => Err(info),
@@ -201,11 +203,15 @@ pub fn pcg(
         Ok(s) => s,
         Err(done) => return done,
     };
-    let mut z = vec![0.0; n];
-    mg.apply(&r, &mut z);
-    let mut p = z.clone();
-    let mut q = vec![0.0; n];
-    let mut rz = dot(&r, &z);
+    // The preconditioned residual as the hierarchy forms it, in single precision.
+    let mut z = zeroed::<f32>(n);
+    mg.apply_f32(&r, &mut z);
+    let mut p: Vec<f64> = zeroed(n);
+    for (pk, &zk) in p.iter_mut().zip(&z) {
+        *pk = zk as f64;
+    }
+    let mut q = zeroed(n);
+    let mut rz = dot_single(&z, &r);
     for it in 1..=params.max_iterations {
         let [pq] = apply_reduce(op, &p, &mut q, |first, qs| {
             [qs.iter().zip(&p[first..]).map(|(a, b)| a * b).sum()]
@@ -232,14 +238,14 @@ pub fn pcg(
             }
             rn = tn;
         }
-        mg.apply(&r, &mut z);
-        let rz_new = dot(&r, &z);
+        mg.apply_f32(&r, &mut z);
+        let rz_new = dot_single(&z, &r);
         let beta = rz_new / rz;
         rz = rz_new;
         p.par_iter_mut()
             .zip(z.par_iter())
             .with_min_len(PARALLEL_LEN / 2)
-            .for_each(|(pk, zk)| *pk = zk + beta * *pk);
+            .for_each(|(pk, &zk)| *pk = zk as f64 + beta * *pk);
     }
     KrylovInfo {
         iterations: params.max_iterations,
@@ -249,8 +255,8 @@ pub fn pcg(
 }
 
 /// Right-preconditioned BiCGStab from the initial guess in `x`, with the intermediate
-/// residual and the two preconditioned directions kept in place (five double-precision work
-/// vectors and a single-precision shadow residual).
+/// residual and the two preconditioned directions kept in place (four double-precision work
+/// vectors; the shadow residual and the preconditioned direction in single precision).
 pub fn bicgstab(
     op: &Operator,
     mg: &mut Multigrid,
@@ -264,11 +270,16 @@ pub fn bicgstab(
         Err(done) => return done,
     };
     // The shadow residual only has to stay fixed; single precision halves its memory.
-    let r0: Vec<f32> = r.iter().map(|&v| v as f32).collect();
-    let mut p = vec![0.0; n];
-    let mut v = vec![0.0; n];
-    let mut hat = vec![0.0; n];
-    let mut t = vec![0.0; n];
+    let mut r0: Vec<f32> = zeroed(n);
+    for (a, &v) in r0.iter_mut().zip(&r) {
+        *a = v as f32;
+    }
+    let r0 = r0;
+    let mut p = zeroed(n);
+    let mut v = zeroed(n);
+    // The preconditioned directions, in single precision as the hierarchy forms them.
+    let mut hat = zeroed::<f32>(n);
+    let mut t = zeroed(n);
     let (mut rho, mut alpha, mut omega) = (1.0f64, 1.0f64, 1.0f64);
     let done = |op: &Operator, x: &[f64], r: &mut [f64], it: usize| -> Option<KrylovInfo> {
         let tn = residual(op, x, b, r);
@@ -279,7 +290,7 @@ pub fn bicgstab(
         })
     };
     // (r̂₀, r), formed with each update of r.
-    let mut r0r = dot_shadow(&r0, &r);
+    let mut r0r = dot_single(&r0, &r);
     let shadow = |first: usize, vs: &[f64]| -> f64 {
         r0[first..first + vs.len()]
             .iter()
@@ -298,7 +309,7 @@ pub fn bicgstab(
             .zip(r.par_iter().zip(v.par_iter()))
             .with_min_len(PARALLEL_LEN / 2)
             .for_each(|(pk, (rk, vk))| *pk = rk + beta * (*pk - omega * vk));
-        mg.apply(&p, &mut hat);
+        mg.apply_f32(&p, &mut hat);
         let [r0v] = apply_reduce(op, &hat, &mut v, |first, vs| [shadow(first, vs)]);
         if r0v == 0.0 || !r0v.is_finite() {
             break;
@@ -310,7 +321,7 @@ pub fn bicgstab(
         {
             return info;
         }
-        mg.apply(&r, &mut hat);
+        mg.apply_f32(&r, &mut hat);
         let [tt, tr] = apply_reduce(op, &hat, &mut t, |first, ts| {
             let rs = &r[first..first + ts.len()];
             [sum_sq(ts), ts.iter().zip(rs).map(|(a, b)| a * b).sum()]
@@ -326,7 +337,7 @@ pub fn bicgstab(
                 return info;
             }
             rn = norm(&r);
-            r0r = dot_shadow(&r0, &r);
+            r0r = dot_single(&r0, &r);
         }
         if omega == 0.0 {
             break;

@@ -165,7 +165,7 @@ impl Operator {
     pub fn assemble(mesh: &Mesh, scheme: Scheme) -> Operator {
         let n = mesh.nodes();
         let nr = mesh.nr();
-        let mut stencil: Vec<[f64; 5]> = Vec::with_capacity(n);
+        let mut stencil: Vec<[f64; 5]> = crate::solve::with_capacity(n);
         let mut boundary = Vec::new();
         for k in 0..n {
             let mut row = [0.0f64; 5];
@@ -199,7 +199,11 @@ impl Operator {
             nr,
             scheme,
             boundary,
-            fixed: mesh.fixed.clone(),
+            fixed: {
+                let mut fixed = crate::solve::with_capacity(n);
+                fixed.extend_from_slice(&mesh.fixed);
+                fixed
+            },
         }
     }
 
@@ -236,7 +240,7 @@ impl Operator {
     /// tank is at 0 V.
     pub fn rhs(&self, potentials: &[f64]) -> Vec<f64> {
         let n = self.fixed.len();
-        let mut b = vec![0.0; n];
+        let mut b = crate::solve::zeroed(n);
         let pot = |id: FixedId| -> f64 { id.conductor_index().map_or(0.0, |c| potentials[c]) };
         for (bk, &id) in b.iter_mut().zip(&self.fixed) {
             if id != FREE {
@@ -262,22 +266,25 @@ impl Operator {
     }
 
     /// The rows `first .. first + ys.len()` of A x, into `ys` (for products fused with other
-    /// work on the same rows).
-    pub fn apply_rows(&self, x: &[f64], ys: &mut [f64], first: usize) {
+    /// work on the same rows). `x` may be single precision (a preconditioned direction, which
+    /// the multigrid forms in single precision): each value is widened exactly, so the
+    /// product is the same as with the widened vector.
+    pub fn apply_rows<T: Copy + Into<f64>>(&self, x: &[T], ys: &mut [f64], first: usize) {
         let n = self.stencil.len();
         let nr = self.nr;
         let st = &self.stencil;
+        let x = |k: usize| -> f64 { x[k].into() };
         for (off, yr) in ys.iter_mut().enumerate() {
             let k = first + off;
             let c = &st[k];
             *yr = if k >= nr && k + nr < n {
                 // Interior rows: every neighbour index is in range, and a missing
                 // neighbour has a zero coefficient. Summed in CSR column order.
-                c[ST_S] * x[k - nr]
-                    + c[ST_W] * x[k - 1]
-                    + c[ST_C] * x[k]
-                    + c[ST_E] * x[k + 1]
-                    + c[ST_N] * x[k + nr]
+                c[ST_S] * x(k - nr)
+                    + c[ST_W] * x(k - 1)
+                    + c[ST_C] * x(k)
+                    + c[ST_E] * x(k + 1)
+                    + c[ST_N] * x(k + nr)
             } else {
                 let mut acc = 0.0;
                 let cols = [
@@ -291,7 +298,7 @@ impl Operator {
                     if let Some(q) = col
                         && *v != 0.0
                     {
-                        acc += v * x[q];
+                        acc += v * x(q);
                     }
                 }
                 acc

@@ -151,3 +151,42 @@ fn stencil_product_equals_the_csr_product() {
         }
     }
 }
+
+/// Parallel work never changes the numbers: a solve large enough that every kernel of the
+/// hierarchy and of the Krylov iteration runs in parallel gives the same bits on 1 and on 2
+/// threads, for both boundary schemes (every element written by one task, reductions over
+/// fixed chunks added in order).
+#[test]
+fn one_and_two_threads_give_the_same_bits() {
+    let model = benchmark::problem(150_000);
+    let mesh = Mesh::build_with(&model, false).expect("mesh");
+    for scheme in [Scheme::ShortleyWeller, Scheme::Symmetric] {
+        let solve = |threads: usize| {
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .expect("thread pool");
+            pool.install(|| {
+                let params = SolverParams {
+                    scheme,
+                    ..Default::default()
+                };
+                Solver::new(&mesh, params)
+                    .solve(&[1e6], None)
+                    .expect("solve")
+            })
+        };
+        let (one, two) = (solve(1), solve(2));
+        assert_eq!(one.info.iterations, two.info.iterations, "{scheme:?}");
+        let differ = one
+            .phi
+            .iter()
+            .zip(&two.phi)
+            .filter(|(a, b)| a.to_bits() != b.to_bits())
+            .count();
+        assert_eq!(
+            differ, 0,
+            "{scheme:?}: {differ} potentials differ in their bits"
+        );
+    }
+}

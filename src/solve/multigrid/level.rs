@@ -23,8 +23,6 @@ pub(super) struct Level {
     pub(super) map: Option<(AxisMap, AxisMap)>,
     pub(super) x: Vec<f32>,
     pub(super) b: Vec<f32>,
-    /// Scratch: line right-hand sides during relaxation, the residual after it.
-    pub(super) dp: Vec<f32>,
     /// Reciprocal Thomas pivots of the z-lines, computed once (the upper factors are the north
     /// coefficients times these).
     pub(super) z_inv: Vec<f32>,
@@ -40,7 +38,7 @@ impl Level {
     pub(super) fn new(nr: usize, nz: usize, nine: bool) -> Level {
         let pw = nr + 2;
         let np = pw * (nz + 2);
-        let full = || vec![0.0f32; np];
+        let full = || crate::solve::zeroed::<f32>(np);
         let st = std::array::from_fn(|s| if s < 5 || nine { full() } else { Vec::new() });
         Level {
             nr,
@@ -48,11 +46,10 @@ impl Level {
             pw,
             nine,
             st,
-            mask: vec![0u8; np],
+            mask: crate::solve::zeroed(np),
             map: None,
             x: full(),
             b: full(),
-            dp: full(),
             z_inv: full(),
             z_up: full(),
             r_inv: full(),
@@ -96,7 +93,7 @@ impl Level {
     pub(super) fn bytes(&self) -> usize {
         let np = self.pw * (self.nz + 2);
         let slots = if self.nine { 9 } else { 5 };
-        np * 4 * (slots + 6) + np
+        np * 4 * (slots + 5) + np
     }
 
     /// The residual b − A x on row j, into `out` (nr values).

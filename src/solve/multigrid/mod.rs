@@ -11,7 +11,7 @@
 //! even lines first), which stays effective on the stretched cells of a graded grid; the
 //! post-smoother runs the same steps in reverse, so for a symmetric operator the V-cycle is a
 //! symmetric positive-definite preconditioner, as conjugate gradients need. The coarsest level
-//! is solved by dense LU.
+//! is solved by band LU factors.
 //!
 //! The hierarchy works in single precision on padded arrays (a ring of ghost nodes with zero
 //! coefficients, so the kernels need no bounds tests): a preconditioner needs no more, and it
@@ -20,17 +20,18 @@
 //!
 //! Files: level.rs (one level's arrays, line factors, residual), relax.rs (zebra line
 //! relaxation), transfer.rs (interpolation weights, restriction, prolongation), galerkin.rs
-//! (the coarse operators).
+//! (the coarse operators), band.rs (the coarsest level's direct solve).
 
+mod band;
 mod galerkin;
 mod level;
 mod relax;
 mod transfer;
 
 use crate::solve::operator::Operator;
-use galerkin::{SLOTS, Slot, galerkin};
+use band::BandLu;
+use galerkin::{SLOTS, galerkin};
 use level::Level;
-use nalgebra::{DMatrix, DVector};
 use transfer::{axis_map, coarse_indices, prolong_add, restrict_residual};
 
 /// Settings of the V-cycle.
@@ -60,28 +61,40 @@ impl Default for MgParams {
 #[derive(Debug, Clone)]
 pub struct Multigrid {
     levels: Vec<Level>,
-    coarse_lu: Option<nalgebra::LU<f64, nalgebra::Dyn, nalgebra::Dyn>>,
+    coarse_lu: Option<BandLu>,
     params: MgParams,
 }
 
 impl Multigrid {
-    /// The finest level, read from the operator's rows.
+    /// The finest level, read from the operator's rows a grid row at a time.
     fn fine_level(op: &Operator, nr: usize, nz: usize) -> Level {
-        let mut l = Level::new(nr, nz, false);
         use crate::solve::operator::{ST_C, ST_E, ST_N, ST_S, ST_W};
-        for (k, row) in op.stencil.iter().enumerate().take(nr * nz) {
-            let (i, j) = (k % nr, k / nr);
-            let p = l.p(i, j);
-            for (slot, at) in [
-                (Slot::C, ST_C),
-                (Slot::W, ST_W),
-                (Slot::E, ST_E),
-                (Slot::S, ST_S),
-                (Slot::N, ST_N),
-            ] {
-                l.st[slot as usize][p] = row[at] as f32;
+        let mut l = Level::new(nr, nz, false);
+        let pw = l.pw;
+        let [c, w, e, s, n, ..] = &mut l.st;
+        for (j, (rows, fixed)) in op
+            .stencil
+            .chunks_exact(nr)
+            .zip(op.fixed.chunks_exact(nr))
+            .take(nz)
+            .enumerate()
+        {
+            let row = (j + 1) * pw + 1..(j + 1) * pw + 1 + nr;
+            let slots = [
+                (&mut c[row.clone()], ST_C),
+                (&mut w[row.clone()], ST_W),
+                (&mut e[row.clone()], ST_E),
+                (&mut s[row.clone()], ST_S),
+                (&mut n[row.clone()], ST_N),
+            ];
+            for (out, at) in slots {
+                for (v, st) in out.iter_mut().zip(rows) {
+                    *v = st[at] as f32;
+                }
             }
-            l.mask[p] = u8::from(op.fixed[k] == crate::mesh::FREE);
+            for (m, &f) in l.mask[row].iter_mut().zip(fixed) {
+                *m = u8::from(f == crate::mesh::FREE);
+            }
         }
         l.factor();
         l
@@ -116,24 +129,23 @@ impl Multigrid {
             levels[last].map = Some((mr, mz));
             levels.push(coarse);
         }
+        // The coarsest level in natural order (node j·nr + i): its nine-point couplings lie
+        // within nr + 1 of the diagonal.
         let coarse_lu = levels.last().map(|cl| {
-            let n = cl.nr * cl.nz;
-            let mut m = DMatrix::<f64>::zeros(n, n);
-            for j in 0..cl.nz {
-                for i in 0..cl.nr {
-                    let k = j * cl.nr + i;
+            let entries = (0..cl.nz).flat_map(move |j| {
+                (0..cl.nr).flat_map(move |i| {
                     let p = cl.p(i, j);
-                    for (slot, di, dj) in SLOTS {
+                    SLOTS.iter().filter_map(move |&(slot, di, dj)| {
                         let (ii, jj) = (i as i64 + di as i64, j as i64 + dj as i64);
                         if ii < 0 || jj < 0 || ii >= cl.nr as i64 || jj >= cl.nz as i64 {
-                            continue;
+                            return None;
                         }
                         let q = jj as usize * cl.nr + ii as usize;
-                        m[(k, q)] += cl.entry(p, slot as usize);
-                    }
-                }
-            }
-            m.lu()
+                        Some((j * cl.nr + i, q, cl.entry(p, slot as usize)))
+                    })
+                })
+            });
+            BandLu::new(cl.nr * cl.nz, cl.nr + 1, cl.nr + 1, entries)
         });
         Multigrid {
             levels,
@@ -147,34 +159,37 @@ impl Multigrid {
         self.levels.len()
     }
 
-    /// Bytes held by the hierarchy (stencils, masks and work vectors).
+    /// Bytes held by the hierarchy (stencils, masks, work vectors and the coarsest
+    /// level's factors).
     pub fn bytes(&self) -> usize {
-        self.levels.iter().map(Level::bytes).sum()
+        self.levels.iter().map(Level::bytes).sum::<usize>()
+            + self.coarse_lu.as_ref().map_or(0, BandLu::bytes)
     }
 
     /// An estimate of the bytes one V-cycle ([`Multigrid::apply`]) must move between memory
     /// and the processor, from the stencil width and the sweeps of every level: each pass
     /// streams the arrays it reads and writes once (single precision, 4 bytes; a mask byte),
-    /// and what one pass leaves in cache is not counted again. Per node and pass: a line
-    /// relaxation reads the stencil slots, b, x and its pivots and writes x and its scratch
-    /// (the first pass of a cycle reads no x); the residual formed inside the restriction
-    /// reads the stencil, b, x and the mask on the rows it forms (half of them after the
-    /// non-symmetric pre-smoother); the prolongation reads and writes x and reads the mask.
-    /// The finest level also converts the double-precision residual in (8 + 4) and the
-    /// correction out (4 + 8).
+    /// and what one pass leaves in cache is not counted again. Per node and pass: an r-line
+    /// relaxation reads the stencil slots, b, x and its pivots and writes x; a z-line one
+    /// reads the slots but the centre and north (its pivots stand for them), b, x and its two
+    /// pivot arrays and writes x (the first pass of a cycle reads no x); the residual formed
+    /// inside the restriction reads the stencil, b, x and the mask on the rows it forms (half
+    /// of them after the non-symmetric pre-smoother); the prolongation reads and writes x and
+    /// reads the mask. The finest level also converts the double-precision residual in
+    /// (8 + 4) and copies the single-precision correction out (4 + 4).
     pub fn bytes_per_cycle(&self) -> f64 {
         let last = self.levels.len() - 1;
         let mut total = 0.0;
         for (li, l) in self.levels.iter().enumerate() {
             let n = (l.nr * l.nz) as f64;
             if li == last {
-                // Dense LU of a few hundred nodes: held in cache, its b and x streamed.
+                // The band LU of a few hundred nodes: held in cache, its b and x streamed.
                 total += 8.0 * n;
                 continue;
             }
             let slots = if l.nine { 9.0 } else { 5.0 };
-            let r_pass = 4.0 * (slots + 5.0);
-            let z_pass = 4.0 * (slots + 5.0);
+            let r_pass = 4.0 * (slots + 4.0);
+            let z_pass = 4.0 * (slots + 3.0);
             let per_sweep = if self.params.symmetric {
                 2.0 * (r_pass + z_pass)
             } else {
@@ -188,7 +203,7 @@ impl Multigrid {
             let prolong = 8.0 + 1.0;
             total += n * (self.params.sweeps as f64 * per_sweep + zero_start + residual + prolong);
             if li == 0 {
-                total += n * 24.0;
+                total += n * 20.0;
             }
         }
         total
@@ -196,20 +211,29 @@ impl Multigrid {
 
     /// z = M⁻¹ r: one V-cycle from a zero guess.
     pub fn apply(&mut self, r: &[f64], z: &mut [f64]) {
+        self.apply_to(r, z);
+    }
+
+    /// z = M⁻¹ r in single precision, as the hierarchy forms it (the Krylov iterations keep
+    /// their preconditioned directions so: widening them to double precision would add
+    /// nothing but bytes to stream).
+    pub fn apply_f32(&mut self, r: &[f64], z: &mut [f32]) {
+        self.apply_to(r, z);
+    }
+
+    fn apply_to<T: From<f32>>(&mut self, r: &[f64], z: &mut [T]) {
         let l0 = &mut self.levels[0];
-        let nr = l0.nr;
-        for j in 0..l0.nz {
-            let base = (j + 1) * l0.pw + 1;
-            for i in 0..nr {
-                l0.b[base + i] = r[j * nr + i] as f32;
+        let (nr, pw) = (l0.nr, l0.pw);
+        for (rr, bb) in r.chunks_exact(nr).zip(l0.b[pw..].chunks_exact_mut(pw)) {
+            for (b, &v) in bb[1..nr + 1].iter_mut().zip(rr) {
+                *b = v as f32;
             }
         }
         self.cycle(0);
         let l0 = &self.levels[0];
-        for j in 0..l0.nz {
-            let base = (j + 1) * l0.pw + 1;
-            for i in 0..nr {
-                z[j * nr + i] = l0.x[base + i] as f64;
+        for (zr, xx) in z.chunks_exact_mut(nr).zip(l0.x[pw..].chunks_exact(pw)) {
+            for (v, &x) in zr.iter_mut().zip(&xx[1..nr + 1]) {
+                *v = T::from(x);
             }
         }
     }
@@ -266,23 +290,23 @@ impl Multigrid {
         }
     }
 
-    /// The coarsest level solved by the dense LU factors.
+    /// The coarsest level solved by the band LU factors.
     fn coarsest(&mut self) {
         let Some(l) = self.levels.last_mut() else {
             return;
         };
         if let Some(lu) = &self.coarse_lu {
-            let mut b = DVector::<f64>::zeros(l.nr * l.nz);
+            let mut b = vec![0.0f64; l.nr * l.nz];
             for j in 0..l.nz {
                 for i in 0..l.nr {
                     b[j * l.nr + i] = l.b[l.p(i, j)] as f64;
                 }
             }
-            if let Some(x) = lu.solve(&b) {
+            if lu.solve(&mut b) {
                 for j in 0..l.nz {
                     for i in 0..l.nr {
                         let p = l.p(i, j);
-                        l.x[p] = x[j * l.nr + i] as f32;
+                        l.x[p] = b[j * l.nr + i] as f32;
                     }
                 }
             }

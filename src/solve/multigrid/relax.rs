@@ -2,8 +2,9 @@
 //! with the pivots factored once per level.
 //!
 //! Input: a level's stencils, right-hand side b, current x and pivots. Output: x with the
-//! lines of the colour solved exactly against their neighbours (the level's scratch vector
-//! overwritten).
+//! lines of the colour solved exactly against their neighbours. A line's right-hand side and
+//! its forward elimination are held in x itself (a line's own values are never read while it
+//! is solved), so no scratch array is streamed.
 
 use super::level::{Level, PARALLEL_NODES, Shared};
 use rayon::prelude::*;
@@ -24,20 +25,19 @@ impl Level {
         let b = &self.b;
         let r_inv = &self.r_inv;
         let x = Shared(self.x.as_mut_ptr());
-        let dp = Shared(self.dp.as_mut_ptr());
         let group = |js: &[usize]| {
             for &j in js {
                 let base = (j + 1) * pw + 1;
-                // SAFETY: the task of a group writes only the rows j of its lines in `x` and
-                // `dp`; it reads rows j − 1 and j + 1 of `x`, which belong to the other colour
-                // and are written by no task of this pass. Rows of one colour are disjoint, so
-                // no two tasks touch the same element and no element is read while another
-                // task writes it.
+                // SAFETY: the task of a group writes only the rows j of its lines in `x`; it
+                // reads rows j − 1 and j + 1 of `x`, which belong to the other colour and are
+                // written by no task of this pass. Rows of one colour are disjoint, so no two
+                // tasks touch the same element and no element is read while another task
+                // writes it; the three slices of one line are disjoint rows.
                 let (xd, xu, out) = unsafe {
                     (
                         std::slice::from_raw_parts(x.get().add(base - pw - 1), nr + 2),
                         std::slice::from_raw_parts(x.get().add(base + pw - 1), nr + 2),
-                        std::slice::from_raw_parts_mut(dp.get().add(base), nr),
+                        std::slice::from_raw_parts_mut(x.get().add(base), nr),
                     )
                 };
                 if zero_start {
@@ -48,21 +48,13 @@ impl Level {
             }
             let bases = |k: usize| (js[k] + 1) * pw + 1;
             let (w, e) = (&st[1], &st[2]);
-            // SAFETY: as above; `r_thomas` touches `x` and `dp` only on the rows of `js`.
+            // SAFETY: as above; `r_thomas` touches `x` only on the rows of `js`.
             unsafe {
                 match js.len() {
-                    4 => r_thomas(
-                        [bases(0), bases(1), bases(2), bases(3)],
-                        nr,
-                        w,
-                        e,
-                        r_inv,
-                        x,
-                        dp,
-                    ),
-                    3 => r_thomas([bases(0), bases(1), bases(2)], nr, w, e, r_inv, x, dp),
-                    2 => r_thomas([bases(0), bases(1)], nr, w, e, r_inv, x, dp),
-                    _ => r_thomas([bases(0)], nr, w, e, r_inv, x, dp),
+                    4 => r_thomas([bases(0), bases(1), bases(2), bases(3)], nr, w, e, r_inv, x),
+                    3 => r_thomas([bases(0), bases(1), bases(2)], nr, w, e, r_inv, x),
+                    2 => r_thomas([bases(0), bases(1)], nr, w, e, r_inv, x),
+                    _ => r_thomas([bases(0)], nr, w, e, r_inv, x),
                 }
             }
         };
@@ -84,7 +76,6 @@ impl Level {
         let inv = &self.z_inv;
         let up = &self.z_up;
         let x = Shared(self.x.as_mut_ptr());
-        let dp = Shared(self.dp.as_mut_ptr());
         let block = |cols: std::ops::Range<usize>| {
             let [_, w, e, s, _, sw, se, nw, ne] = st;
             let first = cols.start + (cols.start + colour) % 2;
@@ -94,26 +85,28 @@ impl Level {
             // The last column of this colour in the block.
             let last = first + 2 * ((cols.end - 1 - first) / 2);
             let len = last - first + 1;
-            // SAFETY: a block writes `x` and `dp` only in its columns first ..= last (new
-            // values in the columns of this colour; the other colour's values of `x` written
-            // back unchanged); it reads `x` in the columns first − 1 ..= last + 1. The edge
-            // columns first − 1 and last + 1 are of the other colour and lie in no other
-            // block's first ..= last (a block's range starts and ends on this colour), so no
-            // element is written by two tasks or read by one while another writes it. The
-            // slices of one row below never overlap a slice written at the same time.
+            // One row of the elimination, before it is put into x.
+            let mut cur = vec![0.0f32; len];
+            // SAFETY: a block writes `x` only in its columns first ..= last (in the columns
+            // of this colour the elimination, then the solution; the other colour's values
+            // written back unchanged); it reads `x` in the columns first − 1 ..= last + 1.
+            // The edge columns first − 1 and last + 1 are of the other colour and lie in no
+            // other block's first ..= last (a block's range starts and ends on this colour),
+            // so no element is written by two tasks or read by one while another writes it.
+            // The slices read from a row are dropped before that row is written.
             unsafe {
-                let (xp, dq) = (x.get(), dp.get());
+                let xp = x.get();
                 // Elimination over the contiguous columns first ..= last, both colours, so
-                // that the loop vectorises; the values left in `dp` at the columns of the
-                // other colour are scratch and never read.
+                // that the loop vectorises; only this colour's values are put into x, where
+                // the line's own unknowns are not read until its back substitution (the
+                // row below, `prev`, holds this colour's elimination values).
                 for j in 0..nz {
                     let p0 = (j + 1) * pw + 1 + first;
                     let row = p0..p0 + len;
                     let xs =
                         |off: isize| std::slice::from_raw_parts(xp.offset(p0 as isize + off), len);
                     let (xl, xr) = (xs(-1), xs(1));
-                    let prev = std::slice::from_raw_parts(dq.add(p0 - pw), len);
-                    let cur = std::slice::from_raw_parts_mut(dq.add(p0), len);
+                    let prev = xs(-(pw as isize));
                     let (bb, ww, ee, ss, ii) = (
                         &b[row.clone()],
                         &w[row.clone()],
@@ -144,21 +137,21 @@ impl Level {
                             cur[k] = (rhs - ss[k] * prev[k]) * ii[k];
                         }
                     }
-                }
-                let top = nz * pw + 1;
-                for i in (first..=last).step_by(2) {
-                    *xp.add(top + i) = *dq.add(top + i);
+                    let xrow = std::slice::from_raw_parts_mut(xp.add(p0), len);
+                    for k in (0..len).step_by(2) {
+                        xrow[k] = cur[k];
+                    }
                 }
                 // Back substitution a row at a time over the contiguous columns, both colours
-                // computed (so that the loop vectorises) and only this colour's kept.
+                // computed (so that the loop vectorises) and only this colour's kept; the top
+                // row's elimination value is already its solution.
                 for j in (0..nz - 1).rev() {
                     let p0 = (j + 1) * pw + 1 + first;
                     let xr = std::slice::from_raw_parts_mut(xp.add(p0), len);
                     let xa = std::slice::from_raw_parts(xp.add(p0 + pw), len);
-                    let d = std::slice::from_raw_parts(dq.add(p0), len);
                     let u = &up[p0..p0 + len];
                     for k in 0..len {
-                        let v = d[k] - u[k] * xa[k];
+                        let v = xr[k] - u[k] * xa[k];
                         xr[k] = if k % 2 == 0 { v } else { xr[k] };
                     }
                 }
@@ -215,14 +208,13 @@ fn r_line_rhs(
 }
 
 /// The Thomas solves of `N` r-lines starting at the padded indices `bases`, their
-/// right-hand sides in `dp`, the solutions into `x`, with the reciprocal pivots `r_inv`
+/// right-hand sides in `x` and the solutions into `x` in place, with the reciprocal pivots `r_inv`
 /// factored once (upper factors east × pivot), so the sequential recurrences hold no
 /// division; the `N` recurrences advance together, each computed exactly as alone.
 ///
 /// # Safety
 /// Every `bases[l] .. bases[l] + nr` must lie inside the level's arrays, and no other
-/// thread may touch `x` or `dp` on those rows meanwhile.
-#[allow(clippy::too_many_arguments)]
+/// thread may touch `x` on those rows meanwhile.
 unsafe fn r_thomas<const N: usize>(
     bases: [usize; N],
     nr: usize,
@@ -230,9 +222,8 @@ unsafe fn r_thomas<const N: usize>(
     e: &[f32],
     r_inv: &[f32],
     x: Shared,
-    dp: Shared,
 ) {
-    let (xp, dq) = (x.get(), dp.get());
+    let xp = x.get();
     for &base in &bases {
         assert!(base + nr <= w.len() && base + nr <= e.len() && base + nr <= r_inv.len());
     }
@@ -243,8 +234,8 @@ unsafe fn r_thomas<const N: usize>(
             // SAFETY: p < len of every array (asserted above; the level's arrays share one
             // length); the caller owns the rows.
             unsafe {
-                let v = (*dq.add(p) - *w.get_unchecked(p) * prev[l]) * *r_inv.get_unchecked(p);
-                *dq.add(p) = v;
+                let v = (*xp.add(p) - *w.get_unchecked(p) * prev[l]) * *r_inv.get_unchecked(p);
+                *xp.add(p) = v;
                 prev[l] = v;
             }
         }
@@ -255,7 +246,7 @@ unsafe fn r_thomas<const N: usize>(
             let p = bases[l] + k;
             // SAFETY: as above.
             unsafe {
-                let v = *dq.add(p) - *e.get_unchecked(p) * *r_inv.get_unchecked(p) * next[l];
+                let v = *xp.add(p) - *e.get_unchecked(p) * *r_inv.get_unchecked(p) * next[l];
                 *xp.add(p) = v;
                 next[l] = v;
             }

@@ -63,92 +63,109 @@ pub(super) fn axis_map(x: &[f64], cidx: &[usize]) -> AxisMap {
 }
 
 /// b_c = Pᵀ (b − A x) (masked), the fine residual formed row by row inside the restriction
-/// (no residual array is written or read back). One coarse row at a time: each fine row whose
-/// z-parents include it has its residual formed and restricted along r, then added with its
-/// z-weight; the coarse rows run in parallel on large levels. With `odd_rows_solved` the
-/// fine rows of odd index were the last solved exactly by the smoother, so their residual
-/// is zero (to rounding) and they are skipped: half the rows, and the rows between coarse
-/// rows, so no fine row is formed twice.
+/// (no residual array is written or read back). One coarse row at a time: the residuals of
+/// the fine rows whose z-parents include it are formed, masked and summed with their
+/// z-weights into one fine-length row, which is then restricted along r; the coarse rows run
+/// in parallel on large levels. With `odd_rows_solved` the fine rows of odd index were the
+/// last solved exactly by the smoother, so their residual is zero (to rounding) and they are
+/// skipped: half the rows, and the rows between coarse rows, so no fine row is formed twice.
 pub(super) fn restrict_residual(f: &Level, c: &mut Level, odd_rows_solved: bool) {
     let Some((mr, mz)) = f.map.as_ref() else {
         return;
     };
-    let cpw = c.pw;
+    let (cpw, nr) = (c.pw, f.nr);
     let mask = &c.mask;
-    let along_z = |cj: usize, row: &mut [f32]| {
+    let along_z = |cj: usize, row: &mut [f32], (res, sum): &mut (Vec<f32>, Vec<f32>)| {
         // `row` is the padded coarse row cj (ghosts at both ends).
-        row.iter_mut().for_each(|v| *v = 0.0);
-        let mut res = vec![0.0f32; f.nr];
+        sum.clear();
+        sum.resize(nr, 0.0);
+        res.resize(nr, 0.0);
         for &(j, wz) in &mz.children[cj] {
             if odd_rows_solved && j % 2 == 1 {
                 continue;
             }
-            f.residual_row(j, &mut res);
+            f.residual_row(j, res);
             let base = (j + 1) * f.pw + 1;
-            let m = &f.mask[base..base + f.nr];
-            for i in 0..f.nr {
-                if m[i] == 0 {
-                    continue;
-                }
-                let v = wz * res[i];
-                let ci = mr.c0[i];
-                row[ci + 1] += mr.w0[i] * v;
-                row[ci + 2] += mr.w1[i] * v;
+            let m = &f.mask[base..base + nr];
+            for ((s, &r), &mk) in sum.iter_mut().zip(res.iter()).zip(m) {
+                *s += wz * f32::from(mk) * r;
             }
+        }
+        row.iter_mut().for_each(|v| *v = 0.0);
+        let (c0, w0, w1) = (&mr.c0[..nr], &mr.w0[..nr], &mr.w1[..nr]);
+        // row[ci + 1] is coarse column ci; ci + 2 ≤ cpw − 1.
+        let row = &mut row[..cpw];
+        for i in 0..nr {
+            let (ci, v) = (c0[i], sum[i]);
+            row[ci + 1] += w0[i] * v;
+            row[ci + 2] += w1[i] * v;
         }
         let base = (cj + 1) * cpw;
         for (v, &m) in row.iter_mut().zip(&mask[base..base + cpw]) {
-            if m == 0 {
-                *v = 0.0;
-            }
+            *v *= f32::from(m);
         }
     };
     let interior = &mut c.b[cpw..cpw * (c.nz + 1)];
+    let scratch = || (Vec::with_capacity(nr), Vec::with_capacity(nr));
     if f.nr * f.nz >= PARALLEL_NODES {
         interior
             .par_chunks_mut(cpw)
             .enumerate()
-            .for_each(|(cj, row)| along_z(cj, row));
+            .for_each_init(scratch, |s, (cj, row)| along_z(cj, row, s));
     } else {
+        let mut s = scratch();
         interior
             .chunks_mut(cpw)
             .enumerate()
-            .for_each(|(cj, row)| along_z(cj, row));
+            .for_each(|(cj, row)| along_z(cj, row, &mut s));
     }
 }
 
-/// x_f += P x_c (masked), fine rows in parallel on large levels.
+/// x_f += P x_c (masked), fine rows in parallel on large levels. Each fine row first
+/// interpolates along z between its two coarse rows (a coarse-length row, contiguous and
+/// vectorised; a kept row copies its coarse row), then along r into the fine row, masked by
+/// multiplication rather than a branch.
 pub(super) fn prolong_add(f: &mut Level, c: &Level) {
     let Some((mr, mz)) = f.map.as_ref() else {
         return;
     };
     let (cpw, pw, nr) = (c.pw, f.pw, f.nr);
     let mask = &f.mask;
-    let row_kernel = |j: usize, xrow: &mut [f32]| {
+    let cx = &c.x;
+    let row_kernel = |j: usize, xrow: &mut [f32], tmp: &mut Vec<f32>| {
         let (cj, wj0, wj1) = (mz.c0[j], mz.w0[j], mz.w1[j]);
+        let lo = &cx[(cj + 1) * cpw..(cj + 2) * cpw];
+        tmp.clear();
+        if wj1 == 0.0 {
+            tmp.extend(lo.iter().map(|&a| wj0 * a));
+        } else {
+            let hi = &cx[(cj + 2) * cpw..(cj + 3) * cpw];
+            tmp.extend(lo.iter().zip(hi).map(|(&a, &b)| wj0 * a + wj1 * b));
+        }
+        // tmp[ci + 1] is coarse column ci (one ghost at each end), so ci + 2 ≤ cpw − 1.
+        let t = &tmp[..cpw];
         let base = (j + 1) * pw + 1;
+        let m = &mask[base..base + nr];
+        let xs = &mut xrow[1..nr + 1];
+        let (c0, w0, w1) = (&mr.c0[..nr], &mr.w0[..nr], &mr.w1[..nr]);
         for i in 0..nr {
-            if mask[base + i] == 0 {
-                continue;
-            }
-            let (ci, wi0, wi1) = (mr.c0[i], mr.w0[i], mr.w1[i]);
-            let q = (cj + 1) * cpw + ci + 1;
-            let v = wj0 * (wi0 * c.x[q] + wi1 * c.x[q + 1])
-                + wj1 * (wi0 * c.x[q + cpw] + wi1 * c.x[q + cpw + 1]);
-            xrow[i + 1] += v;
+            let ci = c0[i];
+            let v = w0[i] * t[ci + 1] + w1[i] * t[ci + 2];
+            xs[i] += f32::from(m[i]) * v;
         }
     };
     let nz = f.nz;
     let interior = &mut f.x[pw..pw * (nz + 1)];
     if nr * nz >= PARALLEL_NODES {
-        interior
-            .par_chunks_mut(pw)
-            .enumerate()
-            .for_each(|(j, xrow)| row_kernel(j, xrow));
+        interior.par_chunks_mut(pw).enumerate().for_each_init(
+            || Vec::with_capacity(cpw),
+            |tmp, (j, xrow)| row_kernel(j, xrow, tmp),
+        );
     } else {
+        let mut tmp = Vec::with_capacity(cpw);
         interior
             .chunks_mut(pw)
             .enumerate()
-            .for_each(|(j, xrow)| row_kernel(j, xrow));
+            .for_each(|(j, xrow)| row_kernel(j, xrow, &mut tmp));
     }
 }
