@@ -1,12 +1,12 @@
 //! Field-solver checks against closed-form electrostatics and an independent image-charge
 //! series. Sources are named beside each check (see docs/references.md §10).
 
-use super::common::{conductor, sphere_above_plane};
+use super::common::{self, conductor, sphere_above_plane};
 use crate::analysis::{Analysis, analyze};
 use crate::field::{EPSILON_0, FieldMap};
 use crate::geometry::{Point, Shape};
 use crate::mesh::Mesh;
-use crate::model::{Dielectric, MeshSpec, Model, Origin, PotentialSpec, Probe, Tank, Wall};
+use crate::model::{Dielectric, MeshSpec, Model, Origin, PotentialSpec, Probe, Tank};
 use crate::solve::{Solver, SolverParams};
 use crate::study::grid_study;
 
@@ -16,27 +16,7 @@ fn uniform(cell: f64) -> MeshSpec {
 
 /// Coaxial line, inner radius a, outer b, infinitely long (zero-normal-field ends).
 fn coax(a: f64, b: f64, v: f64) -> Model {
-    let mut m = Model::new(
-        "coax",
-        Tank::Cylinder {
-            inner_radius: b,
-            length: 0.02,
-        },
-        v,
-    );
-    m.ends = Wall::Symmetry;
-    m.conductors.push(conductor(
-        "inner",
-        Shape::RoundedRect {
-            r0: 0.0,
-            r1: a,
-            z0: -1.0,
-            z1: 1.0,
-            corner_radius: 0.0,
-        },
-        v,
-    ));
-    m
+    common::coax(a, b, 0.02, v)
 }
 
 fn peak_of(model: &Model, snap: bool) -> f64 {

@@ -6,7 +6,7 @@ use crate::capacitance::{capacitance_matrix, electrodes};
 use crate::field::EPSILON_0;
 use crate::geometry::Shape;
 use crate::mesh::Mesh;
-use crate::model::{MeshSpec, Model, Tank, Wall};
+use crate::model::{MeshSpec, Model, Tank};
 use crate::solve::SolverParams;
 use std::f64::consts::PI;
 
@@ -41,26 +41,7 @@ fn concentric_spheres() {
 #[test]
 fn coaxial_line_per_length() {
     let (a, b, len): (f64, f64, f64) = (0.01, 0.05, 0.02);
-    let mut m = Model::new(
-        "coax",
-        Tank::Cylinder {
-            inner_radius: b,
-            length: len,
-        },
-        1e5,
-    );
-    m.ends = Wall::Symmetry;
-    m.conductors.push(conductor(
-        "inner",
-        Shape::RoundedRect {
-            r0: 0.0,
-            r1: a,
-            z0: -1.0,
-            z1: 1.0,
-            corner_radius: 0.0,
-        },
-        1e5,
-    ));
+    let m = super::common::coax(a, b, len, 1e5);
     let mesh = Mesh::build(&m).expect("mesh");
     let c = capacitance_matrix(&m, &mesh, &SolverParams::default()).expect("solves");
     let exact = 2.0 * PI * EPSILON_0 / (b / a).ln();

@@ -1,7 +1,7 @@
 //! Builders shared by the in-crate verification tests.
 
 use crate::geometry::Shape;
-use crate::model::{Conductor, MeshSpec, Model, Tank};
+use crate::model::{Conductor, MeshSpec, Model, Tank, Wall};
 
 #[path = "../../tests/common/designs.rs"]
 mod designs;
@@ -32,5 +32,31 @@ pub fn sphere_above_plane(radius: f64, gap: f64, v: f64, cell: f64, max_cell: f6
         v,
     ));
     m.mesh = MeshSpec::graded(cell, max_cell, 1.08);
+    m
+}
+
+/// Coaxial line, inner radius `a` at `v`, outer radius `b`, as a `length` of an infinitely long
+/// line (zero-normal-field ends).
+pub fn coax(a: f64, b: f64, length: f64, v: f64) -> Model {
+    let mut m = Model::new(
+        "coax",
+        Tank::Cylinder {
+            inner_radius: b,
+            length,
+        },
+        v,
+    );
+    m.ends = Wall::Symmetry;
+    m.conductors.push(conductor(
+        "inner",
+        Shape::RoundedRect {
+            r0: 0.0,
+            r1: a,
+            z0: -1.0,
+            z1: 1.0,
+            corner_radius: 0.0,
+        },
+        v,
+    ));
     m
 }
