@@ -96,8 +96,8 @@ impl Basis {
             .zip(solvers)
             .map(|(run, mut solver)| -> Result<Vec<Unit>, FaultError> {
                 let mut out: Vec<Unit> = Vec::with_capacity(run.len());
-                let mut last: Option<Vec<f64>> = None;
-                let mut prev: Option<usize> = None;
+                // The previous electrode of this run and its unit solution.
+                let mut last: Option<(&Electrode, Vec<f64>)> = None;
                 for &(j, g) in run {
                     let mut pots = vec![0.0; model.conductors.len()];
                     for &k in &g.conductors {
@@ -105,19 +105,18 @@ impl Basis {
                     }
                     // The previous unit solution moved with the electrode where the column
                     // repeats (a third fewer iterations on the tandem), else as it is.
-                    let start = match (&last, prev) {
-                        (Some(phi), Some(p)) => shifted_start(model, mesh, &groups[p], g, phi),
-                        _ => None,
-                    };
-                    let sol = solver.solve(&pots, start.as_deref().or(last.as_deref()))?;
-                    prev = Some(j);
+                    let moved = last
+                        .as_ref()
+                        .and_then(|(e, phi)| shifted_start(model, mesh, e, g, phi));
+                    let start = moved.as_deref().or(last.as_ref().map(|(_, phi)| &phi[..]));
+                    let sol = solver.solve(&pots, start)?;
                     let q = conductor_charges(mesh, &sol.phi, &pots);
                     let unit: Vec<f32> = free_ref
                         .iter()
                         .map(|&k| sol.phi[k as usize] as f32)
                         .collect();
                     out.push((j, unit, q, sol.info));
-                    last = Some(sol.phi);
+                    last = Some((g, sol.phi));
                 }
                 Ok(out)
             })
@@ -335,7 +334,7 @@ fn shifted_start(
     let (ja, jb) = (mesh.z.locate(ba.z_min), mesh.z.locate(bb.z_min));
     let shift = jb as i64 - ja as i64;
     // The rows around the first electrode must repeat with the move.
-    let reach = (jb.max(ja) - jb.min(ja)).max(4);
+    let reach = (shift.unsigned_abs() as usize).max(4);
     let lo = ja.saturating_sub(reach);
     let hi = (ja + reach).min(z.len() - 1);
     for j in lo..=hi {

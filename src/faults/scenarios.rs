@@ -187,8 +187,6 @@ pub(super) fn evaluate(
     tick: &(dyn Fn() + Sync),
 ) -> Result<(Vec<Evaluated>, usize), FaultError> {
     let gap_capacitance = firing::gap_capacitances(model, basis, &cases[0].networks);
-    // The insulator sites are geometry: found once here, shared by every worker's copy.
-    let _ = mesh.insulator_sites(model, 0);
     // With parallel strings, the same resistor failing in either string gives the same
     // potentials, and is evaluated once.
     type Prepared = (Vec<NetworkSolution>, Vec<Vec<f64>>, Vec<f64>);
