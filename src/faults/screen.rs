@@ -54,8 +54,9 @@ pub(super) struct Screen {
     boxes: Vec<Option<NodeBox>>,
     /// The floor of each conductor's ratios, V/m.
     floor: Vec<f64>,
-    /// Field magnitude at every node at nominal (0 where not needed).
-    node_e: Vec<f64>,
+    /// The reciprocal of the field magnitude at every node at nominal (infinite where it is
+    /// zero or not needed).
+    inv_e: Vec<f64>,
     /// Nodes inside some box.
     in_box: Vec<bool>,
     /// Surface samples at nominal, in their order (the same in every scenario).
@@ -176,7 +177,7 @@ impl Screen {
             nominal: nominal_min,
             boxes,
             floor,
-            node_e,
+            inv_e: node_e.iter().map(|e| 1.0 / e).collect(),
             in_box,
             samples: work.samples.clone(),
             insulators,
@@ -204,29 +205,53 @@ impl Screen {
             }
         }
         let node_e = node_magnitudes(model, work, &self.in_box);
+        if node_e.iter().any(|e| e.is_nan()) {
+            // A field without a number somewhere: no bound holds for the boxes that hold it.
+            for (c, b) in self.boxes.iter().enumerate() {
+                if b.is_none_or(|b| self.nodes_of(&b, &work.mesh).any(|k| node_e[k].is_nan())) {
+                    rho[c] = f64::INFINITY;
+                }
+            }
+        }
         let mesh: &Mesh = &work.mesh;
         for (c, b) in self.boxes.iter().enumerate() {
             let Some(b) = b else {
                 rho[c] = f64::INFINITY;
                 continue;
             };
-            let floor = self.floor[c];
-            let mut worst = rho[c];
+            if rho[c].is_infinite() || self.floor[c] <= 0.0 {
+                // Without a floor, a node without field at nominal or now gives no ratio.
+                rho[c] = f64::INFINITY;
+                continue;
+            }
+            // ratio = e / max(e₀, floor) = e · min(1/e₀, 1/floor), in lanes of four.
+            let inv_floor = 1.0 / self.floor[c];
+            let mut lanes = [rho[c]; 4];
             for j in b.j.0..=b.j.1 {
-                let row = mesh.idx(0, j);
-                for i in b.i.0..=b.i.1 {
-                    let k = row + i;
-                    let ratio = node_e[k] / self.node_e[k].max(floor);
-                    if ratio.is_nan() {
-                        worst = f64::INFINITY;
-                    } else if ratio > worst {
-                        worst = ratio;
+                let row = mesh.idx(b.i.0, j)..=mesh.idx(b.i.1, j);
+                let (e, inv) = (&node_e[row.clone()], &self.inv_e[row]);
+                let mut e4 = e.chunks_exact(4);
+                let mut inv4 = inv.chunks_exact(4);
+                for (e, inv) in e4.by_ref().zip(inv4.by_ref()) {
+                    for l in 0..4 {
+                        let ratio = e[l] * inv[l].min(inv_floor);
+                        lanes[l] = if ratio > lanes[l] { ratio } else { lanes[l] };
                     }
                 }
+                for (e, inv) in e4.remainder().iter().zip(inv4.remainder()) {
+                    let ratio = e * inv.min(inv_floor);
+                    lanes[0] = if ratio > lanes[0] { ratio } else { lanes[0] };
+                }
             }
-            rho[c] = worst;
+            rho[c] = lanes.into_iter().fold(rho[c], f64::max);
         }
         rho
+    }
+
+    /// The node indices of a box.
+    fn nodes_of<'m>(&self, b: &NodeBox, mesh: &'m Mesh) -> impl Iterator<Item = usize> + 'm {
+        let b = *b;
+        (b.j.0..=b.j.1).flat_map(move |j| (b.i.0..=b.i.1).map(move |i| mesh.idx(i, j)))
     }
 
     /// The conductors that must be evaluated in a scenario whose field rose by `rho`, given

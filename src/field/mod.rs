@@ -106,6 +106,42 @@ enum Term {
     Fixed(FixedId),
 }
 
+/// The three-point derivative on an uneven stencil: spans `hp` to the value `vp` ahead and
+/// `hm` to `vm` behind, `v0` at the node.
+#[inline]
+fn three_point(hp: f64, hm: f64, vp: f64, v0: f64, vm: f64) -> f64 {
+    (vp - v0) * hm / (hp * (hp + hm)) + (v0 - vm) * hp / (hm * (hp + hm))
+}
+
+/// The spans on either side of every interior coordinate of an axis, for the node-field
+/// table's three-point derivatives.
+struct Spans {
+    /// `(ahead, behind)` of each coordinate (zero at the ends, which are not used).
+    h: Vec<(f64, f64)>,
+}
+
+impl Spans {
+    fn of(x: &[f64]) -> Spans {
+        let n = x.len();
+        let h = (0..n)
+            .map(|i| {
+                if i > 0 && i + 1 < n {
+                    (x[i + 1] - x[i], x[i] - x[i - 1])
+                } else {
+                    (0.0, 0.0)
+                }
+            })
+            .collect();
+        Spans { h }
+    }
+
+    #[inline]
+    fn derivative(&self, i: usize, vp: f64, v0: f64, vm: f64) -> f64 {
+        let (hp, hm) = self.h[i];
+        three_point(hp, hm, vp, v0, vm)
+    }
+}
+
 /// Potential and field at a point.
 #[derive(Debug, Clone, Copy, Serialize)]
 pub struct PointField {
@@ -172,13 +208,43 @@ impl<'a> FieldMap<'a> {
             NodeFields::Shared(c) => *c,
         };
         cache.get_or_init(|| {
-            let n = self.mesh.nodes();
+            let m = self.mesh;
+            let (nr, n) = (m.nr(), m.nodes());
+            let r = Spans::of(&m.r.x);
+            let z = Spans::of(&m.z.x);
+            let mut out = vec![[0.0f64; 2]; n];
+            let row = |(j, out): (usize, &mut [[f64; 2]])| self.node_field_row(j, &r, &z, out);
             if n >= PARALLEL_NODES {
-                (0..n).into_par_iter().map(|k| self.node_field(k)).collect()
+                out.par_chunks_mut(nr).enumerate().for_each(row);
             } else {
-                (0..n).map(|k| self.node_field(k)).collect()
+                out.chunks_mut(nr).enumerate().for_each(row);
             }
+            out
         })
+    }
+
+    /// The node fields of grid row `j` into `out`, as [`FieldMap::node_field`] gives them: a
+    /// free interior node without cuts takes the three-point derivatives with the spans of
+    /// `r` and `z` (the same values, the same operations), every other node the general path.
+    fn node_field_row(&self, j: usize, r: &Spans, z: &Spans, out: &mut [[f64; 2]]) {
+        let m = self.mesh;
+        let nr = m.nr();
+        let base = j * nr;
+        let interior_z = j > 0 && j + 1 < m.nz();
+        for (i, o) in out.iter_mut().enumerate() {
+            let k = base + i;
+            if !m.fixed[k].is_free() {
+                continue;
+            }
+            if !(interior_z && i > 0 && i + 1 < nr) || m.cuts.has_cuts(k) {
+                *o = self.node_field(k);
+                continue;
+            }
+            let v0 = self.phi[k];
+            let er = -r.derivative(i, self.phi[k + 1], v0, self.phi[k - 1]);
+            let ez = -z.derivative(j, self.phi[k + nr], v0, self.phi[k - nr]);
+            *o = [er, ez];
+        }
     }
 
     /// The larger spacing of the grid cell that holds `p`.
@@ -408,10 +474,7 @@ impl<'a> FieldMap<'a> {
         let v0 = self.phi[k];
         let deriv = |plus: Option<(f64, f64)>, minus: Option<(f64, f64)>| -> f64 {
             match (plus, minus) {
-                (Some((hp, vp)), Some((hm, vm))) => {
-                    // Three-point derivative on an uneven stencil.
-                    (vp - v0) * hm / (hp * (hp + hm)) + (v0 - vm) * hp / (hm * (hp + hm))
-                }
+                (Some((hp, vp)), Some((hm, vm))) => three_point(hp, hm, vp, v0, vm),
                 (Some((hp, vp)), None) => (vp - v0) / hp,
                 (None, Some((hm, vm))) => (v0 - vm) / hm,
                 (None, None) => 0.0,

@@ -182,6 +182,11 @@ impl CutTable {
         }
     }
 
+    /// Whether node `k` has a cut on any of its links.
+    pub fn has_cuts(&self, k: usize) -> bool {
+        self.slot[k] != NO_CUTS
+    }
+
     fn set(&mut self, k: usize, d: Dir, cut: Cut) {
         if self.slot[k] == NO_CUTS {
             self.slot[k] = self.rows.len() as u32;
