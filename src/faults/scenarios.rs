@@ -357,34 +357,39 @@ pub(super) fn monte_carlo(
 }
 
 /// The worst row of the scenario loaded in `work`, screened against the nominal (`screen`):
-/// the insulator rows, the conductors that must be evaluated and those whose bound lies below
-/// [`LIKELY`] times a guess at the worst margin (`Screen::guess`) first, then any other
-/// conductor whose bound does not clear the worst margin found. The same worst row as a full
-/// evaluation; a tie for the smallest margin, whose order only a full evaluation settles, is
-/// evaluated in full.
+/// the insulator rows and the conductors that must be evaluated first, then the others in
+/// rising order of their bound, [`ROUND`] at a time, while a bound does not clear the worst
+/// margin found so far (branch and bound). The conductors left out have every margin above
+/// the worst row found, so it is the worst row of a full evaluation; a tie for the smallest
+/// margin, whose order only a full evaluation settles, is evaluated in full.
 fn screened_margins(model: &Model, screen: &Screen, work: &Analysis) -> Result<Worst, FaultError> {
     let rho = screen.rise(model, work);
     let bounds = screen.bounds(&rho);
-    let guess = screen.guess(&rho);
-    let first: Vec<bool> = screen
-        .always(&rho)
-        .iter()
-        .zip(&bounds)
-        .map(|(a, b)| match (b, guess) {
-            (Some(b), Some(g)) => *a || *b <= g * LIKELY,
-            _ => true,
-        })
-        .collect();
-    let mut rows = margin::evaluate_selected(model, work, None, &|c| first[c], true)?.rows;
-    let found = worst_row(&rows).and_then(|r| r.margin);
-    let second: Vec<bool> = screen
-        .needed(&rho, found)
-        .iter()
-        .zip(&first)
-        .map(|(n, f)| *n && !f)
-        .collect();
-    if second.iter().any(|x| *x) {
-        rows.extend(margin::evaluate_selected(model, work, None, &|c| second[c], false)?.rows);
+    let mut done = screen.always(&rho);
+    let mut rows = margin::evaluate_selected(model, work, None, &|c| done[c], true)?.rows;
+    loop {
+        let found = worst_row(&rows).and_then(|r| r.margin);
+        let mut pending: Vec<usize> = screen
+            .needed(&rho, found)
+            .iter()
+            .enumerate()
+            .filter(|&(c, n)| *n && !done[c])
+            .map(|(c, _)| c)
+            .collect();
+        if pending.is_empty() {
+            break;
+        }
+        pending.sort_by(|&a, &b| {
+            let key = |c: usize| bounds[c].unwrap_or(f64::NEG_INFINITY);
+            key(a).total_cmp(&key(b)).then(a.cmp(&b))
+        });
+        pending.truncate(ROUND);
+        let mut pick = vec![false; done.len()];
+        for &c in &pending {
+            pick[c] = true;
+            done[c] = true;
+        }
+        rows.extend(margin::evaluate_selected(model, work, None, &|c| pick[c], false)?.rows);
     }
     margin::rank(&mut rows);
     if tied(&rows) {
@@ -393,6 +398,5 @@ fn screened_margins(model: &Model, screen: &Screen, work: &Analysis) -> Result<W
     Ok(worst_of(&rows))
 }
 
-/// The first round of a screened scenario takes the conductors whose bound lies below this
-/// factor times the guess at the worst margin.
-const LIKELY: f64 = 1.0;
+/// The conductors a round of [`screened_margins`] evaluates together.
+const ROUND: usize = 2;

@@ -61,8 +61,6 @@ pub(super) struct Screen {
     in_box: Vec<bool>,
     /// Surface samples at nominal, in their order (the same in every scenario).
     samples: Vec<SurfaceSample>,
-    /// Smallest margin of the insulator rows at nominal.
-    insulators: Option<f64>,
 }
 
 /// The conductor a row or a line start lies on: those whose surface passes within `tol` of
@@ -103,12 +101,8 @@ impl Screen {
         let floor: Vec<f64> = peak.iter().map(|p| FLOOR * p).collect();
         let mut least: Vec<Option<f64>> = vec![None; nc];
         let mut always = vec![false; nc];
-        let mut insulators: Option<f64> = None;
         for r in &nominal.rows {
             if !matches!(r.medium, RowMedium::Gas | RowMedium::Vacuum) {
-                if let Some(m) = r.margin {
-                    insulators = Some(insulators.map_or(m, |x: f64| x.min(m)));
-                }
                 continue;
             }
             let on = on_conductors(model, r.at_m, tol);
@@ -180,7 +174,6 @@ impl Screen {
             inv_e: node_e.iter().map(|e| 1.0 / e).collect(),
             in_box,
             samples: work.samples.clone(),
-            insulators,
         }
     }
 
@@ -277,24 +270,6 @@ impl Screen {
             .zip(rho)
             .map(|(m, r)| m.is_none() || !r.is_finite())
             .collect()
-    }
-
-    /// A guess at a scenario's worst margin, to choose the conductors evaluated first: the
-    /// smaller of the nominal insulator rows and the predicted margins (the bounds without the
-    /// safety factor) of the conductors whose field rose by less than half (a field that rose
-    /// more is near the fault, where the floor makes the prediction low).
-    pub(super) fn guess(&self, rho: &[f64]) -> Option<f64> {
-        let far = self
-            .nominal
-            .iter()
-            .zip(rho)
-            .filter(|(_, r)| **r <= 1.5)
-            .filter_map(|(m, r)| m.map(|m| m / r))
-            .reduce(f64::min);
-        match (self.insulators, far) {
-            (Some(a), Some(b)) => Some(a.min(b)),
-            (a, b) => a.or(b),
-        }
     }
 
     /// The lower bound of each conductor's margins in a scenario with field rise `rho`.

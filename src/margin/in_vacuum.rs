@@ -274,13 +274,19 @@ pub(super) fn vacuum_gap_line(
     (first, *hot, None)
 }
 
-/// The highest-field sample of each conductor in `medium` (cathodic only, when asked), with
-/// the field and place of the smooth profile's maximum around it (`FieldMap::peak_near`).
-pub(super) fn hotspots(fm: &FieldMap, samples: &[SurfaceSample], gas: bool) -> Vec<SurfaceSample> {
+/// The highest-field sample of each conductor that `keep` keeps (by index) in `medium`
+/// (cathodic only, when asked), with the field and place of the smooth profile's maximum
+/// around it (`FieldMap::peak_near`).
+pub(super) fn hotspots(
+    fm: &FieldMap,
+    samples: &[SurfaceSample],
+    gas: bool,
+    keep: &dyn Fn(usize) -> bool,
+) -> Vec<SurfaceSample> {
     let model = fm.model;
     let mut best: Vec<Option<SurfaceSample>> = vec![None; model.conductors.len()];
     for s in samples {
-        let Some(c) = s.conductor.conductor_index() else {
+        let Some(c) = s.conductor.conductor_index().filter(|&c| keep(c)) else {
             continue;
         };
         if !(s.e.is_finite() && s.e > 0.0) {

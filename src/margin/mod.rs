@@ -286,7 +286,6 @@ pub fn evaluate_selected(
     conductor: &dyn Fn(usize) -> bool,
     insulators: bool,
 ) -> Result<Margins, MarginError> {
-    let kept = |h: &SurfaceSample| h.conductor.conductor_index().is_none_or(conductor);
     let fm = fine.field_map(model);
     let gas = match &model.gas {
         Some(g) => Some((g.clone(), GasState::resolve(g)?)),
@@ -302,7 +301,7 @@ pub fn evaluate_selected(
     let mut rows = Vec::new();
     let mut lines = Vec::new();
     let mut notes = Vec::new();
-    let gas_hot = hotspots(&fm, &fine.samples, true);
+    let gas_hot = hotspots(&fm, &fine.samples, true, conductor);
     if ctx.gas.is_none() && !gas_hot.is_empty() {
         notes.push(
             "the design has no [gas] table: conductor surfaces outside vacuum regions and \
@@ -311,14 +310,11 @@ pub fn evaluate_selected(
         );
     } else {
         notes.extend(gas_state_notes(&ctx));
-        for hot in gas_hot.iter().filter(|h| kept(h)) {
+        for hot in &gas_hot {
             gas_rows(&ctx, &fm, &fine.samples, hot, &mut lines, &mut rows)?;
         }
     }
-    for hot in hotspots(&fm, &fine.samples, false)
-        .iter()
-        .filter(|h| kept(h))
-    {
+    for hot in &hotspots(&fm, &fine.samples, false, conductor) {
         vacuum_rows(&ctx, &fm, hot, &fine.samples, &mut lines, &mut rows)?;
     }
     for index in (0..model.dielectrics.len()).filter(|_| insulators) {
