@@ -4,6 +4,10 @@
 
 use super::*;
 
+/// An electrode solved in turn (index and groups), with the electrode that mirrors it, solved
+/// right after it from its solution reflected.
+type Primary<'g> = (usize, &'g Electrode, Option<(usize, &'g Electrode)>);
+
 /// Runs of unit solves the basis makes side by side (fixed, so that the warm starts and hence
 /// the basis do not depend on the machine's thread count).
 pub(super) const BASIS_STREAMS: usize = 2;
@@ -75,16 +79,22 @@ impl Basis {
         // The unit solves run in BASIS_STREAMS contiguous runs side by side, all on one
         // operator and one multigrid hierarchy, set up once (each run has its own copy of the
         // hierarchy's work vectors), and each solve warm-started from the previous one of its
-        // run. The split does not depend on the thread count, so the basis is the same
+        // run. An electrode that is the mirror image of an earlier one in a grid symmetric in
+        // z (the two columns of a tandem) is solved right after it, from its solution
+        // mirrored. The split does not depend on the thread count, so the basis is the same
         // everywhere.
-        let per = n.div_ceil(BASIS_STREAMS).max(1);
-        let runs: Vec<Vec<(usize, &Electrode)>> = groups
+        let partner = mirror_partners(model, mesh, &groups);
+        let primaries: Vec<Primary> = groups
             .iter()
             .enumerate()
-            .collect::<Vec<_>>()
-            .chunks(per)
-            .map(|c| c.to_vec())
+            .filter(|(j, _)| partner[*j].is_none())
+            .map(|(j, g)| {
+                let follower = (0..n).find(|&f| partner[f] == Some(j));
+                (j, g, follower.map(|f| (f, &groups[f])))
+            })
             .collect();
+        let per = primaries.len().div_ceil(BASIS_STREAMS).max(1);
+        let runs: Vec<_> = primaries.chunks(per).map(|c| c.to_vec()).collect();
         // One solver per run: the set-up one and copies of it (no idle original kept).
         let setup = Solver::new(mesh, *params);
         let mut solvers: Vec<Solver> = (1..runs.len()).map(|_| setup.clone()).collect();
@@ -95,37 +105,46 @@ impl Basis {
             .par_iter()
             .zip(solvers)
             .map(|(run, mut solver)| -> Result<Vec<Unit>, FaultError> {
-                let mut out: Vec<Unit> = Vec::with_capacity(run.len());
-                // The previous electrode of this run and its unit solution.
-                let mut last: Option<(&Electrode, Vec<f64>)> = None;
-                for &(j, g) in run {
+                let mut out: Vec<Unit> = Vec::with_capacity(2 * run.len());
+                let mut unit = |j: usize, g: &Electrode, start: Option<&[f64]>| {
                     let mut pots = vec![0.0; model.conductors.len()];
                     for &k in &g.conductors {
                         pots[k] = 1.0;
                     }
+                    let sol = solver.solve(&pots, start)?;
+                    let q = conductor_charges(mesh, &sol.phi, &pots);
+                    let kept: Vec<f32> = free_ref
+                        .iter()
+                        .map(|&k| sol.phi[k as usize] as f32)
+                        .collect();
+                    out.push((j, kept, q, sol.info));
+                    Ok::<_, FaultError>(sol.phi)
+                };
+                // The previous electrode of this run and its unit solution.
+                let mut last: Option<(&Electrode, Vec<f64>)> = None;
+                for &(j, g, follower) in run {
                     // The previous unit solution moved with the electrode where the column
                     // repeats (a third fewer iterations on the tandem), else as it is.
                     let moved = last
                         .as_ref()
                         .and_then(|(e, phi)| shifted_start(model, mesh, e, g, phi));
                     let start = moved.as_deref().or(last.as_ref().map(|(_, phi)| &phi[..]));
-                    let sol = solver.solve(&pots, start)?;
-                    let q = conductor_charges(mesh, &sol.phi, &pots);
-                    let unit: Vec<f32> = free_ref
-                        .iter()
-                        .map(|&k| sol.phi[k as usize] as f32)
-                        .collect();
-                    out.push((j, unit, q, sol.info));
-                    last = Some((g, sol.phi));
+                    let phi = unit(j, g, start)?;
+                    if let Some((f, mirror)) = follower {
+                        unit(f, mirror, Some(&mirrored_in_z(mesh, &phi)))?;
+                    }
+                    last = Some((g, phi));
                 }
                 Ok(out)
             })
             .collect::<Result<_, _>>()?;
+        let mut solved: Vec<Unit> = solved.into_iter().flatten().collect();
+        solved.sort_by_key(|u| u.0);
         let mut c_f = vec![vec![0.0; n]; n];
         let mut phi: Vec<Vec<f32>> = Vec::with_capacity(n);
         let mut iterations = 0;
         let mut info = None;
-        for (j, unit_phi, q, unit_info) in solved.into_iter().flatten() {
+        for (j, unit_phi, q, unit_info) in solved {
             iterations += unit_info.iterations;
             for (i, gi) in groups.iter().enumerate() {
                 c_f[i][j] = gi.conductors.iter().map(|&k| q[k]).sum();
@@ -236,17 +255,21 @@ impl Basis {
         let kernel = |(b, chunk): (usize, &mut [f64])| {
             let start = b * SUM_BLOCK;
             let len = SUM_BLOCK.min(nf - start);
-            for &e in &moved {
-                let p = &self.phi[e][start..start + len];
+            // Four unit solutions at a time, so that each partial sum is read and written
+            // once per four terms.
+            for group in moved.chunks(4) {
+                let p: [&[f32]; 4] =
+                    std::array::from_fn(|q| &self.phi[group[q.min(group.len() - 1)]][start..]);
                 for (s, w) in weights.iter().enumerate() {
-                    let w = w[e];
-                    if w == 0.0 {
+                    let w: [f64; 4] = std::array::from_fn(|q| group.get(q).map_or(0.0, |&e| w[e]));
+                    if w.iter().all(|&x| x == 0.0) {
                         continue;
                     }
-                    chunk[s * len..(s + 1) * len]
-                        .iter_mut()
-                        .zip(p)
-                        .for_each(|(o, &x)| *o += w * f64::from(x));
+                    let out = &mut chunk[s * len..(s + 1) * len];
+                    for (i, o) in out.iter_mut().enumerate() {
+                        *o += (w[0] * f64::from(p[0][i]) + w[1] * f64::from(p[1][i]))
+                            + (w[2] * f64::from(p[2][i]) + w[3] * f64::from(p[3][i]));
+                    }
                 }
             }
         };
@@ -356,4 +379,62 @@ fn shifted_start(
         }
     }
     Some(out)
+}
+
+/// For each electrode, the earlier electrode it is the mirror image of, in a grid whose z
+/// lines are symmetric about their middle plane (to a thousandth of the smallest spacing: the
+/// reflected solution is only a start): the same number of conductors, each with the bounding
+/// box of its counterpart reflected in that plane. Each electrode pairs at most once, and only
+/// with one that pairs with no earlier electrode itself. None everywhere when the grid is not
+/// symmetric.
+pub(crate) fn mirror_partners(
+    model: &Model,
+    mesh: &Mesh,
+    groups: &[Electrode],
+) -> Vec<Option<usize>> {
+    let n = groups.len();
+    let mut partner = vec![None; n];
+    let z = &mesh.z.x;
+    let last = z.len() - 1;
+    let middle = 0.5 * (z[0] + z[last]);
+    let grid_tol = 1e-3 * mesh.z.spacing_range().0;
+    if (0..=last).any(|j| (z[j] + z[last - j] - 2.0 * middle).abs() > grid_tol) {
+        return partner;
+    }
+    let tol = 1e-9 * (z[last] - z[0]).abs();
+    let close = |a: f64, b: f64| (a - b).abs() <= tol;
+    let mirrors = |a: &Electrode, b: &Electrode| {
+        a.conductors.len() == b.conductors.len()
+            && a.conductors.iter().zip(&b.conductors).all(|(&p, &q)| {
+                let (bp, bq) = (
+                    model.conductors[p].shape.bbox(),
+                    model.conductors[q].shape.bbox(),
+                );
+                close(bp.r_min, bq.r_min)
+                    && close(bp.r_max, bq.r_max)
+                    && close(bp.z_min, 2.0 * middle - bq.z_max)
+                    && close(bp.z_max, 2.0 * middle - bq.z_min)
+            })
+    };
+    let mut taken = vec![false; n];
+    for j in 0..n {
+        if let Some(i) =
+            (0..j).find(|&i| partner[i].is_none() && !taken[i] && mirrors(&groups[i], &groups[j]))
+        {
+            partner[j] = Some(i);
+            taken[i] = true;
+        }
+    }
+    partner
+}
+
+/// A field reflected in the middle plane of a grid symmetric in z: row j takes row nz − 1 − j.
+pub(crate) fn mirrored_in_z(mesh: &Mesh, phi: &[f64]) -> Vec<f64> {
+    let (nr, nz) = (mesh.nr(), mesh.nz());
+    let mut out = vec![0.0; phi.len()];
+    for j in 0..nz {
+        let src = (nz - 1 - j) * nr;
+        out[j * nr..(j + 1) * nr].copy_from_slice(&phi[src..src + nr]);
+    }
+    out
 }

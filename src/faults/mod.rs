@@ -41,6 +41,8 @@ mod transient;
 pub(crate) use basis::Basis;
 use basis::*;
 #[cfg(test)]
+pub(crate) use basis::{mirror_partners, mirrored_in_z};
+#[cfg(test)]
 pub(crate) use clamp::{GapLink, clamped_step};
 pub use firing::RepetitiveFiring;
 #[cfg(test)]
