@@ -14,7 +14,7 @@
 //! the tank, or crosses into another medium (an insulator, or the edge of a vacuum region); the
 //! stopping point is refined by bisection on the last step.
 
-use crate::field::{FieldMap, Medium, SurfaceSample};
+use crate::field::{CellField, FieldMap, Medium, PointField, SurfaceSample};
 use crate::geometry::{Point, magnitude};
 use crate::mesh::FixedId;
 use serde::Serialize;
@@ -145,57 +145,116 @@ struct Tracer<'m, 'a> {
     fm: &'m FieldMap<'a>,
     sense: f64,
     medium: Medium,
+    /// The cell of the last field evaluation (the next one is nearly always in it).
+    cell: CellField,
+    /// The cell of the last end test and the conductors its corners name.
+    end_cell: (usize, usize),
+    candidates: [FixedId; MAX_CANDIDATES],
+    n_candidates: usize,
 }
 
-impl Tracer<'_, '_> {
-    /// The unit direction of the line at `p` and |E| there, or `None` where the field vanishes.
-    fn direction(&self, p: Point) -> Option<([f64; 2], f64)> {
-        let q = Point::new(p.r.abs(), p.z);
-        let f = self.fm.at(q);
+/// Conductors an end test looks at, at most (four corners, each with its class and cuts).
+const MAX_CANDIDATES: usize = 20;
+
+impl<'m, 'a> Tracer<'m, 'a> {
+    fn new(fm: &'m FieldMap<'a>, sense: f64, medium: Medium, at: Point) -> Self {
+        let m = fm.mesh;
+        Tracer {
+            fm,
+            sense,
+            medium,
+            cell: fm.cell(m.r.locate(at.r.abs()), m.z.locate(at.z)),
+            end_cell: (usize::MAX, usize::MAX),
+            candidates: [FixedId::FREE; MAX_CANDIDATES],
+            n_candidates: 0,
+        }
+    }
+
+    /// The grid cell (i, j) that holds `q` (with r ≥ 0), as `Axis::locate` finds it,
+    /// searched from the last cell.
+    fn locate(&self, q: Point) -> (usize, usize) {
+        if self.cell.holds(q) {
+            return (self.cell.i, self.cell.j);
+        }
+        let m = self.fm.mesh;
+        (
+            m.r.locate_near(q.r, self.cell.i),
+            m.z.locate_near(q.z, self.cell.j),
+        )
+    }
+
+    /// The field at `q` (with r ≥ 0), as [`FieldMap::at`] gives it.
+    fn field(&mut self, q: Point) -> PointField {
+        if !self.cell.holds(q) {
+            let (i, j) = self.locate(q);
+            self.cell = self.fm.cell(i, j);
+        }
+        self.cell.at(q)
+    }
+
+    /// The unit direction of the line at `p` and the field there, or `None` where the field
+    /// vanishes.
+    fn direction(&mut self, p: Point) -> Option<([f64; 2], PointField)> {
+        let f = self.field(Point::new(p.r.abs(), p.z));
         let (er, ez) = (f.field[0] * p.r.signum(), f.field[1]);
         let e = magnitude(er, ez);
         if !(e.is_finite() && e > 0.0) {
             return None;
         }
-        Some(([self.sense * er / e, self.sense * ez / e], e))
+        Some(([self.sense * er / e, self.sense * ez / e], f))
     }
 
     /// Local grid spacing at `p` (the smaller side of its cell).
     fn spacing(&self, p: Point) -> f64 {
+        let q = Point::new(p.r.abs(), p.z);
+        if self.cell.holds(q) {
+            return self.cell.spacing();
+        }
         let m = self.fm.mesh;
-        let i = m.r.locate(p.r.abs());
-        let j = m.z.locate(p.z);
+        let (i, j) = self.locate(q);
         (m.r.x[i + 1] - m.r.x[i]).min(m.z.x[j + 1] - m.z.x[j])
     }
 
+    /// The conductors named by the corner classes and cuts of cell (i, j), kept for the
+    /// last cell asked about.
+    fn candidates(&mut self, i: usize, j: usize) -> &[FixedId] {
+        if self.end_cell != (i, j) {
+            let m = self.fm.mesh;
+            let mut n = 0;
+            for k in [
+                m.idx(i, j),
+                m.idx(i + 1, j),
+                m.idx(i, j + 1),
+                m.idx(i + 1, j + 1),
+            ] {
+                let ids =
+                    std::iter::once(m.fixed[k]).chain(m.cuts[k].iter().flatten().map(|c| c.id));
+                for id in ids {
+                    if !id.is_free()
+                        && !id.is_tank()
+                        && !self.candidates[..n].contains(&id)
+                        && n < MAX_CANDIDATES
+                    {
+                        self.candidates[n] = id;
+                        n += 1;
+                    }
+                }
+            }
+            self.end_cell = (i, j);
+            self.n_candidates = n;
+        }
+        &self.candidates[..self.n_candidates]
+    }
+
     /// Whether `p` lies beyond the end of the line, and on what.
-    fn end_at(&self, p: Point) -> Option<LineEnd> {
-        let fm = self.fm;
-        let model = fm.model;
+    fn end_at(&mut self, p: Point) -> Option<LineEnd> {
+        let model = self.fm.model;
         let p = Point::new(p.r.abs(), p.z);
         if model.tank.sdf_inside(p) >= 0.0 {
             return Some(LineEnd::Tank);
         }
-        let m = fm.mesh;
-        let i = m.r.locate(p.r);
-        let j = m.z.locate(p.z);
-        let mut candidates: [FixedId; 20] = [FixedId::FREE; 20];
-        let mut n = 0;
-        for k in [
-            m.idx(i, j),
-            m.idx(i + 1, j),
-            m.idx(i, j + 1),
-            m.idx(i + 1, j + 1),
-        ] {
-            let ids = std::iter::once(m.fixed[k]).chain(m.cuts[k].iter().flatten().map(|c| c.id));
-            for id in ids {
-                if !id.is_free() && !id.is_tank() && !candidates[..n].contains(&id) && n < 20 {
-                    candidates[n] = id;
-                    n += 1;
-                }
-            }
-        }
-        for &id in &candidates[..n] {
+        let (i, j) = self.locate(p);
+        for &id in self.candidates(i, j) {
             let Some(index) = id.conductor_index() else {
                 continue;
             };
@@ -227,8 +286,14 @@ impl Tracer<'_, '_> {
         }
     }
 
-    /// One Dormand–Prince step of length `h` from `p`: the new point and the error estimate.
-    fn step(&self, p: Point, k1: [f64; 2], h: f64) -> Option<(Point, [f64; 2], f64)> {
+    /// One Dormand–Prince step of length `h` from `p`: the new point, the direction and
+    /// field there, and the error estimate.
+    fn step(
+        &mut self,
+        p: Point,
+        k1: [f64; 2],
+        h: f64,
+    ) -> Option<(Point, [f64; 2], PointField, f64)> {
         let at = |c: &[([f64; 2], f64)]| {
             let mut r = p.r;
             let mut z = p.z;
@@ -248,13 +313,13 @@ impl Tracer<'_, '_> {
             .direction(at(&[(k1, A61), (k2, A62), (k3, A63), (k4, A64), (k5, A65)]))?
             .0;
         let next = at(&[(k1, B1), (k3, B3), (k4, B4), (k5, B5), (k6, B6)]);
-        let (k7, _) = self.direction(next)?;
+        let (k7, f7) = self.direction(next)?;
         let mut err = [0.0; 2];
         for c in 0..2 {
             err[c] =
                 h * (E1 * k1[c] + E3 * k3[c] + E4 * k4[c] + E5 * k5[c] + E6 * k6[c] + E7 * k7[c]);
         }
-        Some((next, k7, magnitude(err[0], err[1])))
+        Some((next, k7, f7, magnitude(err[0], err[1])))
     }
 }
 
@@ -293,11 +358,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
     if matches!(from.medium, Medium::Dielectric { .. }) || from.e.is_nan() || from.e <= 0.0 {
         return line;
     }
-    let tracer = Tracer {
-        fm,
-        sense,
-        medium: from.medium,
-    };
+    let mut tracer = Tracer::new(fm, sense, from.medium, from.at);
     let h_surface = tracer.spacing(from.at);
     line.near_surface_m = h_surface;
     let domain = fm.model.tank.bbox();
@@ -326,7 +387,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
         // the end is refined on that straight segment, otherwise the step is halved.
         let predictor = Point::new(p.r + h * k1[0], p.z + h * k1[1]);
         let crossed = match &stepped {
-            Some((next, _, _)) => tracer.end_at(*next).map(|_| *next),
+            Some((next, _, _, _)) => tracer.end_at(*next).map(|_| *next),
             None => tracer.end_at(predictor).map(|_| predictor),
         };
         if let Some(target) = crossed
@@ -348,7 +409,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
             s += hi * magnitude(target.r - p.r, target.z - p.z);
             break;
         }
-        let Some((next, k_next, err)) = stepped else {
+        let Some((next, k_next, f, err)) = stepped else {
             // The field vanished inside the step without an end: halve, or give up when tiny.
             h *= 0.5;
             line.rejected_steps += 1;
@@ -367,7 +428,6 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
         p = next;
         k1 = k_next;
         line.steps += 1;
-        let f = fm.at(Point::new(p.r.abs(), p.z));
         line.samples.push(LineSample {
             s_m: s,
             e_v_per_m: magnitude(f.field[0], f.field[1]),
