@@ -147,10 +147,45 @@ struct Tracer<'m, 'a> {
     medium: Medium,
     /// The cell of the last field evaluation (the next one is nearly always in it).
     cell: CellField,
-    /// The cell of the last end test and the conductors its corners name.
-    end_cell: (usize, usize),
-    candidates: [FixedId; MAX_CANDIDATES],
-    n_candidates: usize,
+    /// What the end test looks at in the cell of its last point.
+    near: NearCell,
+}
+
+/// The shapes an end test in one grid cell looks at: the conductors named by its corners'
+/// classes and cuts, and the dielectrics and vacuum regions whose bounding boxes, widened
+/// by a margin far above round-off, reach the cell (a point outside a shape's box is never
+/// inside the shape). Kept for the last cell asked about.
+struct NearCell {
+    cell: (usize, usize),
+    /// The cell's extent, sides included.
+    r: [f64; 2],
+    z: [f64; 2],
+    conductors: [FixedId; MAX_CANDIDATES],
+    n_conductors: usize,
+    dielectrics: Vec<usize>,
+    vacuum: Vec<usize>,
+    /// The widened boxes of the model's dielectrics and of its vacuum regions.
+    dielectric_boxes: Vec<[f64; 4]>,
+    vacuum_boxes: Vec<[f64; 4]>,
+}
+
+impl NearCell {
+    fn holds(&self, p: Point) -> bool {
+        self.r[0] <= p.r && p.r <= self.r[1] && self.z[0] <= p.z && p.z <= self.z[1]
+    }
+}
+
+/// The bounding box of `shape` widened by 1e-9 of its size and place, as
+/// (r_min, r_max, z_min, z_max).
+fn widened_box(shape: &crate::geometry::Shape) -> [f64; 4] {
+    let b = shape.bbox();
+    let w = 1e-9 * (b.r_max.abs() + b.r_min.abs() + b.z_max.abs() + b.z_min.abs());
+    [b.r_min - w, b.r_max + w, b.z_min - w, b.z_max + w]
+}
+
+/// Whether the box `b` of [`widened_box`] meets [r0, r1] × [z0, z1].
+fn reaches(b: &[f64; 4], r: [f64; 2], z: [f64; 2]) -> bool {
+    !(b[0] > r[1] || b[1] < r[0] || b[2] > z[1] || b[3] < z[0])
 }
 
 /// Conductors an end test looks at, at most (four corners, each with its class and cuts).
@@ -164,9 +199,21 @@ impl<'m, 'a> Tracer<'m, 'a> {
             sense,
             medium,
             cell: fm.cell(m.r.locate(at.r.abs()), m.z.locate(at.z)),
-            end_cell: (usize::MAX, usize::MAX),
-            candidates: [FixedId::FREE; MAX_CANDIDATES],
-            n_candidates: 0,
+            near: NearCell {
+                cell: (usize::MAX, usize::MAX),
+                r: [f64::NAN; 2],
+                z: [f64::NAN; 2],
+                conductors: [FixedId::FREE; MAX_CANDIDATES],
+                n_conductors: 0,
+                dielectrics: Vec::new(),
+                vacuum: Vec::new(),
+                dielectric_boxes: (fm.model.dielectrics.iter())
+                    .map(|d| widened_box(&d.shape))
+                    .collect(),
+                vacuum_boxes: (fm.model.vacuum.iter())
+                    .map(|v| widened_box(&v.shape))
+                    .collect(),
+            },
         }
     }
 
@@ -215,35 +262,43 @@ impl<'m, 'a> Tracer<'m, 'a> {
         (m.r.x[i + 1] - m.r.x[i]).min(m.z.x[j + 1] - m.z.x[j])
     }
 
-    /// The conductors named by the corner classes and cuts of cell (i, j), kept for the
-    /// last cell asked about.
-    fn candidates(&mut self, i: usize, j: usize) -> &[FixedId] {
-        if self.end_cell != (i, j) {
-            let m = self.fm.mesh;
-            let mut n = 0;
-            for k in [
-                m.idx(i, j),
-                m.idx(i + 1, j),
-                m.idx(i, j + 1),
-                m.idx(i + 1, j + 1),
-            ] {
-                let ids =
-                    std::iter::once(m.fixed[k]).chain(m.cuts[k].iter().flatten().map(|c| c.id));
-                for id in ids {
-                    if !id.is_free()
-                        && !id.is_tank()
-                        && !self.candidates[..n].contains(&id)
-                        && n < MAX_CANDIDATES
-                    {
-                        self.candidates[n] = id;
-                        n += 1;
-                    }
+    /// Makes `near` that of cell (i, j).
+    fn near(&mut self, i: usize, j: usize) {
+        let near = &mut self.near;
+        if near.cell == (i, j) {
+            return;
+        }
+        let m = self.fm.mesh;
+        let mut n = 0;
+        for k in [
+            m.idx(i, j),
+            m.idx(i + 1, j),
+            m.idx(i, j + 1),
+            m.idx(i + 1, j + 1),
+        ] {
+            let ids = std::iter::once(m.fixed[k]).chain(m.cuts[k].iter().flatten().map(|c| c.id));
+            for id in ids {
+                if !id.is_free()
+                    && !id.is_tank()
+                    && !near.conductors[..n].contains(&id)
+                    && n < MAX_CANDIDATES
+                {
+                    near.conductors[n] = id;
+                    n += 1;
                 }
             }
-            self.end_cell = (i, j);
-            self.n_candidates = n;
         }
-        &self.candidates[..self.n_candidates]
+        near.n_conductors = n;
+        near.cell = (i, j);
+        near.r = [m.r.x[i], m.r.x[i + 1]];
+        near.z = [m.z.x[j], m.z.x[j + 1]];
+        let (r, z) = (near.r, near.z);
+        let reaching = |boxes: &[[f64; 4]], out: &mut Vec<usize>| {
+            out.clear();
+            out.extend((0..boxes.len()).filter(|&k| reaches(&boxes[k], r, z)));
+        };
+        reaching(&near.dielectric_boxes, &mut near.dielectrics);
+        reaching(&near.vacuum_boxes, &mut near.vacuum);
     }
 
     /// Whether `p` lies beyond the end of the line, and on what.
@@ -254,7 +309,9 @@ impl<'m, 'a> Tracer<'m, 'a> {
             return Some(LineEnd::Tank);
         }
         let (i, j) = self.locate(p);
-        for &id in self.candidates(i, j) {
+        self.near(i, j);
+        let near = &self.near;
+        for &id in &near.conductors[..near.n_conductors] {
             let Some(index) = id.conductor_index() else {
                 continue;
             };
@@ -262,13 +319,26 @@ impl<'m, 'a> Tracer<'m, 'a> {
                 return Some(LineEnd::Conductor { index });
             }
         }
-        if let Some(index) = model.dielectric_at(p) {
+        // Only the shapes that reach the cell (all of them for a point off the grid, which
+        // the cell clamps to).
+        let in_cell = near.holds(p);
+        let dielectric = if in_cell {
+            let inside = |&&k: &&usize| model.dielectrics[k].shape.contains(p);
+            near.dielectrics.iter().rfind(inside).copied()
+        } else {
+            model.dielectric_at(p)
+        };
+        if let Some(index) = dielectric {
             if self.medium != (Medium::Dielectric { index }) {
                 return Some(LineEnd::Dielectric { index });
             }
             return None;
         }
-        let in_vacuum = model.vacuum.iter().any(|v| v.shape.contains(p));
+        let in_vacuum = if in_cell {
+            (near.vacuum.iter()).any(|&k| model.vacuum[k].shape.contains(p))
+        } else {
+            model.vacuum.iter().any(|v| v.shape.contains(p))
+        };
         let crossed = match self.medium {
             Medium::Gas => in_vacuum,
             Medium::Vacuum => !in_vacuum,
@@ -466,4 +536,73 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
     line.length_m = s;
     line.voltage_v = (v_start - v_end).abs();
     line
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::mesh::Mesh;
+
+    /// The end test with each cell's shape lists (bounding boxes widened by 1e-9) gives the
+    /// same answer as the test against every dielectric and vacuum region, at points all over
+    /// the demo machine (examples/demo_750kv.toml, an invented machine: insulators, a vacuum
+    /// bore, electrodes) and just either side of every grid line.
+    #[test]
+    fn end_test_by_cell_agrees_with_every_shape() {
+        let text = include_str!("../examples/demo_750kv.toml");
+        let model = crate::design::from_str(text, "demo_750kv.toml").expect("demo");
+        let mesh = Mesh::build(&model).expect("mesh");
+        let phi = vec![0.0; mesh.nodes()];
+        let potentials = vec![0.0; model.conductors.len()];
+        let fm = FieldMap::new(&mesh, &model, &phi, &potentials);
+        let b = model.tank.bbox();
+        let mut points = Vec::new();
+        let (nr, nz) = (150, 600);
+        for a in 0..=nr {
+            for c in 0..=nz {
+                let r = b.r_min + (b.r_max - b.r_min) * a as f64 / nr as f64;
+                let z = b.z_min + (b.z_max - b.z_min) * c as f64 / nz as f64;
+                points.push(Point::new(r, z));
+            }
+        }
+        let (i_mid, j_mid) = (mesh.nr() / 2, mesh.nz() / 2);
+        for &x in &mesh.r.x {
+            for d in [x.next_down(), x, x.next_up()] {
+                points.push(Point::new(d, mesh.z.x[j_mid]));
+            }
+        }
+        for &x in &mesh.z.x {
+            for d in [x.next_down(), x, x.next_up()] {
+                points.push(Point::new(mesh.r.x[i_mid], d));
+            }
+        }
+        let mut seen = [0usize; 3];
+        for medium in [Medium::Gas, Medium::Vacuum] {
+            let mut by_cell = Tracer::new(&fm, 1.0, medium, points[0]);
+            let mut every = Tracer::new(&fm, 1.0, medium, points[0]);
+            for boxes in [
+                &mut every.near.dielectric_boxes,
+                &mut every.near.vacuum_boxes,
+            ] {
+                boxes.fill([
+                    f64::NEG_INFINITY,
+                    f64::INFINITY,
+                    f64::NEG_INFINITY,
+                    f64::INFINITY,
+                ]);
+            }
+            for &p in &points {
+                let end = by_cell.end_at(p);
+                assert_eq!(end, every.end_at(p), "at {p:?} in {medium:?}");
+                match end {
+                    Some(LineEnd::Dielectric { .. }) => seen[0] += 1,
+                    Some(LineEnd::MediumBoundary) => seen[1] += 1,
+                    Some(LineEnd::Conductor { .. }) => seen[2] += 1,
+                    _ => {}
+                }
+            }
+        }
+        // The points meet insulators, vacuum boundaries and electrodes.
+        assert!(seen.iter().all(|&n| n > 0), "{seen:?}");
+    }
 }
