@@ -146,6 +146,7 @@ impl CellField {
 
     /// Potential and field at `p` by bilinear interpolation over the free corners (see
     /// [`FieldMap::at`]; `p` need not lie in the cell, the weights are clamped to it).
+    #[inline(always)]
     pub fn at(&self, p: Point) -> PointField {
         let [r0, r1] = self.r;
         let [z0, z1] = self.z;
