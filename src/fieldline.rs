@@ -14,7 +14,7 @@
 //! the tank, or crosses into another medium (an insulator, or the edge of a vacuum region); the
 //! stopping point is refined by bisection on the last step.
 
-use crate::field::{FieldMap, Medium, SurfaceSample};
+use crate::field::{CellField, FieldMap, Medium, PointField, SurfaceSample};
 use crate::geometry::{Point, magnitude};
 use crate::mesh::FixedId;
 use serde::Serialize;
@@ -145,41 +145,131 @@ struct Tracer<'m, 'a> {
     fm: &'m FieldMap<'a>,
     sense: f64,
     medium: Medium,
+    /// The cell of the last field evaluation (the next one is nearly always in it).
+    cell: CellField,
+    /// What the end test looks at in the cell of its last point.
+    near: NearCell,
 }
 
-impl Tracer<'_, '_> {
-    /// The unit direction of the line at `p` and |E| there, or `None` where the field vanishes.
-    fn direction(&self, p: Point) -> Option<([f64; 2], f64)> {
-        let q = Point::new(p.r.abs(), p.z);
-        let f = self.fm.at(q);
+/// The shapes an end test in one grid cell looks at: the conductors named by its corners'
+/// classes and cuts, and the dielectrics and vacuum regions whose bounding boxes, widened
+/// by a margin far above round-off, reach the cell (a point outside a shape's box is never
+/// inside the shape). Kept for the last cell asked about.
+struct NearCell {
+    cell: (usize, usize),
+    /// The cell's extent, sides included.
+    r: [f64; 2],
+    z: [f64; 2],
+    conductors: [FixedId; MAX_CANDIDATES],
+    n_conductors: usize,
+    dielectrics: Vec<usize>,
+    vacuum: Vec<usize>,
+    /// The widened boxes of the model's dielectrics and of its vacuum regions.
+    dielectric_boxes: Vec<[f64; 4]>,
+    vacuum_boxes: Vec<[f64; 4]>,
+}
+
+impl NearCell {
+    fn holds(&self, p: Point) -> bool {
+        self.r[0] <= p.r && p.r <= self.r[1] && self.z[0] <= p.z && p.z <= self.z[1]
+    }
+}
+
+/// The bounding box of `shape` widened by 1e-9 of its size and place, as
+/// (r_min, r_max, z_min, z_max).
+fn widened_box(shape: &crate::geometry::Shape) -> [f64; 4] {
+    let b = shape.bbox();
+    let w = 1e-9 * (b.r_max.abs() + b.r_min.abs() + b.z_max.abs() + b.z_min.abs());
+    [b.r_min - w, b.r_max + w, b.z_min - w, b.z_max + w]
+}
+
+/// Whether the box `b` of [`widened_box`] meets [r0, r1] × [z0, z1].
+fn reaches(b: &[f64; 4], r: [f64; 2], z: [f64; 2]) -> bool {
+    !(b[0] > r[1] || b[1] < r[0] || b[2] > z[1] || b[3] < z[0])
+}
+
+/// Conductors an end test looks at, at most (four corners, each with its class and cuts).
+const MAX_CANDIDATES: usize = 20;
+
+impl<'m, 'a> Tracer<'m, 'a> {
+    fn new(fm: &'m FieldMap<'a>, sense: f64, medium: Medium, at: Point) -> Self {
+        let m = fm.mesh;
+        Tracer {
+            fm,
+            sense,
+            medium,
+            cell: fm.cell(m.r.locate(at.r.abs()), m.z.locate(at.z)),
+            near: NearCell {
+                cell: (usize::MAX, usize::MAX),
+                r: [f64::NAN; 2],
+                z: [f64::NAN; 2],
+                conductors: [FixedId::FREE; MAX_CANDIDATES],
+                n_conductors: 0,
+                dielectrics: Vec::new(),
+                vacuum: Vec::new(),
+                dielectric_boxes: (fm.model.dielectrics.iter())
+                    .map(|d| widened_box(&d.shape))
+                    .collect(),
+                vacuum_boxes: (fm.model.vacuum.iter())
+                    .map(|v| widened_box(&v.shape))
+                    .collect(),
+            },
+        }
+    }
+
+    /// The grid cell (i, j) that holds `q` (with r ≥ 0), as `Axis::locate` finds it,
+    /// searched from the last cell.
+    fn locate(&self, q: Point) -> (usize, usize) {
+        if self.cell.holds(q) {
+            return (self.cell.i, self.cell.j);
+        }
+        let m = self.fm.mesh;
+        (
+            m.r.locate_near(q.r, self.cell.i),
+            m.z.locate_near(q.z, self.cell.j),
+        )
+    }
+
+    /// The field at `q` (with r ≥ 0), as [`FieldMap::at`] gives it.
+    fn field(&mut self, q: Point) -> PointField {
+        if !self.cell.holds(q) {
+            let (i, j) = self.locate(q);
+            self.cell = self.fm.cell(i, j);
+        }
+        self.cell.at(q)
+    }
+
+    /// The unit direction of the line at `p` and the field there, or `None` where the field
+    /// vanishes.
+    #[inline(always)]
+    fn direction(&mut self, p: Point) -> Option<([f64; 2], PointField)> {
+        let f = self.field(Point::new(p.r.abs(), p.z));
         let (er, ez) = (f.field[0] * p.r.signum(), f.field[1]);
         let e = magnitude(er, ez);
         if !(e.is_finite() && e > 0.0) {
             return None;
         }
-        Some(([self.sense * er / e, self.sense * ez / e], e))
+        Some(([self.sense * er / e, self.sense * ez / e], f))
     }
 
     /// Local grid spacing at `p` (the smaller side of its cell).
     fn spacing(&self, p: Point) -> f64 {
+        let q = Point::new(p.r.abs(), p.z);
+        if self.cell.holds(q) {
+            return self.cell.spacing();
+        }
         let m = self.fm.mesh;
-        let i = m.r.locate(p.r.abs());
-        let j = m.z.locate(p.z);
+        let (i, j) = self.locate(q);
         (m.r.x[i + 1] - m.r.x[i]).min(m.z.x[j + 1] - m.z.x[j])
     }
 
-    /// Whether `p` lies beyond the end of the line, and on what.
-    fn end_at(&self, p: Point) -> Option<LineEnd> {
-        let fm = self.fm;
-        let model = fm.model;
-        let p = Point::new(p.r.abs(), p.z);
-        if model.tank.sdf_inside(p) >= 0.0 {
-            return Some(LineEnd::Tank);
+    /// Makes `near` that of cell (i, j).
+    fn near(&mut self, i: usize, j: usize) {
+        let near = &mut self.near;
+        if near.cell == (i, j) {
+            return;
         }
-        let m = fm.mesh;
-        let i = m.r.locate(p.r);
-        let j = m.z.locate(p.z);
-        let mut candidates: [FixedId; 20] = [FixedId::FREE; 20];
+        let m = self.fm.mesh;
         let mut n = 0;
         for k in [
             m.idx(i, j),
@@ -189,13 +279,40 @@ impl Tracer<'_, '_> {
         ] {
             let ids = std::iter::once(m.fixed[k]).chain(m.cuts[k].iter().flatten().map(|c| c.id));
             for id in ids {
-                if !id.is_free() && !id.is_tank() && !candidates[..n].contains(&id) && n < 20 {
-                    candidates[n] = id;
+                if !id.is_free()
+                    && !id.is_tank()
+                    && !near.conductors[..n].contains(&id)
+                    && n < MAX_CANDIDATES
+                {
+                    near.conductors[n] = id;
                     n += 1;
                 }
             }
         }
-        for &id in &candidates[..n] {
+        near.n_conductors = n;
+        near.cell = (i, j);
+        near.r = [m.r.x[i], m.r.x[i + 1]];
+        near.z = [m.z.x[j], m.z.x[j + 1]];
+        let (r, z) = (near.r, near.z);
+        let reaching = |boxes: &[[f64; 4]], out: &mut Vec<usize>| {
+            out.clear();
+            out.extend((0..boxes.len()).filter(|&k| reaches(&boxes[k], r, z)));
+        };
+        reaching(&near.dielectric_boxes, &mut near.dielectrics);
+        reaching(&near.vacuum_boxes, &mut near.vacuum);
+    }
+
+    /// Whether `p` lies beyond the end of the line, and on what.
+    fn end_at(&mut self, p: Point) -> Option<LineEnd> {
+        let model = self.fm.model;
+        let p = Point::new(p.r.abs(), p.z);
+        if model.tank.sdf_inside(p) >= 0.0 {
+            return Some(LineEnd::Tank);
+        }
+        let (i, j) = self.locate(p);
+        self.near(i, j);
+        let near = &self.near;
+        for &id in &near.conductors[..near.n_conductors] {
             let Some(index) = id.conductor_index() else {
                 continue;
             };
@@ -203,13 +320,26 @@ impl Tracer<'_, '_> {
                 return Some(LineEnd::Conductor { index });
             }
         }
-        if let Some(index) = model.dielectric_at(p) {
+        // Only the shapes that reach the cell (all of them for a point off the grid, which
+        // the cell clamps to).
+        let in_cell = near.holds(p);
+        let dielectric = if in_cell {
+            let inside = |&&k: &&usize| model.dielectrics[k].shape.contains(p);
+            near.dielectrics.iter().rfind(inside).copied()
+        } else {
+            model.dielectric_at(p)
+        };
+        if let Some(index) = dielectric {
             if self.medium != (Medium::Dielectric { index }) {
                 return Some(LineEnd::Dielectric { index });
             }
             return None;
         }
-        let in_vacuum = model.vacuum.iter().any(|v| v.shape.contains(p));
+        let in_vacuum = if in_cell {
+            (near.vacuum.iter()).any(|&k| model.vacuum[k].shape.contains(p))
+        } else {
+            model.vacuum.iter().any(|v| v.shape.contains(p))
+        };
         let crossed = match self.medium {
             Medium::Gas => in_vacuum,
             Medium::Vacuum => !in_vacuum,
@@ -227,8 +357,14 @@ impl Tracer<'_, '_> {
         }
     }
 
-    /// One Dormand–Prince step of length `h` from `p`: the new point and the error estimate.
-    fn step(&self, p: Point, k1: [f64; 2], h: f64) -> Option<(Point, [f64; 2], f64)> {
+    /// One Dormand–Prince step of length `h` from `p`: the new point, the direction and
+    /// field there, and the error estimate.
+    fn step(
+        &mut self,
+        p: Point,
+        k1: [f64; 2],
+        h: f64,
+    ) -> Option<(Point, [f64; 2], PointField, f64)> {
         let at = |c: &[([f64; 2], f64)]| {
             let mut r = p.r;
             let mut z = p.z;
@@ -248,13 +384,27 @@ impl Tracer<'_, '_> {
             .direction(at(&[(k1, A61), (k2, A62), (k3, A63), (k4, A64), (k5, A65)]))?
             .0;
         let next = at(&[(k1, B1), (k3, B3), (k4, B4), (k5, B5), (k6, B6)]);
-        let (k7, _) = self.direction(next)?;
+        let (k7, f7) = self.direction(next)?;
         let mut err = [0.0; 2];
         for c in 0..2 {
             err[c] =
                 h * (E1 * k1[c] + E3 * k3[c] + E4 * k4[c] + E5 * k5[c] + E6 * k6[c] + E7 * k7[c]);
         }
-        Some((next, k7, magnitude(err[0], err[1])))
+        Some((next, k7, f7, magnitude(err[0], err[1])))
+    }
+}
+
+/// The step growth after an accepted step with error ratio `q` = tolerance / error:
+/// 0.9 q^(1/5) within [1, 5]. Far from the bounds the bound is taken without the power
+/// (0.9 × 6000^(1/5) ≈ 5.12 and 0.9 × 1.69^(1/5) ≈ 0.9996, margins far above its round-off),
+/// the same value.
+fn growth(q: f64) -> f64 {
+    if q >= 6000.0 {
+        5.0
+    } else if q <= 1.69 {
+        1.0
+    } else {
+        (0.9 * q.powf(0.2)).clamp(1.0, 5.0)
     }
 }
 
@@ -293,11 +443,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
     if matches!(from.medium, Medium::Dielectric { .. }) || from.e.is_nan() || from.e <= 0.0 {
         return line;
     }
-    let tracer = Tracer {
-        fm,
-        sense,
-        medium: from.medium,
-    };
+    let mut tracer = Tracer::new(fm, sense, from.medium, from.at);
     let h_surface = tracer.spacing(from.at);
     line.near_surface_m = h_surface;
     let domain = fm.model.tank.bbox();
@@ -326,7 +472,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
         // the end is refined on that straight segment, otherwise the step is halved.
         let predictor = Point::new(p.r + h * k1[0], p.z + h * k1[1]);
         let crossed = match &stepped {
-            Some((next, _, _)) => tracer.end_at(*next).map(|_| *next),
+            Some((next, _, _, _)) => tracer.end_at(*next).map(|_| *next),
             None => tracer.end_at(predictor).map(|_| predictor),
         };
         if let Some(target) = crossed
@@ -348,7 +494,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
             s += hi * magnitude(target.r - p.r, target.z - p.z);
             break;
         }
-        let Some((next, k_next, err)) = stepped else {
+        let Some((next, k_next, f, err)) = stepped else {
             // The field vanished inside the step without an end: halve, or give up when tiny.
             h *= 0.5;
             line.rejected_steps += 1;
@@ -367,7 +513,6 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
         p = next;
         k1 = k_next;
         line.steps += 1;
-        let f = fm.at(Point::new(p.r.abs(), p.z));
         line.samples.push(LineSample {
             s_m: s,
             e_v_per_m: magnitude(f.field[0], f.field[1]),
@@ -375,11 +520,7 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
             potential_v: f.potential_v,
         });
         end_point = p;
-        let grow = if err > 0.0 {
-            (0.9 * (tol / err).powf(0.2)).clamp(1.0, 5.0)
-        } else {
-            5.0
-        };
+        let grow = if err > 0.0 { growth(tol / err) } else { 5.0 };
         h *= grow;
     }
     let end_point = Point::new(end_point.r.abs(), end_point.z);
@@ -406,4 +547,93 @@ pub fn trace(fm: &FieldMap, from: &SurfaceSample, params: &TraceParams) -> Field
     line.length_m = s;
     line.voltage_v = (v_start - v_end).abs();
     line
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::mesh::Mesh;
+
+    /// The growth without the power where it is clamped is the clamped power itself.
+    #[test]
+    fn growth_shortcut_is_the_clamped_power() {
+        let full = |q: f64| (0.9 * q.powf(0.2)).clamp(1.0, 5.0);
+        let mut qs = vec![
+            0.0,
+            1e-300,
+            1.69,
+            1.69f64.next_up(),
+            6000.0,
+            6000f64.next_down(),
+        ];
+        qs.extend([f64::INFINITY, f64::MAX, f64::MIN_POSITIVE]);
+        qs.extend((0..20_000).map(|k| 10f64.powf(-3.0 + 8.0 * k as f64 / 19_999.0)));
+        for q in qs {
+            assert_eq!(growth(q).to_bits(), full(q).to_bits(), "at {q}");
+        }
+        assert!(growth(f64::NAN).is_nan() && full(f64::NAN).is_nan());
+    }
+
+    /// The end test with each cell's shape lists (bounding boxes widened by 1e-9) gives the
+    /// same answer as the test against every dielectric and vacuum region, at points all over
+    /// the demo machine (examples/demo_750kv.toml, an invented machine: insulators, a vacuum
+    /// bore, electrodes) and just either side of every grid line.
+    #[test]
+    fn end_test_by_cell_agrees_with_every_shape() {
+        let text = include_str!("../examples/demo_750kv.toml");
+        let model = crate::design::from_str(text, "demo_750kv.toml").expect("demo");
+        let mesh = Mesh::build(&model).expect("mesh");
+        let phi = vec![0.0; mesh.nodes()];
+        let potentials = vec![0.0; model.conductors.len()];
+        let fm = FieldMap::new(&mesh, &model, &phi, &potentials);
+        let b = model.tank.bbox();
+        let mut points = Vec::new();
+        let (nr, nz) = (150, 600);
+        for a in 0..=nr {
+            for c in 0..=nz {
+                let r = b.r_min + (b.r_max - b.r_min) * a as f64 / nr as f64;
+                let z = b.z_min + (b.z_max - b.z_min) * c as f64 / nz as f64;
+                points.push(Point::new(r, z));
+            }
+        }
+        let (i_mid, j_mid) = (mesh.nr() / 2, mesh.nz() / 2);
+        for &x in &mesh.r.x {
+            for d in [x.next_down(), x, x.next_up()] {
+                points.push(Point::new(d, mesh.z.x[j_mid]));
+            }
+        }
+        for &x in &mesh.z.x {
+            for d in [x.next_down(), x, x.next_up()] {
+                points.push(Point::new(mesh.r.x[i_mid], d));
+            }
+        }
+        let mut seen = [0usize; 3];
+        for medium in [Medium::Gas, Medium::Vacuum] {
+            let mut by_cell = Tracer::new(&fm, 1.0, medium, points[0]);
+            let mut every = Tracer::new(&fm, 1.0, medium, points[0]);
+            for boxes in [
+                &mut every.near.dielectric_boxes,
+                &mut every.near.vacuum_boxes,
+            ] {
+                boxes.fill([
+                    f64::NEG_INFINITY,
+                    f64::INFINITY,
+                    f64::NEG_INFINITY,
+                    f64::INFINITY,
+                ]);
+            }
+            for &p in &points {
+                let end = by_cell.end_at(p);
+                assert_eq!(end, every.end_at(p), "at {p:?} in {medium:?}");
+                match end {
+                    Some(LineEnd::Dielectric { .. }) => seen[0] += 1,
+                    Some(LineEnd::MediumBoundary) => seen[1] += 1,
+                    Some(LineEnd::Conductor { .. }) => seen[2] += 1,
+                    _ => {}
+                }
+            }
+        }
+        // The points meet insulators, vacuum boundaries and electrodes.
+        assert!(seen.iter().all(|&n| n > 0), "{seen:?}");
+    }
 }

@@ -151,6 +151,78 @@ pub struct PointField {
     pub field: [f64; 2],
 }
 
+/// One grid cell as [`FieldMap::at`] sees it: its extent and its corners' potentials,
+/// fields and classes, corners in the order (i, j), (i + 1, j), (i, j + 1), (i + 1, j + 1).
+/// A field line takes several steps per cell, so the tracer keeps the last one.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct CellField {
+    pub i: usize,
+    pub j: usize,
+    /// Radii of the cell's sides.
+    pub r: [f64; 2],
+    /// Axial positions of the cell's sides.
+    pub z: [f64; 2],
+    /// ln(r₁/r₀), or 0 in the cell on the axis.
+    r_log: f64,
+    phi: [f64; 4],
+    field: [[f64; 2]; 4],
+    free: [bool; 4],
+}
+
+impl CellField {
+    /// Whether `p` is in this cell as `Axis::locate` finds it (its lower sides included).
+    pub fn holds(&self, p: Point) -> bool {
+        self.r[0] <= p.r && p.r < self.r[1] && self.z[0] <= p.z && p.z < self.z[1]
+    }
+
+    /// The smaller side of the cell.
+    pub fn spacing(&self) -> f64 {
+        (self.r[1] - self.r[0]).min(self.z[1] - self.z[0])
+    }
+
+    /// Potential and field at `p` by bilinear interpolation over the free corners (see
+    /// [`FieldMap::at`]; `p` need not lie in the cell, the weights are clamped to it).
+    #[inline(always)]
+    pub fn at(&self, p: Point) -> PointField {
+        let [r0, r1] = self.r;
+        let [z0, z1] = self.z;
+        let tr = if r0 > 0.0 {
+            ((p.r / r0).ln() / self.r_log).clamp(0.0, 1.0)
+        } else {
+            ((p.r / r1).powi(2)).clamp(0.0, 1.0)
+        };
+        let tz = ((p.z - z0) / (z1 - z0)).clamp(0.0, 1.0);
+        let w = [
+            (1.0 - tr) * (1.0 - tz),
+            tr * (1.0 - tz),
+            (1.0 - tr) * tz,
+            tr * tz,
+        ];
+        let mut v = 0.0;
+        for (w, phi) in w.iter().zip(self.phi) {
+            v += w * phi;
+        }
+        let mut e = [0.0, 0.0];
+        let mut wsum = 0.0;
+        for ((w, f), free) in w.iter().zip(self.field).zip(self.free) {
+            if free {
+                e[0] += w * f[0];
+                e[1] += w * f[1];
+                wsum += w;
+            }
+        }
+        if wsum > 0.0 {
+            e[0] /= wsum;
+            e[1] /= wsum;
+        }
+        PointField {
+            at: p,
+            potential_v: v,
+            field: e,
+        }
+    }
+}
+
 /// A solved potential together with the mesh it lives on.
 pub struct FieldMap<'a> {
     pub mesh: &'a Mesh,
@@ -497,45 +569,36 @@ impl<'a> FieldMap<'a> {
     /// potential is even in r).
     pub fn at(&self, p: Point) -> PointField {
         let m = self.mesh;
-        let i = m.r.locate(p.r);
-        let j = m.z.locate(p.z);
-        let (r0, r1) = (m.r.x[i], m.r.x[i + 1]);
-        let (z0, z1) = (m.z.x[j], m.z.x[j + 1]);
-        let tr = if r0 > 0.0 {
-            ((p.r / r0).ln() / (r1 / r0).ln()).clamp(0.0, 1.0)
-        } else {
-            ((p.r / r1).powi(2)).clamp(0.0, 1.0)
-        };
-        let tz = ((p.z - z0) / (z1 - z0)).clamp(0.0, 1.0);
+        self.cell(m.r.locate(p.r), m.z.locate(p.z)).at(p)
+    }
+
+    /// What [`FieldMap::at`] interpolates from in the cell whose lower corner is node (i, j).
+    pub(crate) fn cell(&self, i: usize, j: usize) -> CellField {
+        let m = self.mesh;
         let corners = [
-            (m.idx(i, j), (1.0 - tr) * (1.0 - tz)),
-            (m.idx(i + 1, j), tr * (1.0 - tz)),
-            (m.idx(i, j + 1), (1.0 - tr) * tz),
-            (m.idx(i + 1, j + 1), tr * tz),
+            m.idx(i, j),
+            m.idx(i + 1, j),
+            m.idx(i, j + 1),
+            m.idx(i + 1, j + 1),
         ];
-        let mut v = 0.0;
-        for &(k, w) in &corners {
-            v += w * self.phi[k];
-        }
-        let mut e = [0.0, 0.0];
-        let mut wsum = 0.0;
         let fields = self.node_fields();
-        for &(k, w) in &corners {
-            if m.fixed[k].is_free() {
-                let f = fields[k];
-                e[0] += w * f[0];
-                e[1] += w * f[1];
-                wsum += w;
-            }
-        }
-        if wsum > 0.0 {
-            e[0] /= wsum;
-            e[1] /= wsum;
-        }
-        PointField {
-            at: p,
-            potential_v: v,
-            field: e,
+        let r = [m.r.x[i], m.r.x[i + 1]];
+        CellField {
+            i,
+            j,
+            r,
+            z: [m.z.x[j], m.z.x[j + 1]],
+            // ln(r₁/r₀), formed once per mesh (0 for the cell on the axis, not used there).
+            r_log: if r[0] > 0.0 { m.r_log[i] } else { 0.0 },
+            phi: corners.map(|k| self.phi[k]),
+            free: corners.map(|k| m.fixed[k].is_free()),
+            field: corners.map(|k| {
+                if m.fixed[k].is_free() {
+                    fields[k]
+                } else {
+                    [0.0; 2]
+                }
+            }),
         }
     }
 

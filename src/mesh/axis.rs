@@ -235,6 +235,26 @@ impl Axis {
         }
     }
 
+    /// As [`Axis::locate`], trying the cell `hint` and its two neighbours first (a point
+    /// that moves a little stays in or next to its cell): the same index, found in a few
+    /// comparisons.
+    pub fn locate_near(&self, v: f64, hint: usize) -> usize {
+        let x = &self.x;
+        if hint + 1 < x.len() && v.is_finite() {
+            if x[hint] <= v {
+                if v < x[hint + 1] {
+                    return hint;
+                }
+                if hint + 2 < x.len() && v < x[hint + 2] {
+                    return hint + 1;
+                }
+            } else if hint > 0 && x[hint - 1] <= v {
+                return hint - 1;
+            }
+        }
+        self.locate(v)
+    }
+
     /// Smallest and largest spacing.
     pub fn spacing_range(&self) -> (f64, f64) {
         let mut lo = f64::INFINITY;
@@ -345,4 +365,55 @@ pub(super) fn grade_axis(
         xs.push(x1);
     }
     Axis::new(xs)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn locate_near_agrees_with_locate_from_any_hint() {
+        // Spacing from 1 mm up to 80 mm and back: many lines per bucket where fine.
+        let mut xs = vec![0.0];
+        let mut h = 0.08;
+        while *xs.last().unwrap() < 1.0 {
+            let x: f64 = xs.last().unwrap() + h;
+            xs.push(x);
+            h = if x < 0.5 {
+                (h / 1.3).max(1e-3)
+            } else {
+                (h * 1.3).min(0.08)
+            };
+        }
+        let ax = Axis::new(xs);
+        let n = ax.len();
+        let mut probes: Vec<f64> = ax.x.clone();
+        probes.extend(ax.x.windows(2).map(|w| 0.5 * (w[0] + w[1])));
+        probes.extend(ax.x.iter().map(|x| x.next_down()));
+        probes.extend((0..2_000).map(|k| -0.1 + 1.2 * k as f64 / 1_999.0));
+        probes.extend([
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+            f64::NAN,
+            1e-300,
+            1.0 - 1e-16,
+        ]);
+        for v in probes {
+            let want = ax.locate(v);
+            // The cell itself, its neighbours, far cells and hints off the axis.
+            let hints = [
+                want,
+                want.saturating_sub(1),
+                want + 1,
+                want + 2,
+                0,
+                n - 2,
+                n - 1,
+                n + 5,
+            ];
+            for hint in hints {
+                assert_eq!(ax.locate_near(v, hint), want, "at {v} from {hint}");
+            }
+        }
+    }
 }
