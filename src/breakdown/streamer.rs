@@ -123,12 +123,24 @@ impl Segment {
     }
 }
 
-fn integrate(
+/// The running sum of the ionisation integral along a profile scaled by `scale`: the total,
+/// where it reaches K (when `find_critical`), where and why it stopped, and the first place
+/// the field rose above the fit's window.
+struct Sum {
+    total: f64,
+    critical: Option<f64>,
+    end: f64,
+    stop: StopReason,
+    above_window: Option<(f64, f64)>,
+}
+
+fn accumulate(
     profile: &[(f64, f64)],
     scale: f64,
     model: &EffectiveIonisation,
     p: f64,
-) -> StreamerIntegral {
+    find_critical: bool,
+) -> Sum {
     let k = model.streamer_number;
     let e_stop = model.stop_field(p);
     let e_max = model.max_field(p);
@@ -165,7 +177,7 @@ fn integrate(
             above_window = Some((if e_a >= e_b { s_a } else { s_end }, e_hi));
         }
         let part = seg.integral(model, p, s_a, s_end);
-        if critical.is_none() && total + part >= k {
+        if find_critical && critical.is_none() && total + part >= k {
             // Bisection for the point where the running integral reaches K.
             let (mut lo, mut hi) = (s_a, s_end);
             for _ in 0..80 {
@@ -185,6 +197,31 @@ fn integrate(
             break;
         }
     }
+    Sum {
+        total,
+        critical,
+        end,
+        stop,
+        above_window,
+    }
+}
+
+/// The ionisation integral along `profile` scaled by `scale`, with where it reaches K and its
+/// validity.
+fn integrate(
+    profile: &[(f64, f64)],
+    scale: f64,
+    model: &EffectiveIonisation,
+    p: f64,
+) -> StreamerIntegral {
+    let k = model.streamer_number;
+    let Sum {
+        total,
+        critical,
+        end,
+        stop,
+        above_window,
+    } = accumulate(profile, scale, model, p, true);
     let mut reasons = Vec::new();
     if let Some((s, e)) = above_window
         && let Some(r) = model.window_reason(e, p)
@@ -259,7 +296,9 @@ pub fn inception(
     let mut lo = model.stop_field(p) / e0;
     let mut hi = 2.0 * lo;
     let mut n = 0;
-    while integrate(profile, hi, model, p).integral < k {
+    // The bracket and the bisection need only the total (the same sum `integrate` forms).
+    let total = |f: f64| accumulate(profile, f, model, p, false).total;
+    while total(hi) < k {
         lo = hi;
         hi *= 2.0;
         n += 1;
@@ -278,7 +317,7 @@ pub fn inception(
         if mid <= lo || mid >= hi {
             break;
         }
-        if integrate(profile, mid, model, p).integral >= k {
+        if total(mid) >= k {
             hi = mid;
         } else {
             lo = mid;
