@@ -31,8 +31,12 @@ pub struct Basis {
     free: Vec<u32>,
     /// Fixed id of every mesh node (`FixedId::FREE` for a free node).
     fixed: Vec<crate::mesh::FixedId>,
-    /// Unit solution of each electrode on the free nodes.
-    phi: Vec<Vec<f32>>,
+    /// The unit solutions on the free nodes, block by block of [`SUM_BLOCK`] free nodes:
+    /// block b holds every electrode's values on its free nodes, electrode after electrode,
+    /// so that a superposition reads the memory straight through.
+    blocks: Vec<f32>,
+    /// Number of electrodes (unit solutions) in `blocks`.
+    units: usize,
     pub capacitance: CapacitanceMatrix,
     /// The surface samples of the mesh, placed once for every field formed from the basis.
     pub surface_plan: crate::field::SurfacePlan,
@@ -100,7 +104,10 @@ impl Basis {
         let mut solvers: Vec<Solver> = (1..runs.len()).map(|_| setup.clone()).collect();
         solvers.push(setup);
         let free_ref = &free;
-        type Unit = (usize, Vec<f32>, Vec<f64>, SolveInfo);
+        let nf = free.len();
+        let blocks = std::sync::Mutex::new(vec![0.0f32; n * nf]);
+        let blocks_ref = &blocks;
+        type Unit = (usize, Vec<f64>, SolveInfo);
         let solved: Vec<Vec<Unit>> = runs
             .par_iter()
             .zip(solvers)
@@ -113,11 +120,18 @@ impl Basis {
                     }
                     let sol = solver.solve(&pots, start)?;
                     let q = conductor_charges(mesh, &sol.phi, &pots);
-                    let kept: Vec<f32> = free_ref
-                        .iter()
-                        .map(|&k| sol.phi[k as usize] as f32)
-                        .collect();
-                    out.push((j, kept, q, sol.info));
+                    // (A lock is poisoned only by a panic, which the parallel run passes on.)
+                    let mut blocks = blocks_ref
+                        .lock()
+                        .unwrap_or_else(std::sync::PoisonError::into_inner);
+                    for (b, chunk) in free_ref.chunks(SUM_BLOCK).enumerate() {
+                        let at = b * SUM_BLOCK * n + j * chunk.len();
+                        for (o, &k) in blocks[at..at + chunk.len()].iter_mut().zip(chunk) {
+                            *o = sol.phi[k as usize] as f32;
+                        }
+                    }
+                    drop(blocks);
+                    out.push((j, q, sol.info));
                     Ok::<_, FaultError>(sol.phi)
                 };
                 // The previous electrode of this run and its unit solution.
@@ -141,17 +155,18 @@ impl Basis {
         let mut solved: Vec<Unit> = solved.into_iter().flatten().collect();
         solved.sort_by_key(|u| u.0);
         let mut c_f = vec![vec![0.0; n]; n];
-        let mut phi: Vec<Vec<f32>> = Vec::with_capacity(n);
         let mut iterations = 0;
         let mut info = None;
-        for (j, unit_phi, q, unit_info) in solved {
+        for (j, q, unit_info) in solved {
             iterations += unit_info.iterations;
             for (i, gi) in groups.iter().enumerate() {
                 c_f[i][j] = gi.conductors.iter().map(|&k| q[k]).sum();
             }
             info = Some(unit_info);
-            phi.push(unit_phi);
         }
+        let blocks = blocks
+            .into_inner()
+            .unwrap_or_else(std::sync::PoisonError::into_inner);
         let Some(info) = info else {
             return Err(TransientError::NothingOffEarth.into());
         };
@@ -167,7 +182,8 @@ impl Basis {
             conductor_electrode,
             free,
             fixed: mesh.fixed.clone(),
-            phi,
+            blocks,
+            units: n,
             capacitance: CapacitanceMatrix {
                 electrodes: groups,
                 c_f,
@@ -230,7 +246,7 @@ impl Basis {
         base_v: &[f64],
         sets: &[Vec<f64>],
     ) -> Vec<Vec<f64>> {
-        let ne = self.phi.len();
+        let ne = self.units;
         // Weights per set and electrode, and the electrodes any set moves.
         let weights: Vec<Vec<f64>> = sets
             .iter()
@@ -258,8 +274,11 @@ impl Basis {
             // Four unit solutions at a time, so that each partial sum is read and written
             // once per four terms.
             for group in moved.chunks(4) {
-                let p: [&[f32]; 4] =
-                    std::array::from_fn(|q| &self.phi[group[q.min(group.len() - 1)]][start..]);
+                let block = &self.blocks[start * ne..];
+                let p: [&[f32]; 4] = std::array::from_fn(|q| {
+                    let e = group[q.min(group.len() - 1)];
+                    &block[e * len..(e + 1) * len]
+                });
                 for (s, w) in weights.iter().enumerate() {
                     let w: [f64; 4] = std::array::from_fn(|q| group.get(q).map_or(0.0, |&e| w[e]));
                     if w.iter().all(|&x| x == 0.0) {
@@ -307,7 +326,7 @@ impl Basis {
 
     /// Bytes held by the unit solutions.
     pub fn memory_bytes(&self) -> usize {
-        self.phi.iter().map(|p| p.len() * 4).sum::<usize>() + self.free.len() * 4
+        self.blocks.len() * 4 + self.free.len() * 4
     }
 }
 
