@@ -187,25 +187,29 @@ pub(super) fn evaluate(
     tick: &(dyn Fn() + Sync),
 ) -> Result<(Vec<Evaluated>, usize), FaultError> {
     let gap_capacitance = firing::gap_capacitances(model, basis, &cases[0].networks);
-    // With parallel strings, the same resistor failing in either string gives the same
-    // potentials, and is evaluated once.
-    type Prepared = (Vec<NetworkSolution>, Vec<Vec<f64>>, Vec<f64>);
-    let prepared: Vec<Prepared> = cases
+    // The conductor potentials of every case (the network solutions are formed again for
+    // the results at the end rather than kept: 20 MB on the tandem). With parallel strings,
+    // the same resistor failing in either string gives the same potentials, and is evaluated
+    // once.
+    let solved = |case: &Case| -> Result<(Vec<NetworkSolution>, Vec<Vec<f64>>), FaultError> {
+        let sols = solve_networks(model, stage_v, &case.networks)?;
+        let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
+        Ok((sols, node_v))
+    };
+    let potentials: Vec<Vec<f64>> = cases
         .par_iter()
-        .map(|case| -> Result<Prepared, FaultError> {
-            let sols = solve_networks(model, stage_v, &case.networks)?;
-            let node_v: Vec<Vec<f64>> = sols.iter().map(|s| s.node_v.clone()).collect();
-            let potentials = grading::potentials_with_nodes(model, stage_v, &node_v)?;
-            Ok((sols, node_v, potentials))
+        .map(|case| -> Result<Vec<f64>, FaultError> {
+            let (_, node_v) = solved(case)?;
+            Ok(grading::potentials_with_nodes(model, stage_v, &node_v)?)
         })
         .collect::<Result<_, _>>()?;
     let mut first_of: std::collections::HashMap<Vec<u64>, usize> = std::collections::HashMap::new();
     let mut distinct: Vec<usize> = Vec::new();
-    let slot: Vec<usize> = prepared
+    let slot: Vec<usize> = potentials
         .iter()
         .enumerate()
         .map(|(ci, p)| {
-            let key: Vec<u64> = p.2.iter().map(|v| v.to_bits()).collect();
+            let key: Vec<u64> = p.iter().map(|v| v.to_bits()).collect();
             *first_of.entry(key).or_insert_with(|| {
                 distinct.push(ci);
                 distinct.len() - 1
@@ -215,14 +219,14 @@ pub(super) fn evaluate(
     // The nominal field (case 0), from which every scenario's sum starts; the scenarios' fields
     // are then formed a block at a time, each unit solution read once per block. The nominal
     // is evaluated in full, and its rows screen the others' (`screen`).
-    let nominal_ev = basis.electrode_potentials(&prepared[0].2);
+    let nominal_ev = basis.electrode_potentials(&potentials[0]);
     let nominal_phi = basis.field(&nominal_ev);
     let mut nominal_work = work_analysis(mesh, basis);
     load_field(
         model,
         basis,
         &mut nominal_work,
-        prepared[0].2.clone(),
+        potentials[0].clone(),
         Some(nominal_phi.clone()),
     );
     let nominal = evaluate_halves(model, &nominal_work)?;
@@ -249,7 +253,7 @@ pub(super) fn evaluate(
     for block in distinct[1..].chunks(FIELD_BLOCK) {
         let sets: Vec<Vec<f64>> = block
             .iter()
-            .map(|&ci| basis.electrode_potentials(&prepared[ci].2))
+            .map(|&ci| basis.electrode_potentials(&potentials[ci]))
             .collect();
         let fields = basis.fields_from(&nominal_phi, &nominal_ev, &sets);
         let done: Vec<Worst> = block
@@ -258,7 +262,7 @@ pub(super) fn evaluate(
             .map(|(&ci, phi)| -> Result<Worst, FaultError> {
                 let mut held = take();
                 let work = &mut held;
-                load_field(model, basis, work, prepared[ci].2.clone(), Some(phi));
+                load_field(model, basis, work, potentials[ci].clone(), Some(phi));
                 let w = match &screen {
                     Some(screen) => screened_margins(model, screen, work)?,
                     None => worst_of(&margin::evaluate(model, work, None)?.rows),
@@ -275,15 +279,16 @@ pub(super) fn evaluate(
     for _ in distinct.len()..cases.len() {
         tick();
     }
+    drop(potentials);
     let raw: Vec<Evaluated> = cases
-        .iter()
-        .zip(prepared)
+        .par_iter()
         .zip(&slot)
-        .map(|((case, (sols, node_v, _)), &k)| {
+        .map(|(case, &k)| -> Result<Evaluated, FaultError> {
+            let (sols, node_v) = solved(case)?;
             let gap_v: Vec<Vec<f64>> = sols.iter().map(|s| s.gap_v.clone()).collect();
             let (fired, gm) = fired_gaps(&case.networks, &node_v);
             let resistors = resistor_check(model, &case.networks, &gap_v, true);
-            Evaluated {
+            Ok(Evaluated {
                 gap_v,
                 fired,
                 gap_margin: gm,
@@ -295,9 +300,9 @@ pub(super) fn evaluate(
                     &sols,
                     &gap_capacitance,
                 ),
-            }
+            })
         })
-        .collect();
+        .collect::<Result<_, _>>()?;
 
     Ok((raw, shared_evaluations))
 }
