@@ -9,6 +9,7 @@ use crate::grading::{self, GradingError};
 use crate::mesh::{Mesh, MeshError};
 use crate::model::Model;
 use crate::solve::{Solution, SolveError, Solver, SolverParams};
+use rayon::prelude::*;
 use serde::Serialize;
 use std::sync::OnceLock;
 use thiserror::Error;
@@ -49,14 +50,39 @@ pub struct Analysis {
 }
 
 /// Solves a model once with its own mesh controls.
+#[cfg(test)]
 pub fn analyze(
     model: &Model,
     params: &SolverParams,
     stage_v: Option<&[f64]>,
 ) -> Result<Analysis, AnalysisError> {
+    analyze_from(model, params, stage_v, None)
+}
+
+/// As [`analyze`], the solve started from `start` — a solution of the same design on another
+/// grid (its potential interpolated at every node) — where one is given. Only the start
+/// changes: the solve meets the same tolerance (the grid study and the accuracy refinement
+/// start from the finer or the previous grid's solution).
+pub fn analyze_from(
+    model: &Model,
+    params: &SolverParams,
+    stage_v: Option<&[f64]>,
+    start: Option<(&Model, &Analysis)>,
+) -> Result<Analysis, AnalysisError> {
     let potentials = grading::potentials(model, stage_v)?;
     let mesh = Mesh::build(model)?;
-    analyze_on(model, mesh, potentials, params)
+    let guess = start.map(|(m, a)| interpolated(&mesh, m, a));
+    analyze_started(model, mesh, potentials, params, guess.as_deref())
+}
+
+/// The potential of `from` (solved for `model`) at every node of `mesh`: a start for a solve
+/// of the same design on that grid.
+pub fn interpolated(mesh: &Mesh, model: &Model, from: &Analysis) -> Vec<f64> {
+    let fm = from.field_map(model);
+    (0..mesh.nodes())
+        .into_par_iter()
+        .map(|k| fm.at(mesh.point(k)).potential_v)
+        .collect()
 }
 
 /// As [`analyze`], on a mesh already built from `model` (with `Mesh::build`) and with the
@@ -67,8 +93,19 @@ pub fn analyze_on(
     potentials: Vec<f64>,
     params: &SolverParams,
 ) -> Result<Analysis, AnalysisError> {
+    analyze_started(model, mesh, potentials, params, None)
+}
+
+/// As [`analyze_on`], the solve started from `start` (the potential at every node).
+pub fn analyze_started(
+    model: &Model,
+    mesh: Mesh,
+    potentials: Vec<f64>,
+    params: &SolverParams,
+    start: Option<&[f64]>,
+) -> Result<Analysis, AnalysisError> {
     let mut solver = Solver::new(&mesh, *params);
-    let solution = solver.solve(&potentials, None)?;
+    let solution = solver.solve(&potentials, start)?;
     let node_fields = OnceLock::new();
     let fm = FieldMap::sharing(&mesh, model, &solution.phi, &potentials, &node_fields);
     let energy_j = fm.energy(&solver.op);

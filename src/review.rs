@@ -17,7 +17,7 @@ pub use crate::margin::{
 };
 pub use crate::mesh::{FixedId, Holder, Mesh, MeshError, builds as meshes_built};
 
-use crate::analysis::{analyze, analyze_on};
+use crate::analysis::{analyze_on, analyze_started, interpolated};
 use crate::grading::summary::summarize;
 use crate::margin::evaluate;
 use crate::model::Model;
@@ -78,6 +78,8 @@ pub fn review(
     let mut m = model.clone();
     let mut unknowns = Vec::new();
     let mut round = 0;
+    // The previous round's design and field: the next round's solve starts from it.
+    let mut previous: Option<(Model, Analysis)> = None;
     loop {
         let fine = match first_mesh.take() {
             Some(mesh) => {
@@ -85,7 +87,14 @@ pub fn review(
                     .map_err(AnalysisError::from)?;
                 analyze_on(&m, mesh, potentials, params)?
             }
-            None => analyze(&m, params, stage_v.as_deref())?,
+            None => {
+                let mesh = Mesh::build(&m).map_err(AnalysisError::from)?;
+                // The previous field is let go once interpolated, before the solve.
+                let start = previous.take().map(|(pm, a)| interpolated(&mesh, &pm, &a));
+                let potentials = crate::grading::potentials(&m, stage_v.as_deref())
+                    .map_err(AnalysisError::from)?;
+                analyze_started(&m, mesh, potentials, params, start.as_deref())?
+            }
         };
         unknowns.push(fine.solution.info.unknowns);
         let study = if with_study {
@@ -121,7 +130,9 @@ pub fn review(
         } else {
             // Refine each missing conductor's neighbourhood by the factor that a second-order
             // error asks for, at least 1/√2 and at most 1/2 in one round.
+            let before = m.clone();
             m.mesh = refined(&m, &misses);
+            previous = Some((before, fine));
             round += 1;
             continue;
         };

@@ -13,7 +13,7 @@
 //! is narrower than [`VALIDATION_FLOOR`] of the peak (the offset the finite-element references
 //! showed below what three grids can see).
 
-use crate::analysis::{Analysis, AnalysisError, analyze};
+use crate::analysis::{Analysis, AnalysisError, analyze_from};
 use crate::field::{FieldMap, InsulatorPeak, JunctionSample, Medium};
 use crate::model::Model;
 use crate::solve::SolverParams;
@@ -245,12 +245,15 @@ pub fn grid_study(
     // the fine one (each solve's numbers are the same either way).
     let (medium, coarse) = if side_by_side(fine, &medium_model, &coarse_model) {
         rayon::join(
-            || analyze(&medium_model, params, stage_v),
-            || analyze(&coarse_model, params, stage_v),
+            || analyze_from(&medium_model, params, stage_v, Some((model, fine))),
+            || analyze_from(&coarse_model, params, stage_v, Some((model, fine))),
         )
     } else {
-        let medium = analyze(&medium_model, params, stage_v);
-        (medium, analyze(&coarse_model, params, stage_v))
+        let medium = analyze_from(&medium_model, params, stage_v, Some((model, fine)));
+        (
+            medium,
+            analyze_from(&coarse_model, params, stage_v, Some((model, fine))),
+        )
     };
     let medium = medium?;
     let (coarse, coarse_unavailable) = match coarse {

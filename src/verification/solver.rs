@@ -190,3 +190,41 @@ fn one_and_two_threads_give_the_same_bits() {
         );
     }
 }
+
+/// A solve started from the solution of the same design on another grid (the grid study's
+/// coarser solves start from the fine one, a refinement round from the round before)
+/// changes only the iterations: on the small fault column, the coarser grid's potential and
+/// peak surface fields equal those of a solve from nothing within the solver's tolerance, in
+/// fewer iterations.
+#[test]
+fn a_start_from_another_grid_changes_only_the_iterations() {
+    use crate::analysis::{analyze, analyze_from};
+    let m = crate::design::from_str(&super::common::small_fault_column(), "small.toml")
+        .expect("valid design");
+    let params = SolverParams::default();
+    let fine = analyze(&m, &params, None).expect("fine solve");
+    let mut coarser = m.clone();
+    coarser.mesh = m.mesh.scaled(crate::study::RATIO);
+    let cold = analyze(&coarser, &params, None).expect("solve from nothing");
+    let warm = analyze_from(&coarser, &params, None, Some((&m, &fine))).expect("started solve");
+    let (ic, iw) = (cold.solution.info.iterations, warm.solution.info.iterations);
+    println!("iterations from nothing {ic}, from the finer grid {iw}");
+    assert!(iw < ic, "{iw} vs {ic}");
+    let scale = cold
+        .solution
+        .phi
+        .iter()
+        .fold(0.0_f64, |a, x| a.max(x.abs()));
+    let diff = cold
+        .solution
+        .phi
+        .iter()
+        .zip(&warm.solution.phi)
+        .fold(0.0_f64, |a, (x, y)| a.max((x - y).abs()));
+    println!("max |Δφ| / max |φ| = {:.2e}", diff / scale);
+    assert!(diff / scale < 5e-8, "{}", diff / scale);
+    for (a, b) in cold.peaks.iter().zip(&warm.peaks) {
+        let (ea, eb) = (a.peak_surface_field_v_per_m, b.peak_surface_field_v_per_m);
+        assert!((ea - eb).abs() <= 1e-7 * ea, "{}: {ea} vs {eb}", a.name);
+    }
+}
