@@ -45,6 +45,13 @@ struct NodeBox {
     j: (usize, usize),
 }
 
+impl NodeBox {
+    /// The node indices of each grid row of the box.
+    fn rows(self, mesh: &Mesh) -> impl Iterator<Item = std::ops::RangeInclusive<usize>> + '_ {
+        (self.j.0..=self.j.1).map(move |j| mesh.idx(self.i.0, j)..=mesh.idx(self.i.1, j))
+    }
+}
+
 /// What the screening keeps of the nominal state.
 pub(super) struct Screen {
     /// Smallest margin of each conductor's rows at nominal; None for a conductor evaluated in
@@ -157,10 +164,8 @@ impl Screen {
             .collect();
         let mut in_box = vec![false; mesh.nodes()];
         for b in boxes.iter().flatten() {
-            for j in b.j.0..=b.j.1 {
-                for i in b.i.0..=b.i.1 {
-                    in_box[mesh.idx(i, j)] = true;
-                }
+            for row in b.rows(mesh) {
+                in_box[row].fill(true);
             }
         }
         let node_e = node_magnitudes(model, work, &in_box);
@@ -201,7 +206,10 @@ impl Screen {
         if node_e.iter().any(|e| e.is_nan()) {
             // A field without a number somewhere: no bound holds for the boxes that hold it.
             for (c, b) in self.boxes.iter().enumerate() {
-                if b.is_none_or(|b| self.nodes_of(&b, &work.mesh).any(|k| node_e[k].is_nan())) {
+                if b.is_none_or(|b| {
+                    b.rows(&work.mesh)
+                        .any(|row| node_e[row].iter().any(|e| e.is_nan()))
+                }) {
                     rho[c] = f64::INFINITY;
                 }
             }
@@ -220,8 +228,7 @@ impl Screen {
             // ratio = e / max(e₀, floor) = e · min(1/e₀, 1/floor), in lanes of four.
             let inv_floor = 1.0 / self.floor[c];
             let mut lanes = [rho[c]; 4];
-            for j in b.j.0..=b.j.1 {
-                let row = mesh.idx(b.i.0, j)..=mesh.idx(b.i.1, j);
+            for row in b.rows(mesh) {
                 let (e, inv) = (&node_e[row.clone()], &self.inv_e[row]);
                 let mut e4 = e.chunks_exact(4);
                 let mut inv4 = inv.chunks_exact(4);
@@ -239,12 +246,6 @@ impl Screen {
             rho[c] = lanes.into_iter().fold(rho[c], f64::max);
         }
         rho
-    }
-
-    /// The node indices of a box.
-    fn nodes_of<'m>(&self, b: &NodeBox, mesh: &'m Mesh) -> impl Iterator<Item = usize> + 'm {
-        let b = *b;
-        (b.j.0..=b.j.1).flat_map(move |j| (b.i.0..=b.i.1).map(move |i| mesh.idx(i, j)))
     }
 
     /// The conductors that must be evaluated in a scenario whose field rose by `rho`, given
