@@ -13,8 +13,17 @@ type Primary<'g> = (usize, &'g Electrode, Option<(usize, &'g Electrode)>);
 pub(super) const BASIS_STREAMS: usize = 2;
 
 /// Free nodes summed together in one block of a superposition, so that the blocks of the
-/// results stay in cache while every unit solution streams through them once.
+/// results stay in cache while every unit solution streams through them once; the unit
+/// solutions are stored by the same blocks ([`unit_row`]).
 pub(super) const SUM_BLOCK: usize = 2048;
+
+/// Where the values of unit solution `e` (of `units`) on free nodes `start..start + len` lie
+/// in the basis's storage: block by block of [`SUM_BLOCK`] free nodes (`start` the first free
+/// node of a block, `len` its length), each block every unit solution in turn.
+fn unit_row(start: usize, len: usize, units: usize, e: usize) -> std::ops::Range<usize> {
+    let at = start * units + e * len;
+    at..at + len
+}
 
 /// The unit-potential solutions of the electrodes, with their capacitance matrix.
 ///
@@ -125,8 +134,8 @@ impl Basis {
                         .lock()
                         .unwrap_or_else(std::sync::PoisonError::into_inner);
                     for (b, chunk) in free_ref.chunks(SUM_BLOCK).enumerate() {
-                        let at = b * SUM_BLOCK * n + j * chunk.len();
-                        for (o, &k) in blocks[at..at + chunk.len()].iter_mut().zip(chunk) {
+                        let row = unit_row(b * SUM_BLOCK, chunk.len(), n, j);
+                        for (o, &k) in blocks[row].iter_mut().zip(chunk) {
                             *o = sol.phi[k as usize] as f32;
                         }
                     }
@@ -274,10 +283,8 @@ impl Basis {
             // Four unit solutions at a time, so that each partial sum is read and written
             // once per four terms.
             for group in moved.chunks(4) {
-                let block = &self.blocks[start * ne..];
                 let p: [&[f32]; 4] = std::array::from_fn(|q| {
-                    let e = group[q.min(group.len() - 1)];
-                    &block[e * len..(e + 1) * len]
+                    &self.blocks[unit_row(start, len, ne, group[q.min(group.len() - 1)])]
                 });
                 for (s, w) in weights.iter().enumerate() {
                     let w: [f64; 4] = std::array::from_fn(|q| group.get(q).map_or(0.0, |&e| w[e]));
