@@ -72,7 +72,7 @@ pub fn analyze_from(
     let potentials = grading::potentials(model, stage_v)?;
     let mesh = Mesh::build(model)?;
     let guess = start.map(|(m, a)| interpolated(&mesh, m, a));
-    analyze_started(model, mesh, potentials, params, guess.as_deref())
+    analyze_on(model, mesh, potentials, params, guess.as_deref())
 }
 
 /// The potential of `from` (solved for `model`) at every node of `mesh`: a start for a solve
@@ -85,19 +85,10 @@ pub fn interpolated(mesh: &Mesh, model: &Model, from: &Analysis) -> Vec<f64> {
         .collect()
 }
 
-/// As [`analyze`], on a mesh already built from `model` (with `Mesh::build`) and with the
-/// electrode potentials already found.
+/// As [`analyze`], on a mesh already built from `model` (with `Mesh::build`), with the
+/// electrode potentials already found and the solve started from `start` (the potential at
+/// every node, e.g. [`interpolated`]) where one is given.
 pub fn analyze_on(
-    model: &Model,
-    mesh: Mesh,
-    potentials: Vec<f64>,
-    params: &SolverParams,
-) -> Result<Analysis, AnalysisError> {
-    analyze_started(model, mesh, potentials, params, None)
-}
-
-/// As [`analyze_on`], the solve started from `start` (the potential at every node).
-pub fn analyze_started(
     model: &Model,
     mesh: Mesh,
     potentials: Vec<f64>,

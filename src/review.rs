@@ -17,7 +17,7 @@ pub use crate::margin::{
 };
 pub use crate::mesh::{FixedId, Holder, Mesh, MeshError, builds as meshes_built};
 
-use crate::analysis::{analyze_on, analyze_started, interpolated};
+use crate::analysis::{analyze_on, interpolated};
 use crate::grading::summary::summarize;
 use crate::margin::evaluate;
 use crate::model::Model;
@@ -81,21 +81,16 @@ pub fn review(
     // The previous round's design and field: the next round's solve starts from it.
     let mut previous: Option<(Model, Analysis)> = None;
     loop {
-        let fine = match first_mesh.take() {
-            Some(mesh) => {
-                let potentials = crate::grading::potentials(&m, stage_v.as_deref())
-                    .map_err(AnalysisError::from)?;
-                analyze_on(&m, mesh, potentials, params)?
-            }
-            None => {
-                let mesh = Mesh::build(&m).map_err(AnalysisError::from)?;
-                // The previous field is let go once interpolated, before the solve.
-                let start = previous.take().map(|(pm, a)| interpolated(&mesh, &pm, &a));
-                let potentials = crate::grading::potentials(&m, stage_v.as_deref())
-                    .map_err(AnalysisError::from)?;
-                analyze_started(&m, mesh, potentials, params, start.as_deref())?
-            }
+        let mesh = match first_mesh.take() {
+            Some(mesh) => mesh,
+            None => Mesh::build(&m).map_err(AnalysisError::from)?,
         };
+        // A refinement round starts from the round before; that field is let go once
+        // interpolated, before the solve.
+        let start = previous.take().map(|(pm, a)| interpolated(&mesh, &pm, &a));
+        let potentials =
+            crate::grading::potentials(&m, stage_v.as_deref()).map_err(AnalysisError::from)?;
+        let fine = analyze_on(&m, mesh, potentials, params, start.as_deref())?;
         unknowns.push(fine.solution.info.unknowns);
         let study = if with_study {
             Some(grid_study(&m, &fine, params, stage_v.as_deref())?)
